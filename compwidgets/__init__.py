@@ -1,0 +1,50 @@
+"""compwidgets: linked Jupyter widgets for exploring compositional data.
+
+Quick start::
+
+    import compwidgets as cw
+    bench = cw.explore(cw.demo.stream_sediments())   # a linked workbench
+    bench                                            # display it in a notebook
+    bench.model.select_labels([...])                 # keep working in code
+
+The maths lives in :mod:`compwidgets.core` (pure numpy / scipy / pandas).
+Widget modules are imported lazily, so ``import compwidgets.core`` pulls in no
+widget library.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+from . import core
+
+__version__ = "0.1.0"
+
+_LAZY = {
+    "read_composition": ("compwidgets.intake", "read_composition"),
+    "Composition": ("compwidgets.composition", "Composition"),
+    "CompositionModel": ("compwidgets.model", "CompositionModel"),
+    "explore": ("compwidgets.workbench", "explore"),
+    "Workbench": ("compwidgets.workbench", "Workbench"),
+    "BalanceTransformer": ("compwidgets.transformer", "BalanceTransformer"),
+    "demo": ("compwidgets.demo", None),
+    "export": ("compwidgets.export", None),
+    "views": ("compwidgets.views", None),
+}
+
+__all__ = ["core", *_LAZY]
+
+
+def __getattr__(name: str):
+    try:
+        module_name, attribute = _LAZY[name]
+    except KeyError:
+        raise AttributeError(f"module 'compwidgets' has no attribute {name!r}") from None
+    module = importlib.import_module(module_name)
+    value = module if attribute is None else getattr(module, attribute)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_LAZY))

@@ -1,0 +1,54 @@
+"""The compositional maths of compwidgets: pure numpy / scipy / pandas.
+
+Every function takes one composition of shape (D,) or a matrix (n, D) as an
+array-like; given a DataFrame it returns a DataFrame with the same index.
+Every variance uses ddof = 1 (:data:`DDOF`). Log-ratio functions raise
+:class:`CompositionError` (a ``ValueError``) naming the offending rows and
+columns for zero, negative or non-finite input, never returning NaN.
+"""
+
+from ._arrays import CompositionError
+from .operations import (
+    aitchison_distance,
+    aitchison_inner,
+    aitchison_norm,
+    closure,
+    perturb,
+    power,
+)
+from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
+from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
+from .subcomp import amalgamate, subcomposition
+from .transforms import alr, alr_inv, clr, clr_inv, default_basis, ilr, ilr_inv
+from .zeros import DEFAULT_FRACTION, multiplicative_replacement
+
+__all__ = [
+    "DDOF",
+    "DEFAULT_FRACTION",
+    "CompositionError",
+    "SBPError",
+    "aitchison_distance",
+    "aitchison_inner",
+    "aitchison_norm",
+    "alr",
+    "alr_inv",
+    "amalgamate",
+    "balance_names",
+    "balances",
+    "center",
+    "closure",
+    "clr",
+    "clr_covariance",
+    "clr_inv",
+    "default_basis",
+    "ilr",
+    "ilr_inv",
+    "multiplicative_replacement",
+    "perturb",
+    "power",
+    "sbp_basis",
+    "subcomposition",
+    "total_variance",
+    "validate_sbp",
+    "variation_matrix",
+]

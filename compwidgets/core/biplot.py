@@ -1,0 +1,458 @@
+"""The compositional (clr) biplot: column-centred clr coordinates and their SVD.
+
+References
+----------
+Aitchison, J. and Greenacre, M. (2002) Biplots of compositional data.
+Journal of the Royal Statistical Society, Series C (Applied Statistics) 51, 375-392.
+
+Definitions
+-----------
+Let ``Z`` be the (n, D) clr matrix of the rows used, ``Zc = Z - mean(Z)`` its
+column-centred form and ``Zc = U S V^T`` the thin SVD, truncated to the
+``r = min(n - 1, D - 1)`` components that can be non-zero (the clr rows sum to
+zero and the centred columns do too). With ``n`` the number of rows used and
+the package-wide ``ddof = 1`` (:data:`compwidgets.core.stats.DDOF`):
+
+===========  ===========================  ==============================
+scaling      row (sample) coordinates     column (part) coordinates
+===========  ===========================  ==============================
+form         ``U S``                      ``V``
+covariance   ``sqrt(n - 1) U``            ``V S / sqrt(n - 1)``
+===========  ===========================  ==============================
+
+Both give ``rows @ columns.T == Zc`` with every component. In the covariance
+biplot the length of a ray is the standard deviation of that clr coordinate,
+the distance between two ray tips ("link") is the standard deviation of the
+log-ratio of the two parts, and the cosine of the angle between two rays is the
+correlation of their clr coordinates (exactly with every component,
+approximately in a plane). In the form biplot the distance between two row
+points is their Aitchison distance.
+
+Sign convention
+---------------
+An SVD fixes each component only up to its sign. Here each component is
+oriented so that its part loading (column of ``V``) with the largest absolute
+value is positive; among loadings equal in absolute value up to a relative
+1e-9, the first part in column order decides. The result is deterministic for
+a given input and does not depend on the order of the rows.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from ._arrays import CompositionError, _listing, as_table
+from .stats import DDOF
+
+#: The scalings :func:`clr_biplot` accepts.
+SCALINGS = ("covariance", "form")
+
+#: How the rows with a missing (NaN) clr value are treated.
+MISSING = ("raise", "omit")
+
+#: Relative tolerance on a row sum of the clr input (it must be zero).
+_ROW_SUM_RTOL = 1e-8
+
+#: Root-mean-square centred clr below this (relative to max |clr|, at least 1) counts as 0.
+_ZERO_RTOL = 1e-12
+
+#: Loadings within this relative distance of the largest |loading| count as tied.
+_TIE_RTOL = 1e-9
+
+
+@dataclass(frozen=True, eq=False)
+class Biplot:
+    """A fitted compositional biplot (see the module docstring for definitions).
+
+    Attributes
+    ----------
+    row_coords : ndarray of shape (n, k)
+        Coordinates of the rows (samples), one row per input row; rows that were
+        left out (``missing="omit"``) hold NaN. ``k`` is ``n_components`` of
+        :func:`clr_biplot` (default ``r``).
+    column_coords : ndarray of shape (D, r)
+        Coordinates of the ray tips of the parts, always for all ``r`` components.
+    singular_values : ndarray of shape (r,)
+        Singular values ``S`` of the centred clr matrix, decreasing.
+    explained_variance : ndarray of shape (r,)
+        Variance of each component, ``S**2 / (n - 1)``.
+    explained_ratio : ndarray of shape (r,)
+        Share of the total variance of each component (sums to 1).
+    parts : list of str
+        Part names, in column order.
+    scaling : str
+        ``"covariance"`` or ``"form"``.
+    total_variance : float
+        Total variance (trace of the clr covariance, ddof = 1) of the rows used.
+    clr_mean : ndarray of shape (D,)
+        Column means of the clr coordinates of the rows used (clr of the centre).
+    rows_used : ndarray of bool, shape (n,)
+        Which input rows entered the SVD.
+    left_vectors : ndarray of shape (n, k)
+        ``U`` (orthonormal columns over the rows used; NaN for rows left out).
+    right_vectors : ndarray of shape (D, r)
+        ``V`` (orthonormal columns, each summing to zero).
+    """
+
+    row_coords: np.ndarray
+    column_coords: np.ndarray
+    singular_values: np.ndarray
+    explained_variance: np.ndarray
+    explained_ratio: np.ndarray
+    parts: list[str]
+    scaling: str
+    total_variance: float
+    clr_mean: np.ndarray = field(repr=False)
+    rows_used: np.ndarray = field(repr=False)
+    left_vectors: np.ndarray = field(repr=False)
+    right_vectors: np.ndarray = field(repr=False)
+
+    @property
+    def n_rows_used(self) -> int:
+        """Number of rows that entered the SVD."""
+        return int(self.rows_used.sum())
+
+    @property
+    def n_rows_left_out(self) -> int:
+        """Number of input rows left out because of a missing clr value."""
+        return int(self.rows_used.size - self.rows_used.sum())
+
+    @property
+    def n_components(self) -> int:
+        """Number of components ``r`` (columns of :attr:`column_coords`)."""
+        return int(self.singular_values.size)
+
+    def with_scaling(self, scaling: str) -> Biplot:
+        """The same biplot in another scaling, without a new SVD.
+
+        Parameters
+        ----------
+        scaling : {"covariance", "form"}
+
+        Returns
+        -------
+        Biplot
+            ``self`` when the scaling is unchanged, else a new object sharing
+            the singular vectors.
+        """
+        scaling = _check_scaling(scaling)
+        if scaling == self.scaling:
+            return self
+        rows, cols = _scaled(
+            self.left_vectors,
+            self.right_vectors,
+            self.singular_values,
+            self.n_rows_used,
+            scaling,
+        )
+        return Biplot(
+            row_coords=rows,
+            column_coords=cols,
+            singular_values=self.singular_values,
+            explained_variance=self.explained_variance,
+            explained_ratio=self.explained_ratio,
+            parts=list(self.parts),
+            scaling=scaling,
+            total_variance=self.total_variance,
+            clr_mean=self.clr_mean,
+            rows_used=self.rows_used,
+            left_vectors=self.left_vectors,
+            right_vectors=self.right_vectors,
+        )
+
+    def part_position(self, part: str | int) -> int:
+        """Position of ``part`` (a name or an integer position) in :attr:`parts`."""
+        if isinstance(part, (int, np.integer)) and not isinstance(part, bool):
+            D = len(self.parts)
+            if not -D <= part < D:
+                raise CompositionError(f"biplot: part position {part} out of range for {D} parts")
+            return int(part) % D
+        if part in self.parts:
+            return self.parts.index(part)
+        raise CompositionError(
+            f"biplot: unknown part {part!r}; parts are {_listing(list(self.parts))}"
+        )
+
+
+def clr_biplot(
+    clr_matrix,
+    scaling: str = "covariance",
+    *,
+    parts: Sequence[str] | None = None,
+    n_components: int | None = None,
+    missing: str = "raise",
+) -> Biplot:
+    """Compositional biplot of a clr matrix (Aitchison & Greenacre 2002).
+
+    Parameters
+    ----------
+    clr_matrix : array-like or DataFrame of shape (n, D)
+        clr coordinates, one row per sample (each row sums to zero). Columns
+        named ``clr(part)`` give the part names ``part``.
+    scaling : {"covariance", "form"}, default "covariance"
+        Covariance biplot (rays show standard deviations) or form biplot
+        (row points keep Aitchison distances).
+    parts : sequence of str, optional
+        Part names (default: from the DataFrame columns, else ``x1 .. xD``).
+    n_components : int, optional
+        How many columns of row coordinates (and left vectors) to keep, 1..r
+        (default all ``r``). Column coordinates and variances always cover
+        every component; this only saves memory for tall tables.
+    missing : {"raise", "omit"}, default "raise"
+        Rows holding NaN: ``"raise"`` raises naming them; ``"omit"`` leaves them
+        out of the SVD and gives them NaN coordinates (see ``rows_used``).
+
+    Returns
+    -------
+    Biplot
+
+    Raises
+    ------
+    CompositionError
+        Fewer than 2 parts or 2 rows used, infinite values, NaN rows with
+        ``missing="raise"``, rows that do not sum to zero, zero total variance,
+        an unknown scaling, or a bad ``parts`` / ``n_components``.
+    """
+    scaling = _check_scaling(scaling)
+    if missing not in MISSING:
+        raise CompositionError(f"clr_biplot: missing must be 'raise' or 'omit', got {missing!r}")
+    t = as_table(clr_matrix, "clr_matrix", min_parts=2)
+    Z = t.values
+    n_all, D = Z.shape
+    names = _part_names(t, parts, D)
+
+    inf = np.isinf(Z)
+    if inf.any():
+        rows = np.flatnonzero(inf.any(axis=1))
+        raise CompositionError(
+            f"clr_matrix: infinite values in rows {_listing(t.row_labels(rows), len(rows))}; "
+            "clr coordinates of a composition are finite (zeros must be replaced first)"
+        )
+    nan_rows = np.isnan(Z).any(axis=1)
+    if nan_rows.any() and missing == "raise":
+        rows = np.flatnonzero(nan_rows)
+        raise CompositionError(
+            f"clr_matrix: missing values (NaN) in rows {_listing(t.row_labels(rows), len(rows))} "
+            f"({len(rows)} of {n_all}); pass missing='omit' to leave them out"
+        )
+    used = ~nan_rows
+    Zu = Z[used]
+    n = Zu.shape[0]
+    if n <= DDOF:
+        raise CompositionError(
+            f"clr_biplot: needs at least {DDOF + 1} complete rows, got {n} "
+            f"({n_all - n} left out for missing values)"
+        )
+    sums = np.abs(Zu.sum(axis=1))
+    limit = _ROW_SUM_RTOL * D * np.maximum(1.0, np.abs(Zu).max(axis=1))
+    bad = sums > limit
+    if bad.any():
+        rows = np.flatnonzero(used)[bad]
+        first = rows[0]
+        raise CompositionError(
+            f"clr_matrix: rows {_listing(t.row_labels(rows), len(rows))} do not sum to zero "
+            f"(first: row {t.row_labels([first])[0]!r} sums to {float(Z[first].sum())!r}); "
+            "give clr coordinates, e.g. compwidgets.core.clr(X)"
+        )
+
+    r = min(n - 1, D - 1)
+    if n_components is None:
+        k = r
+    else:
+        if isinstance(n_components, bool) or not isinstance(n_components, (int, np.integer)):
+            raise CompositionError(
+                f"clr_biplot: n_components must be an integer, got {n_components!r}"
+            )
+        if not 1 <= n_components <= r:
+            raise CompositionError(
+                f"clr_biplot: n_components must be in 1..{r} for {n} rows and {D} parts, "
+                f"got {n_components}"
+            )
+        k = int(n_components)
+
+    mean = Zu.mean(axis=0)
+    Zc = Zu - mean
+    U, s, Vt = np.linalg.svd(Zc, full_matrices=False)
+    U, s, V = U[:, :r], s[:r], Vt[:r].T
+    total_ss = float(np.sum(Zc * Zc))
+    scale = max(1.0, float(np.abs(Zu).max()))
+    if not np.sqrt(total_ss / Zc.size) > _ZERO_RTOL * scale:
+        raise CompositionError(
+            f"clr_biplot: the {n} rows used all have the same composition (total variance 0); "
+            "a biplot needs variation"
+        )
+    signs = _orientation(V)
+    U, V = U * signs, V * signs
+
+    U_all = np.full((n_all, k), np.nan)
+    U_all[used] = U[:, :k]
+    U_all.flags.writeable = False
+    V.flags.writeable = False
+    rows_c, cols_c = _scaled(U_all, V, s, n, scaling)
+    explained_variance = s**2 / (n - DDOF)
+    return Biplot(
+        row_coords=rows_c,
+        column_coords=cols_c,
+        singular_values=_frozen(s),
+        explained_variance=_frozen(explained_variance),
+        explained_ratio=_frozen(s**2 / total_ss),
+        parts=names,
+        scaling=scaling,
+        total_variance=total_ss / (n - DDOF),
+        clr_mean=_frozen(mean),
+        rows_used=_frozen(used),
+        left_vectors=U_all,
+        right_vectors=V,
+    )
+
+
+def link_length(
+    biplot: Biplot, i: str | int, j: str | int, components: Sequence[int] | None = None
+) -> float:
+    """Distance between the ray tips of parts ``i`` and ``j``.
+
+    In a covariance biplot this "link" is the standard deviation (ddof = 1) of
+    ``ln(x_i / x_j)`` when every component is used (``components=None``), and
+    its approximation in the plane of the chosen components otherwise.
+
+    Parameters
+    ----------
+    biplot : Biplot
+    i, j : str or int
+        Part names or positions.
+    components : sequence of int, optional
+        0-based component numbers (default: all).
+
+    Returns
+    -------
+    float
+    """
+    cols = _components(biplot, components)
+    a, b = biplot.part_position(i), biplot.part_position(j)
+    diff = biplot.column_coords[a, cols] - biplot.column_coords[b, cols]
+    return float(np.sqrt(np.sum(diff * diff)))
+
+
+def ray_associations(
+    biplot: Biplot, i: str | int, components: Sequence[int] | None = (0, 1)
+) -> pd.Series:
+    """Cosines between the ray of part ``i`` and every other ray, most associated first.
+
+    In a covariance biplot the cosine of the angle between two rays is the
+    correlation of their clr coordinates with every component, and its
+    approximation in a plane. Rays of (numerically) zero length in the chosen
+    components have no direction: their cosine is NaN and they come last.
+
+    Parameters
+    ----------
+    biplot : Biplot
+    i : str or int
+        Part name or position.
+    components : sequence of int, default (0, 1)
+        0-based component numbers of the plane (``None``: all components).
+
+    Returns
+    -------
+    pandas.Series
+        Index: the other parts; values: cosines in [-1, 1], sorted from the most
+        positively associated to the least (most negative), NaN last.
+
+    Raises
+    ------
+    CompositionError
+        The ray of part ``i`` has zero length in the chosen components.
+    """
+    cols = _components(biplot, components)
+    a = biplot.part_position(i)
+    C = biplot.column_coords[:, cols]
+    lengths = np.sqrt(np.sum(C * C, axis=1))
+    tiny = _TIE_RTOL * max(float(lengths.max()), np.finfo(float).tiny)
+    if lengths[a] <= tiny:
+        raise CompositionError(
+            f"biplot: the ray of part {biplot.parts[a]!r} has zero length in components "
+            f"{[c + 1 for c in cols]}; it has no direction to compare"
+        )
+    others = [p for p in range(len(biplot.parts)) if p != a]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        cos = (C[others] @ C[a]) / (lengths[others] * lengths[a])
+    cos = np.where(lengths[others] > tiny, np.clip(cos, -1.0, 1.0), np.nan)
+    series = pd.Series(cos, index=[biplot.parts[p] for p in others], name=biplot.parts[a])
+    return series.sort_values(ascending=False, na_position="last", kind="stable")
+
+
+# ----------------------------------------------------------------------------- helpers
+
+
+def _check_scaling(scaling: str) -> str:
+    if scaling not in SCALINGS:
+        raise CompositionError(f"biplot: unknown scaling {scaling!r}; use 'covariance' or 'form'")
+    return scaling
+
+
+def _part_names(t, parts: Sequence[str] | None, D: int) -> list[str]:
+    if parts is not None:
+        if isinstance(parts, str):
+            raise CompositionError("clr_biplot: parts must be a sequence of names, not one string")
+        names = [str(p) for p in parts]
+        if len(names) != D:
+            raise CompositionError(f"clr_biplot: {len(names)} part names given for {D} columns")
+    else:
+        names = []
+        for c in t.part_names():
+            names.append(c[4:-1] if c.startswith("clr(") and c.endswith(")") else c)
+    dup = sorted({p for p in names if names.count(p) > 1})
+    if dup:
+        raise CompositionError(f"clr_biplot: duplicate part names {_listing(dup)}")
+    return names
+
+
+def _orientation(V: np.ndarray) -> np.ndarray:
+    """Sign (+1/-1) per column of V making its largest-|loading| entry positive."""
+    absV = np.abs(V)
+    signs = np.ones(V.shape[1])
+    for c in range(V.shape[1]):
+        top = absV[:, c].max()
+        first = int(np.flatnonzero(absV[:, c] >= top * (1 - _TIE_RTOL))[0])
+        if V[first, c] < 0:
+            signs[c] = -1.0
+    return signs
+
+
+def _scaled(U, V, s, n: int, scaling: str) -> tuple[np.ndarray, np.ndarray]:
+    k = U.shape[1]
+    if scaling == "form":
+        rows, cols = U * s[:k], V.copy()
+    else:
+        root = np.sqrt(n - DDOF)
+        rows, cols = U * root, V * (s / root)
+    return _frozen(rows), _frozen(cols)
+
+
+def _components(biplot: Biplot, components: Sequence[int] | None) -> list[int]:
+    r = biplot.n_components
+    if components is None:
+        return list(range(r))
+    if isinstance(components, (int, np.integer, str)):
+        raise CompositionError(
+            f"biplot: components must be a sequence of component numbers, got {components!r}"
+        )
+    cols = []
+    for c in components:
+        if isinstance(c, bool) or not isinstance(c, (int, np.integer)) or not 0 <= c < r:
+            raise CompositionError(
+                f"biplot: component {c!r} is not one of 0..{r - 1} (0-based; {r} components)"
+            )
+        cols.append(int(c))
+    if not cols or len(set(cols)) != len(cols):
+        raise CompositionError(f"biplot: components must be distinct and non-empty, got {cols}")
+    return cols
+
+
+def _frozen(a: np.ndarray) -> np.ndarray:
+    a = np.asarray(a)
+    a.flags.writeable = False
+    return a

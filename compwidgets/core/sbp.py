@@ -1,0 +1,171 @@
+"""Sequential binary partitions (SBP) and balances.
+
+An SBP of D parts is a signed matrix of D-1 rows over the D parts: row k splits
+one group of parts into a ``+1`` side (numerator, r parts) and a ``-1`` side
+(denominator, s parts); ``0`` marks parts outside that group. The first row
+splits all parts; every later row splits exactly one group made by an earlier
+row (Egozcue & Pawlowsky-Glahn 2005, Groups of parts and their balances in
+compositional data analysis, Mathematical Geology 37(7), 795-828; from memory).
+
+The balance of row k is
+
+    b_k = sqrt(r s / (r + s)) * ln( g(x_+) / g(x_-) ),
+
+with g the geometric mean; its contrast vector has ``+sqrt(s / (r (r + s)))``
+on the numerator parts and ``-sqrt(r / (s (r + s)))`` on the denominator parts.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+from ._arrays import CompositionError, as_table
+from .transforms import clr_values
+
+
+class SBPError(CompositionError):
+    """An SBP matrix that is not a valid sequential binary partition."""
+
+
+def _as_sbp_array(sbp) -> tuple[np.ndarray, list | None]:
+    parts = None
+    if isinstance(sbp, pd.DataFrame):
+        parts = [str(c) for c in sbp.columns]
+        sbp = sbp.to_numpy()
+    try:
+        S = np.asarray(sbp, dtype=float)
+    except (TypeError, ValueError) as err:
+        raise SBPError(f"SBP: cannot read as a matrix of -1/0/+1 ({err})") from None
+    return S, parts
+
+
+def validate_sbp(sbp, parts: Sequence[str] | None = None, complete: bool = True) -> np.ndarray:
+    """Check an SBP and return it as an int8 array of shape (D-1, D).
+
+    Parameters
+    ----------
+    sbp : array-like or DataFrame
+        Signed matrix (balances as rows, parts as columns).
+    parts : sequence of str, optional
+        Part names, only used to make error messages readable.
+    complete : bool, default True
+        Require all D-1 rows. With False, a partition still being built
+        (its first k rows, 1 <= k <= D-1) is accepted; its balances are
+        orthonormal too, but do not span the whole simplex.
+
+    Raises
+    ------
+    SBPError
+        With the (1-based) row that is wrong and why.
+    """
+    S, frame_parts = _as_sbp_array(sbp)
+    names = list(parts) if parts is not None else frame_parts
+    if S.ndim != 2:
+        raise SBPError(f"SBP: expected a 2-D matrix (balances x parts), got {S.ndim}-D")
+    n_rows, D = S.shape
+    if D < 2:
+        raise SBPError(f"SBP: {D} part(s); a partition needs at least 2 parts")
+    if names is None:
+        names = [f"part {j + 1}" for j in range(D)]
+    elif len(names) != D:
+        raise SBPError(f"SBP: {len(names)} part names for {D} columns")
+    if not complete and 1 <= n_rows < D - 1:
+        pass
+    elif n_rows != D - 1:
+        raise SBPError(
+            f"SBP: {n_rows} rows for {D} parts; an SBP of D parts has exactly D-1 = {D - 1} rows"
+        )
+    if not np.all(np.isfinite(S)) or not np.all(np.isin(S, (-1, 0, 1))):
+        r, c = np.argwhere(~np.isin(np.nan_to_num(S, nan=9), (-1, 0, 1)))[0]
+        raise SBPError(
+            f"SBP row {r + 1}: value {float(S[r, c])!r} for {names[c]!r}; "
+            "only +1, -1 and 0 are allowed"
+        )
+
+    def label(cols) -> str:
+        return "{" + ", ".join(names[j] for j in sorted(cols)) + "}"
+
+    open_groups: list[frozenset] = [frozenset(range(D))]
+    for k, row in enumerate(S):
+        plus = frozenset(np.flatnonzero(row > 0).tolist())
+        minus = frozenset(np.flatnonzero(row < 0).tolist())
+        if not plus or not minus:
+            side = "+1" if not plus else "-1"
+            raise SBPError(f"SBP row {k + 1}: no part on the {side} side; each row needs both")
+        support = plus | minus
+        if support not in open_groups:
+            if k == 0:
+                left = sorted(set(range(D)) - support)
+                raise SBPError(
+                    f"SBP row 1: parts {label(left)} are in no group; the first row must put "
+                    "every part on the +1 or -1 side"
+                )
+            still = ", ".join(label(g) for g in open_groups) or "none"
+            raise SBPError(
+                f"SBP row {k + 1}: splits {label(support)}, which is not one group made by the "
+                f"rows above (groups still to split: {still})"
+            )
+        open_groups.remove(support)
+        open_groups.extend(g for g in (plus, minus) if len(g) > 1)
+    return S.astype(np.int8)
+
+
+def sbp_basis(sbp, complete: bool = True) -> np.ndarray:
+    """Orthonormal contrast matrix (D-1, D) of an SBP (Egozcue & Pawlowsky-Glahn 2005).
+
+    With ``complete=False`` a partial SBP of k rows gives its k contrast rows.
+    """
+    S = validate_sbp(sbp, complete=complete).astype(float)
+    r = (S > 0).sum(axis=1, keepdims=True)
+    s = (S < 0).sum(axis=1, keepdims=True)
+    return np.where(S > 0, np.sqrt(s / (r * (r + s))), 0.0) - np.where(
+        S < 0, np.sqrt(r / (s * (r + s))), 0.0
+    )
+
+
+def balance_names(sbp, parts: Sequence[str], complete: bool = True) -> list[str]:
+    """Default balance names ``"num1,num2 | den1,den2"`` (numerator | denominator)."""
+    S = validate_sbp(sbp, parts, complete)
+    parts = [str(p) for p in parts]
+    return [
+        ",".join(parts[j] for j in np.flatnonzero(row > 0))
+        + " | "
+        + ",".join(parts[j] for j in np.flatnonzero(row < 0))
+        for row in S
+    ]
+
+
+def balances(X, sbp, names: Sequence[str] | None = None, complete: bool = True):
+    """Balances (ilr coordinates) of ``X`` for the SBP ``sbp``.
+
+    Parameters
+    ----------
+    X : array-like or DataFrame of shape (n, D)
+    sbp : array-like or DataFrame of shape (D-1, D)
+        When both are DataFrames the SBP's columns are matched to ``X``'s by name.
+    names : list of str, optional
+        Column names of the result; default :func:`balance_names`.
+    complete : bool, default True
+        With False, a partial SBP (its first k rows) gives its k balances.
+    """
+    t = as_table(X, min_parts=2)
+    if isinstance(sbp, pd.DataFrame) and t.labelled:
+        missing = [c for c in t.columns if c not in sbp.columns]
+        extra = [c for c in sbp.columns if c not in t.columns]
+        if missing or extra:
+            raise SBPError(
+                f"SBP parts do not match the data: missing {missing}, not in the data {extra}"
+            )
+        sbp = sbp[list(t.columns)]
+    shape = _as_sbp_array(sbp)[0].shape
+    S = validate_sbp(sbp, t.part_names() if shape[-1:] == (t.values.shape[1],) else None, complete)
+    if S.shape[1] != t.values.shape[1]:
+        raise SBPError(f"SBP has {S.shape[1]} parts but the data have {t.values.shape[1]}")
+    if names is None:
+        names = balance_names(S, t.part_names(), complete)
+    elif len(names) != S.shape[0]:
+        raise SBPError(f"{len(names)} balance names given for {S.shape[0]} balances")
+    return t.wrap(clr_values(t) @ sbp_basis(S, complete).T, list(names))

@@ -1,0 +1,499 @@
+"""Exports of a model's balances and SBP: DataFrames, CSV files and a JSON document.
+
+- :func:`ilr_frame` — balances (ilr coordinates) per row, named as the model's balances;
+- :func:`sbp_frame` / :func:`contrast_frame` — the signed SBP and its orthonormal contrasts;
+- :func:`sbp_document` / :func:`save_sbp` / :func:`load_sbp` — the partition as a JSON
+  document that rebuilds the same SBP on the same or another table;
+- :func:`save_ilr_csv` / :func:`save_selected_csv` — CSV files.
+
+The JSON document (format ``"compwidgets-sbp"``, version 1)::
+
+    {
+      "format": "compwidgets-sbp",
+      "version": 1,
+      "parts": ["SiO2", "Al2O3", ...],          # the active parts, in order
+      "tree": {...},                             # see compwidgets.core.tree
+      "balances": [                              # one per SBP row, in row order
+        {"name": "...", "numerator": [...], "denominator": [...]}, ...
+      ],
+      "unit": "wt%",                             # unit of the table it was made on
+      "replacement": {"strategy": ..., ...},     # how values below detection were replaced
+      "amalgamations": {"FeOt": ["FeO", "Fe2O3"]}  # the amalgamated parts among "parts"
+    }
+
+Reading it uses :func:`json.load` only (no pickle, no eval) and checks every key.
+All numbers come from :mod:`compwidgets.core`; this module only arranges them.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from . import core
+from .core.tree import leaf_groups, sbp_to_tree, tree_to_sbp, validate_tree
+
+FORMAT = "compwidgets-sbp"
+VERSION = 1
+_REQUIRED = ("format", "version", "parts", "tree", "balances")
+_OPTIONAL = ("unit", "replacement", "amalgamations")
+#: Intake settings copied into the document's "replacement" entry (when present).
+_REPLACEMENT_KEYS = ("replacement", "fraction", "detection_limits", "negative_is_below_detection")
+
+
+class ExportError(ValueError):
+    """An export that cannot be made as asked (e.g. no SBP, or a partial one)."""
+
+
+class DocumentError(ExportError):
+    """A JSON SBP document that cannot be read or does not fit the table."""
+
+
+# ------------------------------------------------------------------ frames
+def _require_sbp(model) -> np.ndarray:
+    if model.sbp is None:
+        raise ExportError("no SBP is set; build one in the balance builder or call set_sbp")
+    return model.sbp
+
+
+def _open_groups(sbp: np.ndarray, parts: list[str]) -> list[list[str]]:
+    """Groups of a partial SBP still to be split."""
+    return [g for g in leaf_groups(sbp_to_tree(sbp, parts)) if len(g) > 1]
+
+
+def ilr_frame(
+    model,
+    include_metadata: bool = False,
+    include_selection: bool = False,
+    require_complete: bool = True,
+) -> pd.DataFrame:
+    """Balances of the model's SBP as a DataFrame, one row per row of the table.
+
+    Parameters
+    ----------
+    model : CompositionModel
+    include_metadata : bool, default False
+        Put the metadata columns first.
+    include_selection : bool, default False
+        Add a boolean ``"selected"`` column (after the metadata).
+    require_complete : bool, default True
+        Raise for a partial SBP (fewer than D-1 balances). With False a
+        partial SBP gives its balances.
+
+    Returns
+    -------
+    DataFrame
+        Index = the table's original index; one column per balance, named as
+        ``model.balance_names``. Every row of the table is there: rows with a
+        missing or non-positive value in an active part have NaN balances
+        (nothing is dropped; ``model.complete_rows()`` marks the others).
+
+    Raises
+    ------
+    ExportError
+        No SBP; a partial SBP with ``require_complete``; a balance name that
+        is also a metadata column (or ``"selected"``).
+    """
+    sbp = _require_sbp(model)
+    parts = list(model.active_parts)
+    if require_complete and sbp.shape[0] != len(parts) - 1:
+        groups = "; ".join("{" + ", ".join(g) + "}" for g in _open_groups(sbp, parts))
+        raise ExportError(
+            f"the SBP is partial: {sbp.shape[0]} of {len(parts) - 1} balances; groups still to "
+            f"split: {groups}. Finish it, or pass require_complete=False"
+        )
+    names = list(model.balance_names)
+    frame = pd.DataFrame(np.array(model.balances()), index=model.index.copy(), columns=names)
+    pieces = []
+    if include_metadata:
+        pieces.append(model.metadata)
+    if include_selection:
+        pieces.append(pd.DataFrame({"selected": model.selected_mask().copy()}, index=frame.index))
+    if pieces:
+        front = pd.concat(pieces, axis=1)
+        clash = [c for c in front.columns if c in set(names)]
+        if clash:
+            raise ExportError(
+                f"balance name(s) {clash} are also metadata/selection column names; "
+                "rename the balances"
+            )
+        frame = pd.concat([front, frame], axis=1)
+    return frame
+
+
+def sbp_frame(model) -> pd.DataFrame:
+    """The signed SBP: balances as rows (index = names), active parts as columns, +1/-1/0."""
+    sbp = _require_sbp(model)
+    return pd.DataFrame(
+        sbp.astype(int),
+        index=pd.Index(list(model.balance_names), name="balance"),
+        columns=pd.Index(list(model.active_parts), name="part"),
+    )
+
+
+def contrast_frame(model) -> pd.DataFrame:
+    """Orthonormal contrasts of the SBP (``core.sbp_basis``), shaped as :func:`sbp_frame`.
+
+    Each row sums to zero and has unit length; ``clr(x) @ row`` is the balance.
+    """
+    sbp = _require_sbp(model)
+    return pd.DataFrame(
+        core.sbp_basis(sbp, complete=False),
+        index=pd.Index(list(model.balance_names), name="balance"),
+        columns=pd.Index(list(model.active_parts), name="part"),
+    )
+
+
+# -------------------------------------------------------------- CSV files
+def save_ilr_csv(
+    model,
+    path,
+    *,
+    include_metadata: bool = False,
+    include_selection: bool = False,
+    require_complete: bool = True,
+    **csv_options,
+) -> Path:
+    """Write :func:`ilr_frame` to a CSV file (``csv_options`` go to ``DataFrame.to_csv``)."""
+    frame = ilr_frame(model, include_metadata, include_selection, require_complete)
+    path = Path(path)
+    frame.to_csv(path, **csv_options)
+    return path
+
+
+def save_selected_csv(model, path, include_balances: bool = True, **csv_options) -> int:
+    """Write the selected rows (metadata, parts, and balances when an SBP is set) to CSV.
+
+    Returns the number of rows written (0 writes the header only).
+    """
+    frame = model.selected_frame()
+    if include_balances and model.sbp is not None:
+        B = pd.DataFrame(
+            np.array(model.balances())[model.selection],
+            index=frame.index,
+            columns=list(model.balance_names),
+        )
+        clash = [c for c in B.columns if c in set(frame.columns)]
+        if clash:
+            raise ExportError(f"balance name(s) {clash} are also column names of the table")
+        frame = pd.concat([frame, B], axis=1)
+    frame.to_csv(Path(path), **csv_options)
+    return int(len(frame))
+
+
+# ---------------------------------------------------------- JSON document
+def _sides(row: np.ndarray, parts: list[str]) -> tuple[list[str], list[str]]:
+    return (
+        [parts[j] for j in np.flatnonzero(row > 0)],
+        [parts[j] for j in np.flatnonzero(row < 0)],
+    )
+
+
+def _jsonable(value):
+    """``value`` if it survives a JSON round trip as it is, else its ``str``."""
+    try:
+        return json.loads(json.dumps(value, allow_nan=False))
+    except (TypeError, ValueError):
+        return str(value)
+
+
+def sbp_document(model) -> dict:
+    """The model's SBP as a JSON-ready document (see the module docstring).
+
+    Balance names equal to the default name are stored as ``""`` in the tree
+    and in full in ``"balances"``.
+    """
+    sbp = _require_sbp(model)
+    parts = list(model.active_parts)
+    names = list(model.balance_names)
+    defaults = core.balance_names(sbp, parts, complete=False)
+    tree_names = ["" if n == d else n for n, d in zip(names, defaults, strict=True)]
+    settings = getattr(model.composition, "settings", {}) or {}
+    replacement = {
+        ("strategy" if k == "replacement" else k): _jsonable(settings[k])
+        for k in _REPLACEMENT_KEYS
+        if k in settings
+    }
+    amalgamations = {p: list(model.amalgamations[p]) for p in parts if p in model.amalgamations}
+    return {
+        "format": FORMAT,
+        "version": VERSION,
+        "parts": parts,
+        "tree": sbp_to_tree(sbp, parts, tree_names),
+        "balances": [
+            dict(zip(("name", "numerator", "denominator"), (n, *_sides(row, parts)), strict=True))
+            for n, row in zip(names, sbp, strict=True)
+        ],
+        "unit": str(getattr(model.composition, "unit", "")),
+        "replacement": replacement,
+        "amalgamations": amalgamations,
+    }
+
+
+def save_sbp(model, path) -> Path:
+    """Write :func:`sbp_document` as UTF-8 JSON to ``path``."""
+    path = Path(path)
+    text = json.dumps(sbp_document(model), indent=2, ensure_ascii=False, allow_nan=False)
+    path.write_text(text + "\n", encoding="utf-8")
+    return path
+
+
+@dataclass
+class LoadedSBP:
+    """A checked SBP document.
+
+    Attributes
+    ----------
+    parts : list of str
+        Active parts (the SBP's columns, in order).
+    sbp : ndarray of int8, shape (k, D)
+        The signed matrix, rows in the document's order.
+    names : list of str
+        Balance names, one per row.
+    tree : dict
+    amalgamations : dict
+    unit : str or None
+    replacement : dict
+    notes : list of str
+        Differences from the target table that are not errors (e.g. unit).
+    """
+
+    parts: list[str]
+    sbp: np.ndarray
+    names: list[str]
+    tree: dict
+    amalgamations: dict = field(default_factory=dict)
+    unit: str | None = None
+    replacement: dict = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+
+def _reject_constant(name: str):
+    raise DocumentError(f"SBP document: {name} is not a number JSON allows")
+
+
+def _read(path_or_dict) -> dict:
+    if isinstance(path_or_dict, dict):
+        return path_or_dict
+    if not isinstance(path_or_dict, (str, os.PathLike)):
+        raise DocumentError(
+            f"load_sbp: expected a path or a dict, got {type(path_or_dict).__name__}"
+        )
+    path = Path(path_or_dict)
+    try:
+        with path.open(encoding="utf-8") as handle:
+            doc = json.load(handle, parse_constant=_reject_constant)
+    except FileNotFoundError:
+        raise DocumentError(f"SBP document: no file {str(path)!r}") from None
+    except UnicodeDecodeError as err:
+        raise DocumentError(f"SBP document {path.name}: not UTF-8 text ({err})") from None
+    except json.JSONDecodeError as err:
+        raise DocumentError(
+            f"SBP document {path.name}: not valid JSON (line {err.lineno}, column {err.colno}: "
+            f"{err.msg})"
+        ) from None
+    if not isinstance(doc, dict):
+        raise DocumentError(f"SBP document {path.name}: expected a JSON object at the top")
+    return doc
+
+
+def _string_list(value, what: str) -> list[str]:
+    if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+        raise DocumentError(f"SBP document: {what} must be a list of strings")
+    return list(value)
+
+
+def read_document(path_or_dict) -> LoadedSBP:
+    """Read and check an SBP document (path or dict) without applying it.
+
+    Raises
+    ------
+    DocumentError
+        Wrong format or version, missing or unknown keys, wrong types,
+        a tree or balances inconsistent with the parts or with each other.
+    """
+    doc = _read(path_or_dict)
+    if doc.get("format") != FORMAT:
+        raise DocumentError(
+            f"SBP document: 'format' is {doc.get('format')!r}; expected {FORMAT!r}"
+        )
+    version = doc.get("version")
+    if isinstance(version, bool) or version != VERSION:
+        raise DocumentError(
+            f"SBP document: version {version!r} is not supported; this compwidgets reads "
+            f"version {VERSION}"
+        )
+    missing = [k for k in _REQUIRED if k not in doc]
+    if missing:
+        raise DocumentError(f"SBP document: missing key(s) {', '.join(missing)}")
+    unknown = [k for k in doc if k not in _REQUIRED + _OPTIONAL]
+    if unknown:
+        raise DocumentError(f"SBP document: unknown key(s) {', '.join(map(str, unknown))}")
+    parts = _string_list(doc["parts"], "'parts'")
+    if len(parts) < 2 or len(set(parts)) != len(parts):
+        raise DocumentError(f"SBP document: 'parts' needs 2 or more distinct names, got {parts}")
+    try:
+        validate_tree(doc["tree"], parts)
+        tree_rows, tree_names, _ = tree_to_sbp(doc["tree"], parts)
+    except core.SBPError as err:
+        raise DocumentError(f"SBP document: 'tree' does not fit 'parts': {err}") from None
+    balances = doc["balances"]
+    if not isinstance(balances, list) or not balances:
+        raise DocumentError("SBP document: 'balances' must be a non-empty list")
+    rows, names = [], []
+    column = {p: j for j, p in enumerate(parts)}
+    for k, entry in enumerate(balances, start=1):
+        if not isinstance(entry, dict) or set(entry) != {"name", "numerator", "denominator"}:
+            raise DocumentError(
+                f"SBP document: balance {k} must be an object with keys name, numerator, "
+                "denominator"
+            )
+        if not isinstance(entry["name"], str):
+            raise DocumentError(f"SBP document: balance {k}: 'name' must be a string")
+        num = _string_list(entry["numerator"], f"balance {k} ({entry['name']!r}) numerator")
+        den = _string_list(entry["denominator"], f"balance {k} ({entry['name']!r}) denominator")
+        strangers = [p for p in num + den if p not in column]
+        if strangers:
+            raise DocumentError(
+                f"SBP document: balance {k} ({entry['name']!r}) uses part(s) "
+                f"{', '.join(strangers)} that are not in 'parts'"
+            )
+        twice = sorted({p for p in num + den if (num + den).count(p) > 1})
+        if twice:
+            raise DocumentError(
+                f"SBP document: balance {k} ({entry['name']!r}) lists part(s) "
+                f"{', '.join(twice)} twice"
+            )
+        row = np.zeros(len(parts), dtype=np.int8)
+        row[[column[p] for p in num]] = 1
+        row[[column[p] for p in den]] = -1
+        rows.append(row)
+        names.append(entry["name"])
+    try:
+        sbp = core.validate_sbp(np.array(rows), parts, complete=False)
+    except core.SBPError as err:
+        raise DocumentError(f"SBP document: 'balances' are not a valid partition: {err}") from None
+    by_split = {r.tobytes(): n for r, n in zip(tree_rows, tree_names, strict=True)}
+    if len(by_split) != len(rows) or set(by_split) != {r.tobytes() for r in sbp}:
+        raise DocumentError("SBP document: 'tree' and 'balances' describe different partitions")
+    for k, (row, name) in enumerate(zip(sbp, names, strict=True), start=1):
+        if by_split[row.tobytes()] not in ("", name):
+            raise DocumentError(
+                f"SBP document: balance {k} is named {name!r} but its tree node "
+                f"{by_split[row.tobytes()]!r}"
+            )
+    amalgamations = doc.get("amalgamations", {})
+    if not isinstance(amalgamations, dict):
+        raise DocumentError("SBP document: 'amalgamations' must be an object")
+    amalgamations = {
+        str(k): _string_list(v, f"amalgamation {k!r}") for k, v in amalgamations.items()
+    }
+    unit = doc.get("unit")
+    if unit is not None and not isinstance(unit, str):
+        raise DocumentError("SBP document: 'unit' must be a string")
+    replacement = doc.get("replacement", {})
+    if not isinstance(replacement, dict):
+        raise DocumentError("SBP document: 'replacement' must be an object")
+    return LoadedSBP(parts, sbp, names, doc["tree"], amalgamations, unit, replacement)
+
+
+def load_sbp(model_or_parts, path_or_dict) -> LoadedSBP:
+    """Read an SBP document and check it against a table; apply it to a model.
+
+    Parameters
+    ----------
+    model_or_parts : CompositionModel or sequence of str
+        A model: its active parts (and needed amalgamations) are set to the
+        document's and its SBP and names are rebuilt (``model.set_sbp``).
+        A list of part names: only checked against, nothing applied.
+    path_or_dict : path or dict
+        The document (read with :func:`json.load`; no pickle, no eval).
+
+    Returns
+    -------
+    LoadedSBP
+        The checked content; ``notes`` lists differences that are not errors
+        (unit or replacement strategy of the target table).
+
+    Raises
+    ------
+    DocumentError
+        An invalid document, or parts the target table does not have
+        (``"parts not in this table: Cr2O3, V"``). The model is left unchanged.
+    """
+    loaded = read_document(path_or_dict)
+    is_model = hasattr(model_or_parts, "set_sbp")
+    if is_model:
+        model = model_or_parts
+        table_parts = list(model.parts)
+        known = set(model.available_parts)  # parts and the model's own amalgamations
+        current_amalgamations = dict(model.amalgamations)
+    else:
+        if isinstance(model_or_parts, str):
+            raise DocumentError("load_sbp: give a model or a list of part names, not a string")
+        table_parts = [str(p) for p in model_or_parts]
+        known = set(table_parts)
+        current_amalgamations = {}
+    needed = {p: loaded.amalgamations[p] for p in loaded.parts if p in loaded.amalgamations}
+    members = [m for group in needed.values() for m in group]
+    absent = [m for m in dict.fromkeys(members) if m not in table_parts]
+    absent += [p for p in loaded.parts if p not in needed and p not in known and p not in absent]
+    if absent:
+        raise DocumentError(f"parts not in this table: {', '.join(absent)}")
+    clash = [
+        name
+        for name, group in needed.items()
+        if name in current_amalgamations and list(current_amalgamations[name]) != list(group)
+    ]
+    if clash:
+        raise DocumentError(
+            f"amalgamation(s) {', '.join(clash)} are defined differently in this model"
+        )
+    loaded.notes = _notes(loaded, model_or_parts if is_model else None)
+    if is_model:
+        _apply(model, loaded, needed, current_amalgamations)
+    return loaded
+
+
+def _notes(loaded: LoadedSBP, model) -> list[str]:
+    if model is None:
+        return []
+    notes = []
+    unit = str(getattr(model.composition, "unit", ""))
+    if loaded.unit and unit and loaded.unit != unit:
+        notes.append(f"the document was made on a table in {loaded.unit}; this one is in {unit}")
+    settings = getattr(model.composition, "settings", {}) or {}
+    made = loaded.replacement.get("strategy")
+    here = settings.get("replacement")
+    if made is not None and here is not None and made != here:
+        notes.append(f"values below detection were replaced with {made!r} there and {here!r} here")
+    return notes
+
+
+def _apply(model, loaded: LoadedSBP, needed: dict, current: dict) -> None:
+    """Set amalgamations, active parts and SBP; restore the model if a step fails.
+
+    Done one step at a time (not under ``hold_trait_notifications``): the
+    model drops its SBP when the active parts change, which must happen
+    before the new SBP is set.
+    """
+    saved = (dict(current), list(model.active_parts), model.sbp, list(model.balance_names))
+    try:
+        if any(name not in current for name in needed):
+            model.amalgamations = {**current, **needed}
+        if list(model.active_parts) != list(loaded.parts):
+            model.active_parts = list(loaded.parts)
+        model.set_sbp(loaded.sbp, loaded.names)
+    except Exception as err:
+        if dict(model.amalgamations) != saved[0]:
+            model.amalgamations = saved[0]
+        if list(model.active_parts) != saved[1]:
+            model.active_parts = saved[1]
+        if saved[2] is not None:
+            model.set_sbp(saved[2], saved[3])
+        raise DocumentError(f"the SBP document could not be applied to this model: {err}") from err

@@ -1,0 +1,454 @@
+"""The shared composition model that every view follows.
+
+One :class:`CompositionModel` holds the composition from intake and the state
+that the views share: the active parts (with user-defined amalgamations), the
+selection, the grouping column used for colours, and the SBP. Views keep a
+reference to the model, never to each other; they read derived data from the
+model (computed once by :mod:`compwidgets.core` and cached) and write back only
+through its traits and methods.
+
+The selection is a sorted ``numpy.uint32`` array of row *positions* (0 .. n-1
+in the order of ``composition.values``); ``model.index[selection]`` gives the
+original index labels.
+"""
+
+from __future__ import annotations
+
+from collections import OrderedDict
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+import traitlets as t
+
+from . import core
+from .composition import Composition
+
+_EMPTY = np.zeros(0, dtype=np.uint32)
+
+
+class ModelError(ValueError):
+    """An invalid change to the model (the model is left unchanged)."""
+
+
+class CompositionModel(t.HasTraits):
+    """Shared state of a compwidgets workbench.
+
+    Parameters
+    ----------
+    composition : Composition
+        The output of :func:`compwidgets.read_composition`.
+    active_parts : sequence of str, optional
+        The subcomposition under study (default: every part).
+    group_column : str, optional
+        A metadata column used for colours and legends ("" for none).
+
+    Traits (observe them with ``model.observe(handler, names=[...])``)
+    ------
+    active_parts : list of str
+        Parts (or amalgamation names) under study; at least 2.
+    amalgamations : dict of str -> list of str
+        New parts defined as sums of parts of the composition.
+    selection : ndarray of uint32
+        Sorted unique row positions; assigning an equal array does not notify.
+    group_column : str
+        Metadata column for colours ("" = no grouping).
+    sbp : ndarray of int8 or None
+        Signed SBP matrix (D-1, D) over ``active_parts``.
+    balance_names : list of str
+        One name per SBP row.
+    colour_by : str
+        "" to colour by ``group_column``; a balance name to colour by its value.
+    metadata_version : int
+        Incremented when a column is added to the metadata (e.g. a group made from a selection).
+    """
+
+    active_parts = t.List(t.Unicode())
+    amalgamations = t.Dict()
+    selection = t.Instance(np.ndarray)
+    group_column = t.Unicode("")
+    sbp = t.Instance(np.ndarray, allow_none=True, default_value=None)
+    balance_names = t.List(t.Unicode())
+    colour_by = t.Unicode("")
+    metadata_version = t.Int(0)
+
+    #: How many derived matrices the cache keeps (closed, clr, ilr per set of parts).
+    cache_size = 24
+
+    def __init__(
+        self,
+        composition: Composition,
+        active_parts: Sequence[str] | None = None,
+        group_column: str = "",
+        **kwargs,
+    ):
+        if not isinstance(composition, Composition):
+            raise TypeError(
+                "CompositionModel needs a Composition; build one with "
+                f"compwidgets.read_composition (got {type(composition).__name__})"
+            )
+        self.composition = composition
+        self._extra_metadata = pd.DataFrame(index=composition.values.index)
+        self._cache: OrderedDict = OrderedDict()
+        self._selected_mask: np.ndarray | None = None
+        super().__init__(selection=_EMPTY.copy(), **kwargs)
+        self.active_parts = list(active_parts) if active_parts is not None else composition.parts
+        if group_column:
+            self.group_column = group_column
+
+    # ----------------------------------------------------------------- basics
+    @property
+    def n_rows(self) -> int:
+        return int(self.composition.values.shape[0])
+
+    @property
+    def index(self) -> pd.Index:
+        """Original index labels, by row position."""
+        return self.composition.values.index
+
+    @property
+    def parts(self) -> list[str]:
+        """Every part of the composition (before amalgamation)."""
+        return self.composition.parts
+
+    @property
+    def available_parts(self) -> list[str]:
+        """Parts and amalgamation names that can be made active or shown."""
+        return self.parts + [a for a in self.amalgamations if a not in self.parts]
+
+    @property
+    def metadata(self) -> pd.DataFrame:
+        """Metadata columns of the composition plus the columns made in this session."""
+        if self._extra_metadata.shape[1] == 0:
+            return self.composition.metadata
+        key = ("metadata", self.metadata_version)
+        if key not in self._cache:
+            self._store(key, pd.concat([self.composition.metadata, self._extra_metadata], axis=1))
+        return self._cache[key]
+
+    # ------------------------------------------------------------ validation
+    @t.validate("active_parts")
+    def _check_active(self, proposal):
+        parts = list(proposal["value"])
+        known = set(self.available_parts)
+        unknown = [p for p in parts if p not in known]
+        if unknown:
+            raise t.TraitError(
+                f"unknown part(s) {unknown}; available: {', '.join(self.available_parts)}"
+            )
+        if len(parts) < 2:
+            raise t.TraitError(f"at least 2 active parts are needed, got {parts}")
+        if len(set(parts)) != len(parts):
+            raise t.TraitError(f"a part is listed twice in {parts}")
+        members = [m for p in parts for m in self._members(p)]
+        if len(set(members)) != len(members):
+            raise t.TraitError(
+                "an amalgamation shares parts with another active part; "
+                f"active parts {parts} would count a part twice"
+            )
+        return parts
+
+    @t.validate("amalgamations")
+    def _check_amalgamations(self, proposal):
+        groups = {str(k): [str(m) for m in v] for k, v in dict(proposal["value"]).items()}
+        if groups:
+            try:
+                core.subcomp.check_amalgamations(groups, self.parts)
+            except core.CompositionError as err:
+                raise t.TraitError(str(err)) from None
+        clash = [g for g in groups if g in self.parts]
+        if clash:
+            raise t.TraitError(f"amalgamation name(s) {clash} already name a part")
+        return groups
+
+    @t.validate("selection")
+    def _check_selection(self, proposal):
+        return self._as_positions(proposal["value"])
+
+    @t.validate("group_column")
+    def _check_group(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.metadata.columns:
+            raise t.TraitError(
+                f"unknown grouping column {name!r}; metadata columns: "
+                f"{', '.join(map(str, self.metadata.columns))}"
+            )
+        return name
+
+    @t.validate("sbp")
+    def _check_sbp(self, proposal):
+        value = proposal["value"]
+        if value is None:
+            return None
+        try:
+            return core.validate_sbp(value, self.active_parts, complete=False)
+        except core.CompositionError as err:
+            raise t.TraitError(str(err)) from None
+
+    @t.observe("active_parts")
+    def _on_active_parts(self, change):
+        # An SBP is a partition of exactly the active parts: a new set of parts drops it.
+        if self.sbp is not None and list(change["old"] or []) != list(change["new"]):
+            with self.hold_trait_notifications():
+                self.sbp = None
+                self.balance_names = []
+                self.colour_by = ""
+
+    @t.observe("amalgamations")
+    def _on_amalgamations(self, change):
+        gone = [p for p in self.active_parts if p not in self.available_parts]
+        if gone:
+            kept = [p for p in self.active_parts if p in self.available_parts]
+            self.active_parts = kept if len(kept) >= 2 else self.parts
+
+    def _as_positions(self, rows) -> np.ndarray:
+        arr = np.asarray(rows)
+        if arr.dtype == bool:
+            if arr.shape != (self.n_rows,):
+                raise t.TraitError(
+                    f"a boolean selection mask needs {self.n_rows} values, got shape {arr.shape}"
+                )
+            return np.flatnonzero(arr).astype(np.uint32)
+        if arr.size == 0:
+            return _EMPTY.copy()
+        if arr.ndim != 1 or not np.issubdtype(arr.dtype, np.integer):
+            raise t.TraitError(
+                "a selection is a 1-D array of integer row positions or a boolean mask; "
+                f"got dtype {arr.dtype}, shape {arr.shape}"
+            )
+        lo, hi = int(arr.min()), int(arr.max())
+        if lo < 0 or hi >= self.n_rows:
+            bad = lo if lo < 0 else hi
+            raise t.TraitError(f"row position {bad} is outside 0..{self.n_rows - 1}")
+        out = arr.astype(np.uint32, copy=False)
+        if np.any(out[1:] <= out[:-1]):
+            out = np.unique(out)
+        return out.copy() if out is arr else out
+
+    # -------------------------------------------------------------- selection
+    def select(self, rows, mode: str = "replace") -> None:
+        """Change the selection; notifies once, and only if it really changes.
+
+        Parameters
+        ----------
+        rows : array of row positions or boolean mask of length ``n_rows``
+        mode : {"replace", "add", "remove", "intersect"}
+        """
+        new = self._as_positions(rows)
+        if mode == "add":
+            new = np.union1d(self.selection, new).astype(np.uint32)
+        elif mode == "remove":
+            new = np.setdiff1d(self.selection, new, assume_unique=True).astype(np.uint32)
+        elif mode == "intersect":
+            new = np.intersect1d(self.selection, new, assume_unique=True).astype(np.uint32)
+        elif mode != "replace":
+            raise ModelError(
+                f"unknown selection mode {mode!r}; use replace, add, remove or intersect"
+            )
+        if not np.array_equal(new, self.selection):
+            self.selection = new
+
+    def select_labels(self, labels, mode: str = "replace") -> None:
+        """Select rows by their original index labels (unknown labels raise)."""
+        pos = self.index.get_indexer(pd.Index(labels))
+        if (pos < 0).any():
+            missing = list(pd.Index(labels)[pos < 0][:5])
+            raise ModelError(f"unknown row label(s) {missing}")
+        self.select(pos, mode)
+
+    def clear_selection(self) -> None:
+        """Select nothing."""
+        self.select(_EMPTY)
+
+    def invert_selection(self) -> None:
+        """Select every row that is not selected, and only those."""
+        self.select(~self.selected_mask())
+
+    def selected_mask(self) -> np.ndarray:
+        """Boolean mask of the selection, by row position (cached per selection)."""
+        if self._selected_mask is None:
+            mask = np.zeros(self.n_rows, dtype=bool)
+            mask[self.selection] = True
+            self._selected_mask = mask
+        return self._selected_mask
+
+    @t.observe("selection")
+    def _on_selection(self, change):
+        self._selected_mask = None
+
+    def selected_frame(self) -> pd.DataFrame:
+        """Selected rows: metadata, then the parts (common unit), with their original index."""
+        pos = self.selection
+        values = self.composition.values.iloc[pos]
+        return pd.concat([self.metadata.iloc[pos], values], axis=1)
+
+    def selection_to_group(
+        self,
+        name: str,
+        selected_label: str = "selected",
+        other_label: str = "other",
+        use: bool = True,
+    ) -> pd.Series:
+        """Turn the selection into a new categorical metadata column ``name``.
+
+        With ``use=True`` the new column becomes the grouping column, so the
+        group shows with its own colour in every view.
+        """
+        if not isinstance(name, str) or not name.strip():
+            raise ModelError("a group column needs a non-empty name")
+        if name in self.metadata.columns or name in self.parts:
+            raise ModelError(f"a column named {name!r} exists already; choose another name")
+        if selected_label == other_label:
+            raise ModelError("the selected and other labels must differ")
+        labels = np.where(self.selected_mask(), selected_label, other_label)
+        column = pd.Series(
+            pd.Categorical(labels, categories=[selected_label, other_label]),
+            index=self.index,
+            name=name,
+        )
+        self._extra_metadata[name] = column
+        self.metadata_version += 1
+        if use:
+            self.group_column = name
+        return column
+
+    # ---------------------------------------------------------------- groups
+    def group_codes(self) -> tuple[list[str], np.ndarray]:
+        """Categories of the grouping column and an int32 code per row (-1 = no value)."""
+        if not self.group_column:
+            return [], np.full(self.n_rows, -1, dtype=np.int32)
+        key = ("groups", self.group_column, self.metadata_version)
+        if key not in self._cache:
+            column = self.metadata[self.group_column]
+            cat = pd.Categorical(column.astype("object").where(column.notna(), None))
+            self._store(key, ([str(c) for c in cat.categories], cat.codes.astype(np.int32)))
+        return self._cache[key]
+
+    # ----------------------------------------------------------- derived data
+    def _members(self, part: str) -> list[str]:
+        return list(self.amalgamations.get(part, [part])) if part not in self.parts else [part]
+
+    def _key(self, kind: str, parts: Sequence[str]) -> tuple:
+        return (kind, tuple((p, tuple(self._members(p))) for p in parts))
+
+    def _store(self, key, value):
+        self._cache[key] = value
+        self._cache.move_to_end(key)
+        while len(self._cache) > self.cache_size:
+            self._cache.popitem(last=False)
+        return value
+
+    def _resolve(self, parts: Sequence[str] | None) -> list[str]:
+        parts = list(self.active_parts if parts is None else parts)
+        unknown = [p for p in parts if p not in self.available_parts]
+        if unknown:
+            raise ModelError(f"unknown part(s) {unknown}; available: {self.available_parts}")
+        return parts
+
+    def part_values(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """Values (common unit) of ``parts``, amalgamations summed; NaN where missing."""
+        parts = self._resolve(parts)
+        key = self._key("values", parts)
+        if key in self._cache:
+            self._cache.move_to_end(key)
+            return self._cache[key]
+        frame = self.composition.values
+        columns = [frame[self._members(p)].to_numpy(dtype=float).sum(axis=1) for p in parts]
+        return self._store(key, np.column_stack(columns))
+
+    def complete_rows(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """Boolean mask of rows with a finite positive value in every one of ``parts``."""
+        parts = self._resolve(parts)
+        key = self._key("complete", parts)
+        if key not in self._cache:
+            v = self.part_values(parts)
+            self._store(key, np.all(np.isfinite(v) & (v > 0), axis=1))
+        return self._cache[key]
+
+    def _derived(self, kind: str, parts: Sequence[str] | None, func, width_offset: int = 0):
+        parts = self._resolve(parts)
+        key = self._key(kind, parts)
+        if key in self._cache:
+            self._cache.move_to_end(key)
+            return self._cache[key]
+        ok = self.complete_rows(parts)
+        width = len(parts) + width_offset
+        out = np.full((self.n_rows, width), np.nan)
+        if ok.any():
+            out[ok] = np.asarray(func(self.part_values(parts)[ok]), dtype=float)
+        out.flags.writeable = False
+        return self._store(key, out)
+
+    def closed(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """Closed subcomposition of ``parts`` (default: active parts); NaN rows are incomplete."""
+        return self._derived("closed", parts, core.closure)
+
+    def clr(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """clr coordinates of ``parts`` (default: active parts); NaN rows are incomplete."""
+        return self._derived("clr", parts, core.clr)
+
+    def ilr(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """ilr coordinates (default pivot basis) of ``parts``; NaN rows are incomplete."""
+        return self._derived("ilr", parts, core.ilr, -1)
+
+    def balances(self) -> np.ndarray:
+        """Balances of the current SBP over the active parts, (n, D-1); NaN rows incomplete."""
+        if self.sbp is None:
+            raise ModelError("no SBP is set; build one in the balance builder or call set_sbp")
+        sbp = self.sbp
+        return self._derived(
+            "balances:" + sbp.tobytes().hex(),
+            None,
+            lambda v: core.balances(v, sbp, complete=False),
+            sbp.shape[0] - sbp.shape[1],
+        )
+
+    def balance_values(self, name: str) -> np.ndarray:
+        """Values of one balance of the current SBP, by its name."""
+        if name not in self.balance_names:
+            raise ModelError(f"unknown balance {name!r}; balances: {self.balance_names}")
+        return self.balances()[:, self.balance_names.index(name)]
+
+    def set_sbp(self, sbp, names: Sequence[str] | None = None) -> None:
+        """Set the SBP over the active parts (validated) and its balance names."""
+        try:
+            S = core.validate_sbp(sbp, self.active_parts, complete=False)
+        except core.CompositionError as err:
+            raise ModelError(str(err)) from None
+        if S.shape[1] != len(self.active_parts):
+            raise ModelError(
+                f"the SBP has {S.shape[1]} parts but {len(self.active_parts)} parts are active"
+            )
+        defaults = core.balance_names(S, self.active_parts, complete=False)
+        if names is None:
+            names = defaults
+        elif len(names) != S.shape[0]:
+            raise ModelError(f"{len(names)} balance names for {S.shape[0]} balances")
+        else:  # "" (or None) keeps the default name of that balance
+            names = [str(n) if n else d for n, d in zip(names, defaults, strict=True)]
+        if len(set(names)) != len(names):
+            raise ModelError(f"balance names must be unique, got {names}")
+        with self.hold_trait_notifications():
+            if self.sbp is None or not np.array_equal(self.sbp, S):
+                self.sbp = S
+            if list(self.balance_names) != list(names):
+                self.balance_names = list(names)
+            if self.colour_by and self.colour_by not in names:
+                self.colour_by = ""
+
+    @t.validate("colour_by")
+    def _check_colour_by(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.balance_names:
+            raise t.TraitError(f"unknown balance {name!r}; balances: {self.balance_names}")
+        return name
+
+    def variation_matrix(self, parts: Sequence[str] | None = None) -> pd.DataFrame:
+        """Variation matrix of ``parts`` over the complete rows (ddof = 1)."""
+        parts = self._resolve(parts)
+        key = self._key("variation", parts)
+        if key not in self._cache:
+            ok = self.complete_rows(parts)
+            frame = pd.DataFrame(self.part_values(parts)[ok], columns=parts)
+            self._store(key, core.variation_matrix(frame))
+        return self._cache[key]

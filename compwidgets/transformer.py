@@ -1,0 +1,245 @@
+"""A scikit-learn transformer from compositions to balances (ilr coordinates of an SBP).
+
+Example::
+
+    from sklearn.pipeline import make_pipeline
+    from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
+    pipe = make_pipeline(BalanceTransformer(sbp, parts), LinearDiscriminantAnalysis())
+    pipe.fit(table[parts], table["group"])
+"""
+
+from __future__ import annotations
+
+import inspect
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+from sklearn.base import BaseEstimator, TransformerMixin
+from sklearn.utils.validation import check_array, check_is_fitted
+
+from . import core
+
+try:  # scikit-learn >= 1.6
+    from sklearn.utils.validation import validate_data as _validate_data
+except ImportError:  # pragma: no cover - older scikit-learn
+
+    def _validate_data(estimator, X, reset=True, **kw):
+        if "ensure_all_finite" in kw:
+            kw["force_all_finite"] = kw.pop("ensure_all_finite")
+        return estimator._validate_data(X, reset=reset, **kw)
+
+
+#: Name of check_array's "reject NaN/inf" option (renamed in scikit-learn 1.6).
+_FINITE = (
+    "ensure_all_finite"
+    if "ensure_all_finite" in inspect.signature(check_array).parameters
+    else "force_all_finite"
+)
+
+
+def pivot_sbp(D: int) -> np.ndarray:
+    """The pivot SBP of D parts: row i opposes part i to the parts after it.
+
+    Its contrast matrix (``core.sbp_basis``) is ``core.default_basis(D)``.
+    """
+    if int(D) != D or D < 2:
+        raise core.SBPError(f"pivot_sbp: need at least 2 parts, got {D!r}")
+    D = int(D)
+    cols = np.arange(D)[None, :]
+    rows = np.arange(D - 1)[:, None]
+    return np.where(cols == rows, 1, np.where(cols > rows, -1, 0)).astype(np.int8)
+
+
+class BalanceTransformer(TransformerMixin, BaseEstimator):
+    """Balances of compositions for an SBP (Egozcue & Pawlowsky-Glahn 2005).
+
+    Parameters
+    ----------
+    sbp : array-like or DataFrame of shape (D-1, D), optional
+        A complete SBP (+1 numerator, -1 denominator, 0 outside). A DataFrame
+        names its parts in its columns. Default: the pivot SBP (part 1 vs the
+        rest, part 2 vs the parts after it, ...), whose basis is
+        ``core.default_basis``.
+    parts : sequence of str, optional
+        The parts, in the SBP's column order. With a DataFrame ``X`` the
+        columns are picked by these names (other columns are ignored);
+        with an array ``X`` its D columns are these parts in this order.
+        Default: the SBP DataFrame's columns, else all columns of ``X``.
+    names : sequence of str, optional
+        Output feature names; default ``core.balance_names``.
+
+    Attributes
+    ----------
+    sbp_ : ndarray of int8, shape (D-1, D)
+    basis_ : ndarray of shape (D-1, D)
+        Orthonormal contrasts (``core.sbp_basis``).
+    parts_ : list of str
+    columns_ : ndarray of int
+        Positions of ``parts_`` among the input columns.
+    names_ : list of str
+    n_features_in_ : int
+    feature_names_in_ : ndarray of str
+        Only when fitted on a DataFrame with string column names.
+
+    Notes
+    -----
+    Every cell of the parts must be strictly positive (log-ratios); zeros
+    must be replaced first (``core.multiplicative_replacement``). Rows are
+    closed implicitly: balances do not depend on the scale of a row.
+    ``inverse_transform`` gives closed compositions (rows summing to 1) of
+    ``parts_`` only.
+    """
+
+    def __init__(self, sbp=None, parts: Sequence[str] | None = None, names=None):
+        self.sbp = sbp
+        self.parts = parts
+        self.names = names
+
+    def __sklearn_tags__(self):
+        tags = super().__sklearn_tags__()
+        tags.input_tags.positive_only = True
+        return tags
+
+    @classmethod
+    def from_model(cls, model) -> BalanceTransformer:
+        """A transformer with the model's (complete) SBP, active parts and balance names.
+
+        ``X`` then needs columns named as ``model.active_parts`` (e.g.
+        ``pd.DataFrame(model.closed(), columns=model.active_parts)``).
+        """
+        if model.sbp is None:
+            raise core.SBPError("the model has no SBP; build one first")
+        D = len(model.active_parts)
+        if model.sbp.shape[0] != D - 1:
+            raise core.SBPError(
+                f"the model's SBP is partial ({model.sbp.shape[0]} of {D - 1} balances); "
+                "a transformer needs a complete SBP"
+            )
+        return cls(
+            sbp=np.array(model.sbp, dtype=np.int8),
+            parts=list(model.active_parts),
+            names=list(model.balance_names),
+        )
+
+    # ------------------------------------------------------------------ fit
+    def _resolve_parts(self, n_features: int) -> tuple[list[str], np.ndarray]:
+        seen = getattr(self, "feature_names_in_", None)
+        seen = None if seen is None else [str(c) for c in seen]
+        if self.parts is not None:
+            if isinstance(self.parts, str):
+                raise core.SBPError("parts must be a list of part names, not one string")
+            parts = [str(p) for p in self.parts]
+        elif isinstance(self.sbp, pd.DataFrame):
+            parts = [str(c) for c in self.sbp.columns]
+        else:
+            parts = seen if seen is not None else [f"x{j + 1}" for j in range(n_features)]
+        if len(set(parts)) != len(parts):
+            raise core.SBPError(f"a part is named twice in {parts}")
+        if seen is not None:
+            missing = [p for p in parts if p not in seen]
+            if missing:
+                raise core.SBPError(f"part(s) {missing} are not columns of X; columns: {seen}")
+            return parts, np.array([seen.index(p) for p in parts], dtype=int)
+        if len(parts) != n_features:
+            raise core.SBPError(f"{len(parts)} parts named but X has {n_features} columns")
+        return parts, np.arange(n_features)
+
+    def _resolve_sbp(self, parts: list[str]) -> np.ndarray:
+        if self.sbp is None:
+            return pivot_sbp(len(parts))
+        sbp = self.sbp
+        if isinstance(sbp, pd.DataFrame):
+            columns = [str(c) for c in sbp.columns]
+            missing = [p for p in parts if p not in columns]
+            extra = [c for c in columns if c not in parts]
+            if missing or extra:
+                raise core.SBPError(
+                    f"SBP columns do not match the parts: missing {missing}, extra {extra}"
+                )
+            sbp = sbp.set_axis(columns, axis=1)[parts]
+        S = core.validate_sbp(sbp, parts)
+        if S.shape[1] != len(parts):
+            raise core.SBPError(f"the SBP has {S.shape[1]} columns for {len(parts)} parts")
+        return S
+
+    def _frame(self, X, values: np.ndarray) -> pd.DataFrame:
+        """The parts of ``X`` as a DataFrame (so core errors name rows and parts).
+
+        Negative cells raise first, in scikit-learn's wording for estimators
+        that need non-negative data; ``core`` then rejects zeros and NaN.
+        """
+        index = X.index if isinstance(X, pd.DataFrame) else pd.RangeIndex(values.shape[0])
+        frame = pd.DataFrame(values[:, self.columns_], index=index, columns=self.parts_)
+        negative = frame.to_numpy() < 0
+        if negative.any():
+            r, c = np.argwhere(negative)[0]
+            raise core.CompositionError(
+                f"Negative values in data passed to {type(self).__name__}: "
+                f"{int(negative.sum())} cell(s), first row {index[r]!r}, part "
+                f"{self.parts_[c]!r} = {float(frame.iat[r, c])!r}; compositions must be "
+                "strictly positive"
+            )
+        return frame
+
+    def fit(self, X, y=None):
+        """Check the SBP and the parts against ``X`` (strictly positive compositions)."""
+        values = _validate_data(
+            self, X, reset=True, ensure_all_finite=False, ensure_min_features=2
+        )
+        self.parts_, self.columns_ = self._resolve_parts(values.shape[1])
+        self.sbp_ = self._resolve_sbp(self.parts_)
+        if self.names is None:
+            self.names_ = core.balance_names(self.sbp_, self.parts_)
+        else:
+            names = [str(n) for n in self.names]
+            if len(names) != self.sbp_.shape[0]:
+                raise core.SBPError(f"{len(names)} names for {self.sbp_.shape[0]} balances")
+            if len(set(names)) != len(names):
+                raise core.SBPError(f"balance names must be unique, got {names}")
+            self.names_ = names
+        self.basis_ = core.sbp_basis(self.sbp_)
+        core.balances(self._frame(X, values), self.sbp_)  # raises naming bad rows/parts
+        return self
+
+    # ------------------------------------------------------------ transform
+    def transform(self, X) -> np.ndarray:
+        """Balances (n, D-1) of ``X``: ``core.balances`` with ``sbp_``."""
+        check_is_fitted(self, "sbp_")
+        values = _validate_data(self, X, reset=False, ensure_all_finite=False)
+        B = core.balances(self._frame(X, values), self.sbp_, names=self.names_)
+        return B.to_numpy(dtype=float)
+
+    def inverse_transform(self, X):
+        """Closed compositions of ``parts_`` from balances: ``core.ilr_inv`` with ``basis_``.
+
+        A DataFrame input gives a DataFrame (same index, columns ``parts_``).
+        """
+        check_is_fitted(self, "sbp_")
+        index = X.index if isinstance(X, pd.DataFrame) else None
+        Y = check_array(X, dtype=float, **{_FINITE: False})  # core names bad rows
+        k = self.sbp_.shape[0]
+        if Y.shape[1] != k:
+            raise core.CompositionError(
+                f"inverse_transform: {Y.shape[1]} columns given; this SBP has {k} balances"
+            )
+        out = core.ilr_inv(Y, self.basis_, parts=self.parts_)
+        if index is not None:
+            return pd.DataFrame(out, index=index, columns=self.parts_)
+        return out
+
+    def get_feature_names_out(self, input_features=None) -> np.ndarray:
+        """The balance names ``names_`` (object array)."""
+        check_is_fitted(self, "sbp_")
+        if input_features is not None:
+            given = [str(f) for f in input_features]
+            seen = getattr(self, "feature_names_in_", None)
+            expected = list(seen) if seen is not None else None
+            if expected is not None and given != [str(c) for c in expected]:
+                raise ValueError("input_features is not equal to feature_names_in_")
+            if expected is None and len(given) != self.n_features_in_:
+                raise ValueError(
+                    f"input_features should have length equal to number of features "
+                    f"({self.n_features_in_}), got {len(given)}"
+                )
+        return np.asarray(self.names_, dtype=object)

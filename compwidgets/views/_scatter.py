@@ -1,0 +1,745 @@
+"""The shared machinery of scatter-like views (ternary diagram, biplot, ...).
+
+A :class:`ScatterView` is an ``ipywidgets.VBox`` holding a small toolbar, one
+``bqplot.Figure`` and two text lines. It is bound to one
+:class:`~compwidgets.model.CompositionModel`: it reads the rows it shows from
+the model and writes the selection back through ``model.select``. Subclasses
+supply the 2-D coordinates of the rows they can show and their own marks.
+
+Two modes, chosen by the number of rows shown (``mode="auto"``; threshold
+5,000 rows by default, see DESIGN.md, Scale):
+
+* points: one SVG ``Scatter`` of every row, coloured by group (or by a
+  balance when ``model.colour_by`` is set); the selection is the mark's
+  ``selected`` index array.
+* density: one ``Image`` mark with the density of all rows (muted) and of
+  the selection (contrasting), plus a seeded random subsample of points on
+  top for hover.
+
+Selections are computed in the kernel from the selector's geometry with
+:mod:`compwidgets.core.geometry`: the rectangle of a ``BrushSelector``
+(``selected_x``/``selected_y`` when ``brushing`` ends), the lasso of a
+``LassoSelector`` (points mode: the front end sets the mark's ``selected``),
+or a polygon clicked vertex by vertex (bqplot's lasso does not send its
+outline to the kernel, so in density mode the polygon replaces it). A change
+of the model's selection only sends the ``selected`` index array (points) or
+a new image (density); point coordinates are sent only when they change.
+
+Rows that the view cannot show (incomplete in its parts) are left out of this
+view only; a text line says how many.
+"""
+
+from __future__ import annotations
+
+import bqplot as bq
+import ipywidgets as widgets
+import numpy as np
+import traitlets as t
+
+from ..core import geometry
+from ..model import CompositionModel
+from . import _common as cm
+from ._density import DensityImage
+
+__all__ = ["ScatterView"]
+
+_EMPTY_ROWS = np.zeros(0, dtype=np.uint32)
+
+_TOOL_LABELS = {"brush": "Rectangle", "lasso": "Lasso", "polygon": "Polygon", "none": "Off"}
+_MODE_LABELS = {"replace": "new", "add": "add", "remove": "remove", "intersect": "intersect"}
+
+
+def _same(a, b) -> bool:
+    """Equality of two optional arrays (None equals None only)."""
+    if a is None or b is None:
+        return a is None and b is None
+    return np.array_equal(np.asarray(a), np.asarray(b))
+
+
+class ScatterView(widgets.VBox):
+    """Base of every scatter-like view bound to a :class:`CompositionModel`.
+
+    Parameters
+    ----------
+    model : CompositionModel
+    mode : {"auto", "points", "density"}, default "auto"
+        "auto" draws points up to ``threshold`` rows shown, density above.
+    threshold : int, default 5000
+    subsample_size : int, default 1500
+        Points drawn on top of the density image (for hover), chosen at random
+        with ``seed``.
+    seed : int, default 0
+    height : int, default 460
+        Figure height in pixels.
+
+    Traits
+    ------
+    mode, threshold, subsample_size, seed
+        As above; changing them redraws.
+    tool : {"brush", "lasso", "polygon", "none"}
+        Active selection tool ("lasso" only in points mode).
+    select_mode : {"replace", "add", "remove", "intersect"}
+        How a new selection combines with the model's selection.
+
+    Attributes
+    ----------
+    figure : bqplot.Figure
+    scatter : bqplot.Scatter
+        The points (all rows in points mode, the subsample in density mode).
+    density : bqplot.Image
+        The density image (visible in density mode).
+    brush : bqplot.interacts.BrushSelector
+    lasso : bqplot.interacts.LassoSelector
+    polygon_marker : bqplot.Scatter
+        Vertices of the polygon being drawn (click on the figure to add one).
+    rows : ndarray of uint32
+        Model row positions shown by the view, in the order of its coordinates.
+    active_mode : {"points", "density"}
+    n_left_out : int
+        Rows of the model this view does not show.
+
+    Subclasses implement ``_coordinates``, ``shown_parts``, ``_view_ranges``
+    and may override ``_build_marks``, ``_refresh_extra``, ``_hover_lines``,
+    ``_legend_anchor`` and ``_on_parts_source_changed``.
+    """
+
+    mode = t.Enum(("auto", "points", "density"), default_value="auto")
+    threshold = t.Int(5000)
+    subsample_size = t.Int(1500)
+    seed = t.Int(0)
+    tool = t.Enum(("brush", "lasso", "polygon", "none"), default_value="brush")
+    select_mode = t.Enum(("replace", "add", "remove", "intersect"), default_value="replace")
+
+    #: Pixels of the density image along x (y follows the aspect of the extent).
+    density_pixels = 240
+    #: Legend entries drawn before "... and N more".
+    legend_max = 12
+
+    def __init__(
+        self,
+        model: CompositionModel,
+        *,
+        mode: str = "auto",
+        threshold: int = 5000,
+        subsample_size: int = 1500,
+        seed: int = 0,
+        height: int = 460,
+        **kwargs,
+    ):
+        if not isinstance(model, CompositionModel):
+            raise TypeError(
+                f"a view needs a CompositionModel, got {type(model).__name__}; "
+                "build one with compwidgets.model.CompositionModel(read_composition(...))"
+            )
+        super().__init__(**kwargs)
+        self._ready = False
+        self._closed = False
+        self._updating = False  # True while the view itself writes mark/selector traits
+        self._selecting = False  # True while the view itself calls model.select
+        self._last_brush = None
+        self._handlers: list[tuple] = []
+        self.model = model
+        self.mode, self.threshold = mode, threshold
+        self.subsample_size, self.seed = subsample_size, seed
+        self.height_px = int(height)
+        self.rows = _EMPTY_ROWS
+        self.active_mode = "points"
+        self.n_left_out = 0
+        self._x = np.zeros(0)
+        self._y = np.zeros(0)
+        self._mark_rows = _EMPTY_ROWS
+        self._build()
+
+    # ------------------------------------------------------------ subclass API
+    def _coordinates(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(rows uint32 sorted, x float64, y float64) of the rows the view shows."""
+        raise NotImplementedError
+
+    def shown_parts(self) -> list[str]:
+        """The parts the coordinates depend on (for the left-out line and markers)."""
+        raise NotImplementedError
+
+    def _view_ranges(self) -> tuple[tuple[float, float], tuple[float, float]]:
+        """((x0, x1), (y0, y1)) of the figure's scales."""
+        raise NotImplementedError
+
+    def _density_extent(self) -> tuple[float, float, float, float]:
+        """Data rectangle covered by the density image (default: the view ranges)."""
+        (x0, x1), (y0, y1) = self._view_ranges()
+        return x0, x1, y0, y1
+
+    def _build_marks(self) -> tuple[list, list]:
+        """Extra marks of the subclass: (drawn below the points, drawn above them)."""
+        return [], []
+
+    def _refresh_extra(self) -> None:
+        """Update the subclass's marks after new coordinates or groups."""
+
+    def _hover_lines(self, row: int) -> list[str]:
+        """Text lines of the tooltip of model row ``row``."""
+        return [str(self.model.index[row])]
+
+    def _legend_anchor(self) -> tuple[float, float, float]:
+        """(x, y of the first entry, step down) of the legend, in data coordinates."""
+        (x0, x1), (y0, y1) = self._view_ranges()
+        return x1 - 0.25 * (x1 - x0), y1 - 0.05 * (y1 - y0), 0.05 * (y1 - y0)
+
+    def _on_parts_source_changed(self) -> None:
+        """The model's active parts or amalgamations changed (default: redraw)."""
+        self.refresh()
+
+    # ------------------------------------------------------------------ build
+    def _build(self) -> None:
+        (x0, x1), (y0, y1) = self._view_ranges()
+        self.scale_x = bq.LinearScale(min=x0, max=x1, allow_padding=False)
+        self.scale_y = bq.LinearScale(min=y0, max=y1, allow_padding=False)
+        self.colour_scale = bq.ColorScale(
+            colors=[cm.SINGLE_COLOUR, cm.SINGLE_COLOUR], min=0, max=1
+        )
+        xy = {"x": self.scale_x, "y": self.scale_y}
+
+        ex = self._density_extent()
+        nx = int(self.density_pixels)
+        ny = max(1, int(round(nx * (ex[3] - ex[2]) / (ex[1] - ex[0]))))
+        self._density_image = DensityImage(ex, (nx, ny))
+        self._png = widgets.Image(value=self._density_image.render(), format="png")
+        self.density = bq.Image(
+            image=self._png, x=[ex[0], ex[1]], y=[ex[2], ex[3]], scales=xy, visible=False
+        )
+        self.density.on_element_click(self._guard(self._on_image_click))
+
+        self._tooltip_lines = [widgets.Label() for _ in range(6)]
+        self.hover_box = widgets.VBox(self._tooltip_lines, layout=widgets.Layout(padding="2px 6px"))
+        self.scatter = bq.Scatter(
+            x=np.zeros(0, np.float32),
+            y=np.zeros(0, np.float32),
+            scales={**xy, "color": self.colour_scale},
+            colors=[cm.SINGLE_COLOUR],
+            selected_style=dict(cm.SELECTED_STYLE),
+            unselected_style=dict(cm.UNSELECTED_STYLE),
+            tooltip=self.hover_box,
+            **cm.POINT_STYLE,
+        )
+        self.scatter.on_hover(self._guard(self._on_hover))
+        self.replaced_marker = bq.Scatter(
+            x=np.zeros(0, np.float32),
+            y=np.zeros(0, np.float32),
+            scales=xy,
+            interactions={},
+            enable_hover=False,
+            **cm.REPLACED_MARKER,
+        )
+        self._legend_swatches = bq.Scatter(
+            x=np.zeros(0), y=np.zeros(0), scales=xy, marker="square", default_size=60,
+            interactions={}, enable_hover=False, colors=[cm.SINGLE_COLOUR],
+        )  # fmt: skip
+        self._legend_text = bq.Label(
+            x=np.zeros(0), y=np.zeros(0), text=np.array([], dtype=str), scales=xy,
+            colors=[cm.TEXT_COLOUR], default_size=12, font_unit="px", align="start",
+            x_offset=10, y_offset=4, interactions={}, enable_hover=False,
+        )  # fmt: skip
+        self.polygon_marker = bq.Scatter(
+            x=np.zeros(0), y=np.zeros(0), scales=xy, interactions={"click": "add"},
+            marker="circle", default_size=30, colors=[cm.DENSITY_SELECTION_COLOUR],
+            enable_hover=False, visible=False,
+        )  # fmt: skip
+        self._polygon_line = bq.Lines(
+            x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.DENSITY_SELECTION_COLOUR],
+            stroke_width=1.5, line_style="dashed", interactions={}, enable_hover=False,
+            visible=False,
+        )  # fmt: skip
+        self.polygon_marker.observe(self._guard(self._on_vertices), names=["x", "y"])
+
+        below, above = self._build_marks()
+        self._extra_marks = [*below, *above]
+        marks = [
+            self.density,
+            *below,
+            self.scatter,
+            self.replaced_marker,
+            *above,
+            self._legend_swatches,
+            self._legend_text,
+            self._polygon_line,
+            self.polygon_marker,
+        ]
+        self.brush = bq.interacts.BrushSelector(
+            x_scale=self.scale_x, y_scale=self.scale_y, marks=[], color=cm.DENSITY_SELECTION_COLOUR
+        )
+        self.brush.observe(
+            self._guard(self._on_brush), names=["brushing", "selected_x", "selected_y"]
+        )
+        self.lasso = bq.interacts.LassoSelector(
+            x_scale=self.scale_x, y_scale=self.scale_y, marks=[self.scatter]
+        )
+        self.scatter.observe(self._guard(self._on_mark_selected), names=["selected"])
+
+        margin = {"top": 10, "bottom": 10, "left": 10, "right": 10}
+        self.figure = bq.Figure(
+            marks=marks, axes=[], scale_x=self.scale_x, scale_y=self.scale_y,
+            fig_margin=margin, padding_x=0.0, padding_y=0.0, animation_duration=0,
+        )  # fmt: skip
+        self._size_figure()
+
+        self._tool_buttons = widgets.ToggleButtons(
+            options=self._tool_options("points"), value="brush", style={"button_width": "80px"}
+        )
+        self._tool_buttons.observe(self._guard(self._on_tool_button), names=["value"])
+        self._mode_dropdown = widgets.Dropdown(
+            options=[(label, key) for key, label in _MODE_LABELS.items()],
+            value="replace",
+            description="selection",
+            layout=widgets.Layout(width="190px"),
+        )
+        self._mode_dropdown.observe(self._guard(self._on_mode_dropdown), names=["value"])
+        self._clear_button = widgets.Button(description="Clear selection", icon="times")
+        self._clear_button.on_click(self._guard(lambda _: self.clear_selection()))
+        self._close_button = widgets.Button(
+            description="Close polygon", layout=widgets.Layout(display="none")
+        )
+        self._close_button.on_click(self._guard(lambda _: self.close_polygon()))
+        self.toolbar = widgets.HBox(
+            [self._tool_buttons, self._mode_dropdown, self._clear_button, self._close_button]
+        )
+        self.status = widgets.Label()
+        self.notes = widgets.Label()
+        self.messages = widgets.Output()
+        self.children = [self.toolbar, self.figure, self.status, self.notes, self.messages]
+
+    def _size_figure(self) -> None:
+        """Fix the figure's size so one data unit is as long in x as in y (equal aspect)."""
+        (x0, x1), (y0, y1) = self._view_ranges()
+        m = self.figure.fig_margin
+        plot_h = self.height_px - m["top"] - m["bottom"]
+        plot_w = plot_h * (x1 - x0) / (y1 - y0)
+        width = int(round(plot_w + m["left"] + m["right"]))
+        ratio = width / self.height_px
+        with self.figure.hold_sync():
+            self.figure.layout = widgets.Layout(
+                width=f"{width}px", height=f"{self.height_px}px", min_width=f"{width}px"
+            )
+            # keep min <= max at every step (the Figure validates each assignment)
+            if ratio >= self.figure.max_aspect_ratio:
+                self.figure.max_aspect_ratio = ratio
+                self.figure.min_aspect_ratio = ratio
+            else:
+                self.figure.min_aspect_ratio = ratio
+                self.figure.max_aspect_ratio = ratio
+
+    def _start(self) -> None:
+        """Connect to the model and draw (called once by the subclass at the end of __init__)."""
+        m = self.model
+        self._watch(m, self._on_model_selection, ["selection"])
+        self._watch(m, self._on_model_groups, ["group_column", "metadata_version"])
+        self._watch(m, self._on_model_colour, ["colour_by", "sbp", "balance_names"])
+        self._watch(m, self._on_model_parts, ["active_parts", "amalgamations"])
+        self._ready = True
+        self.refresh()
+
+    def _guard(self, func):
+        """Wrap a callback: errors go to the view's Output (in a kernel), never half-silently."""
+        captured = None
+
+        def run(*args, **kwargs):
+            nonlocal captured
+            if self._closed:
+                return None
+            if captured is None:
+                captured = self.messages.capture()(func) if hasattr(self, "messages") else func
+            return captured(*args, **kwargs)
+
+        return run
+
+    def _watch(self, obj, func, names: list[str]) -> None:
+        handler = self._guard(func)
+        obj.observe(handler, names=names)
+        self._handlers.append((obj, handler, names))
+
+    # ------------------------------------------------------------------ traits
+    @t.validate("threshold")
+    def _check_threshold(self, proposal):
+        if proposal["value"] < 1:
+            raise t.TraitError(f"threshold must be at least 1 row, got {proposal['value']}")
+        return proposal["value"]
+
+    @t.validate("subsample_size")
+    def _check_subsample(self, proposal):
+        if proposal["value"] < 0:
+            raise t.TraitError(f"subsample_size must be >= 0, got {proposal['value']}")
+        return proposal["value"]
+
+    @t.validate("tool")
+    def _check_tool(self, proposal):
+        value = proposal["value"]
+        if value == "lasso" and getattr(self, "active_mode", "points") == "density":
+            return "polygon"  # the lasso outline never reaches the kernel: polygon instead
+        return value
+
+    @t.observe("mode", "threshold", "subsample_size", "seed")
+    def _on_mode_traits(self, change):
+        if self._ready:
+            self.refresh()
+
+    @t.observe("tool")
+    def _on_tool(self, change):
+        if hasattr(self, "_tool_buttons"):
+            self._apply_tool()
+
+    @t.observe("select_mode")
+    def _on_select_mode(self, change):
+        if hasattr(self, "_mode_dropdown") and self._mode_dropdown.value != change["new"]:
+            self._mode_dropdown.value = change["new"]
+
+    def _on_mode_dropdown(self, change):
+        self.select_mode = change["new"]
+
+    def _on_tool_button(self, change):
+        if change["new"] is not None and change["new"] != self.tool:
+            self.tool = change["new"]
+
+    @staticmethod
+    def _tool_options(mode: str) -> list[tuple[str, str]]:
+        keys = (
+            ("brush", "lasso", "polygon", "none")
+            if mode == "points"
+            else ("brush", "polygon", "none")
+        )
+        return [(_TOOL_LABELS[k], k) for k in keys]
+
+    def _apply_tool(self) -> None:
+        options = self._tool_options(self.active_mode)
+        if [v for _, v in self._tool_buttons.options] != [v for _, v in options]:
+            self._tool_buttons.options = options
+        if self._tool_buttons.value != self.tool:
+            self._tool_buttons.value = self.tool
+        tool = self.tool
+        interaction = {"brush": self.brush, "lasso": self.lasso}.get(tool)
+        if self.figure.interaction is not interaction:
+            self.figure.interaction = interaction
+        polygon = tool == "polygon"
+        self.polygon_marker.visible = polygon
+        self._polygon_line.visible = polygon
+        self._close_button.layout.display = None if polygon else "none"
+        # the hover points would catch the clicks meant for polygon vertices
+        self.scatter.visible = not (polygon and self.active_mode == "density")
+
+    # ---------------------------------------------------------------- drawing
+    def refresh(self) -> None:
+        """Recompute the coordinates from the model and redraw everything."""
+        if not self._ready or self._closed:
+            return
+        rows, x, y = self._coordinates()
+        rows = np.asarray(rows, dtype=np.uint32)
+        self.rows = rows
+        self._x = np.asarray(x, dtype=float)
+        self._y = np.asarray(y, dtype=float)
+        self.n_left_out = self.model.n_rows - rows.size
+        n = rows.size
+        if self.mode == "auto":
+            self.active_mode = "density" if n > self.threshold else "points"
+        else:
+            self.active_mode = self.mode
+        if self.active_mode == "density":
+            k = min(self.subsample_size, n)
+            rng = np.random.default_rng(self.seed)
+            pick = np.sort(rng.choice(n, size=k, replace=False)) if k < n else np.arange(n)
+            self._density_image.set_points(self._x, self._y)
+        else:
+            pick = np.arange(n)
+        self._mark_pos = pick
+        self._mark_rows = rows[pick]
+        self._last_brush = None
+        selected = np.flatnonzero(self.model.selected_mask()[self._mark_rows]).astype(np.uint32)
+        self._updating = True
+        try:
+            with self.scatter.hold_sync():
+                self.scatter.x = self._x[pick].astype(np.float32)
+                self.scatter.y = self._y[pick].astype(np.float32)
+                self.scatter.selected = selected if selected.size else None
+            self._draw_replaced()
+            self._clear_brush()
+            self._clear_vertices()
+            self.density.visible = self.active_mode == "density"
+        finally:
+            self._updating = False
+        if self.tool == "lasso" and self.active_mode == "density":
+            self.tool = "polygon"
+        self._apply_tool()
+        self._apply_colours()
+        self._apply_selection()
+        self.status.value = cm.left_out_message(self.n_left_out, self.shown_parts())
+        self._refresh_extra()
+
+    def _draw_replaced(self) -> None:
+        mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
+        pos = self._mark_pos[mask]
+        with self.replaced_marker.hold_sync():
+            self.replaced_marker.x = self._x[pos].astype(np.float32)
+            self.replaced_marker.y = self._y[pos].astype(np.float32)
+
+    def _apply_colours(self) -> None:
+        """Colour the points by group or by the model's colour_by balance; redraw the legend."""
+        m = self.model
+        entries: list[tuple[str | None, str]] = []
+        if m.colour_by:
+            values = m.balance_values(m.colour_by)
+            limit = cm.balance_limits(values[self.rows])
+            colours, lo, hi = list(cm.BALANCE_COLOURS), -limit, limit
+            colour = values[self._mark_rows].astype(np.float32)
+            entries = [
+                (None, f"balance {m.colour_by}"),
+                (cm.BALANCE_COLOURS[2], f"+{cm.format_number(limit)}"),
+                (cm.BALANCE_COLOURS[1], "0"),
+                (cm.BALANCE_COLOURS[0], f"-{cm.format_number(limit)}"),
+            ]
+        elif m.group_column:
+            categories, codes = m.group_codes()
+            palette = cm.group_colours(categories)
+            colours = [cm.NO_GROUP_COLOUR, *palette]
+            if len(colours) < 2:
+                colours = colours * 2
+            lo, hi = 0, max(1, len(categories))
+            colour = (codes[self._mark_rows] + 1).astype(np.float32)
+            shown = codes[self.rows]
+            present = np.zeros(len(categories) + 1, dtype=bool)
+            present[np.unique(shown) + 1] = True
+            entries = [(None, str(m.group_column))]
+            listed = [(palette[i], str(c)) for i, c in enumerate(categories) if present[i + 1]]
+            if present[0]:
+                listed.append((cm.NO_GROUP_COLOUR, "(no value)"))
+            if len(listed) > self.legend_max:
+                more = len(listed) - (self.legend_max - 1)
+                listed = listed[: self.legend_max - 1] + [(None, f"... and {more} more")]
+            if len(categories) > len(cm.PALETTE):
+                listed.append((None, f"(colours repeat after {len(cm.PALETTE)} groups)"))
+            entries += listed
+        else:
+            colours, lo, hi, colour = [cm.SINGLE_COLOUR, cm.SINGLE_COLOUR], 0, 1, None
+        with self.colour_scale.hold_sync():
+            if list(self.colour_scale.colors) != colours:
+                self.colour_scale.colors = colours
+            if self.colour_scale.min != lo:
+                self.colour_scale.min = float(lo)
+            if self.colour_scale.max != hi:
+                self.colour_scale.max = float(hi)
+        if not _same(self.scatter.color, colour):
+            self.scatter.color = colour
+        self._draw_legend(entries)
+
+    def _draw_legend(self, entries: list[tuple[str | None, str]]) -> None:
+        x, y, dy = self._legend_anchor()
+        ys = y - dy * np.arange(len(entries))
+        with_swatch = [i for i, (c, _) in enumerate(entries) if c is not None]
+        text = np.array([label for _, label in entries], dtype=str)
+        tx = np.full(len(entries), x)
+        for i, (c, _) in enumerate(entries):
+            if c is None:
+                tx[i] = x - 0.02  # titles start a little to the left of the swatches
+        with self._legend_swatches.hold_sync():
+            self._legend_swatches.x = np.full(len(with_swatch), x)
+            self._legend_swatches.y = ys[with_swatch]
+            self._legend_swatches.colors = [entries[i][0] for i in with_swatch] or [
+                cm.SINGLE_COLOUR
+            ]
+        with self._legend_text.hold_sync():
+            self._legend_text.x = tx
+            self._legend_text.y = ys
+            self._legend_text.text = text
+
+    # -------------------------------------------------------------- selection
+    def _apply_selection(self) -> None:
+        """Show the model's selection: mark ``selected`` (indices only) and the density image."""
+        mask = self.model.selected_mask()
+        pos = np.flatnonzero(mask[self._mark_rows]).astype(np.uint32)
+        self._set_mark_selected(pos if pos.size else None)
+        if self.active_mode == "density":
+            in_view = mask[self.rows]
+            self._png.value = self._density_image.render(in_view if in_view.any() else None)
+
+    def _set_mark_selected(self, pos) -> None:
+        if _same(self.scatter.selected, pos):
+            return
+        self._updating = True
+        try:
+            self.scatter.selected = pos
+        finally:
+            self._updating = False
+
+    def _select(self, view_mask: np.ndarray, mode: str | None = None) -> None:
+        """Select the view's rows where ``view_mask`` is True, combined by ``mode``."""
+        rows = self.rows[np.asarray(view_mask, dtype=bool)]
+        self._selecting = True
+        try:
+            self.model.select(rows, mode or self.select_mode)
+        finally:
+            self._selecting = False
+
+    def select_rectangle(self, x_range, y_range, mode: str | None = None) -> None:
+        """Select the rows shown inside a rectangle of data coordinates."""
+        self._select(geometry.points_in_rectangle(self._x, self._y, x_range, y_range), mode)
+
+    def select_polygon(self, vertices, mode: str | None = None) -> None:
+        """Select the rows shown inside a polygon ((k, 2) data coordinates, even-odd rule)."""
+        self._select(geometry.points_in_polygon(self._x, self._y, vertices), mode)
+
+    def clear_selection(self) -> None:
+        """Clear the model's selection and this view's brush and polygon."""
+        self._clear_brush()
+        self._clear_vertices()
+        self.model.clear_selection()
+        if self.figure.interaction is self.lasso:
+            # a fresh lasso drops the outlines drawn in the browser
+            old = self.lasso
+            self.lasso = bq.interacts.LassoSelector(
+                x_scale=self.scale_x, y_scale=self.scale_y, marks=[self.scatter]
+            )
+            self.figure.interaction = self.lasso
+            old.close()
+
+    def close_polygon(self) -> None:
+        """Select the rows inside the polygon clicked so far, then start a new polygon."""
+        n = min(len(self.polygon_marker.x), len(self.polygon_marker.y))
+        if n < 3:
+            self.notes.value = f"a polygon needs at least 3 points; {n} clicked so far"
+            return
+        vertices = np.column_stack([self.polygon_marker.x[:n], self.polygon_marker.y[:n]])
+        self._clear_vertices()
+        self.notes.value = ""
+        self.select_polygon(vertices)
+
+    def _clear_brush(self) -> None:
+        self._last_brush = None
+        if self.brush.selected_x is None and self.brush.selected_y is None:
+            return
+        was = self._updating
+        self._updating = True
+        try:
+            with self.brush.hold_sync():
+                self.brush.selected_x = None
+                self.brush.selected_y = None
+        finally:
+            self._updating = was
+
+    def _clear_vertices(self) -> None:
+        if len(self.polygon_marker.x) == 0 and len(self.polygon_marker.y) == 0:
+            return
+        with self.polygon_marker.hold_sync():
+            self.polygon_marker.x = np.zeros(0)
+            self.polygon_marker.y = np.zeros(0)
+
+    # --------------------------------------------------------- event handlers
+    def _on_model_selection(self, change) -> None:
+        if not self._selecting:
+            self._clear_brush()  # the rectangle no longer describes the selection
+        self._apply_selection()
+
+    def _on_model_groups(self, change) -> None:
+        self._apply_colours()
+        self._refresh_extra()
+
+    def _on_model_colour(self, change) -> None:
+        self._apply_colours()
+
+    def _on_model_parts(self, change) -> None:
+        self._on_parts_source_changed()
+
+    def _on_brush(self, change) -> None:
+        if self._updating or self.brush.brushing:
+            return
+        sx, sy = self.brush.selected_x, self.brush.selected_y
+        if sx is None or sy is None or len(sx) != 2 or len(sy) != 2:
+            self._last_brush = None
+            return
+        key = (tuple(np.asarray(sx, float)), tuple(np.asarray(sy, float)))
+        if key == self._last_brush:
+            return
+        self._last_brush = key
+        self.select_rectangle(sx, sy)
+
+    def _on_mark_selected(self, change) -> None:
+        """The front end (lasso) changed the scatter's ``selected``: select those rows."""
+        if self._updating:
+            return
+        new = change["new"]
+        idx = np.zeros(0, dtype=np.int64) if new is None else np.asarray(new).astype(np.int64)
+        if idx.size and (idx.min() < 0 or idx.max() >= self._mark_rows.size):
+            bad = int(idx.min() if idx.min() < 0 else idx.max())
+            raise IndexError(
+                f"selected point {bad} is outside 0..{self._mark_rows.size - 1} of this view"
+            )
+        mask = np.zeros(self.rows.size, dtype=bool)
+        mask[self._mark_pos[idx]] = True
+        self._select(mask)
+
+    def _on_vertices(self, change) -> None:
+        n = min(len(self.polygon_marker.x), len(self.polygon_marker.y))
+        xs = np.asarray(self.polygon_marker.x[:n], dtype=float)
+        ys = np.asarray(self.polygon_marker.y[:n], dtype=float)
+        if n >= 2:
+            xs, ys = np.append(xs, xs[0]), np.append(ys, ys[0])
+        with self._polygon_line.hold_sync():
+            self._polygon_line.x = xs
+            self._polygon_line.y = ys
+
+    def _on_image_click(self, mark, content) -> None:
+        """A click on the density image adds a polygon vertex (the image hides the background)."""
+        if self.tool != "polygon":
+            return
+        data = content.get("data") or {}
+        if "click_x" not in data or "click_y" not in data:
+            return
+        with self.polygon_marker.hold_sync():
+            self.polygon_marker.x = np.append(self.polygon_marker.x, float(data["click_x"]))
+            self.polygon_marker.y = np.append(self.polygon_marker.y, float(data["click_y"]))
+
+    def _on_hover(self, mark, content) -> None:
+        point = content.get("point") or content.get("data") or {}
+        index = point.get("index")
+        if index is None or not 0 <= int(index) < self._mark_rows.size:
+            return
+        lines = self._hover_lines(int(self._mark_rows[int(index)]))
+        for label, text in zip(
+            self._tooltip_lines, lines + [""] * len(self._tooltip_lines), strict=False
+        ):
+            if label.value != text:
+                label.value = text
+            label.layout.display = None if text else "none"
+
+    # ------------------------------------------------------------------ export
+    def save_png(self, path: str = "view.png", scale: float | None = None) -> None:
+        """Ask the browser to save the figure as a PNG (bqplot ``Figure.save_png``).
+
+        Front-end dependent: the figure must be displayed in a live front end,
+        which renders it and offers it as a download named ``path``; nothing
+        is written by the kernel.
+        """
+        self.figure.save_png(path, scale)
+
+    def save_svg(self, path: str = "view.svg") -> None:
+        """Ask the browser to save the figure as an SVG (bqplot ``Figure.save_svg``).
+
+        Front-end dependent, like :meth:`save_png`.
+        """
+        self.figure.save_svg(path)
+
+    # ----------------------------------------------------------------- closing
+    def close(self) -> None:
+        """Stop following the model and close every widget of the view."""
+        if getattr(self, "_closed", True) or not hasattr(self, "toolbar"):
+            super().close()  # not (fully) built, or closed already
+            return
+        for obj, handler, names in self._handlers:
+            obj.unobserve(handler, names=names)
+        self._handlers = []
+        self._closed = True
+        owned = [
+            self.toolbar, self._tool_buttons, self._mode_dropdown, self._clear_button,
+            self._close_button, self.status, self.notes, self.messages, self.hover_box,
+            *self._tooltip_lines, self.brush, self.lasso, self.figure, self.scatter,
+            self.replaced_marker, self.density, self._png, self._legend_swatches,
+            self._legend_text, self.polygon_marker, self._polygon_line, *self._extra_marks,
+            self.colour_scale, self.scale_x, self.scale_y,
+        ]  # fmt: skip
+        for w in owned:
+            w.close()
+        super().close()

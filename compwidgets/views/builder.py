@@ -1,0 +1,582 @@
+"""The balance builder: design a sequential binary partition (SBP) by hand.
+
+:class:`BalanceBuilder` shows the partition as a balance dendrogram (bar
+length = variance of each balance, with the distribution of each balance on
+its axis) and a table of the balances. The user splits groups of parts, undoes
+splits, merges leaves back, renames balances and asks for suggestions
+(principal balances, Ward clustering). The front end (``js/``) draws and edits;
+every proposed tree is validated here with :mod:`compwidgets.core.tree`, every
+number comes from :mod:`compwidgets.core`, and each valid tree becomes the
+model's SBP, so the other views follow.
+"""
+
+from __future__ import annotations
+
+import copy
+import time
+from collections.abc import Callable
+from typing import NamedTuple
+
+import anywidget
+import numpy as np
+import traitlets as t
+
+from .. import core
+from ..core import principal as _principal
+from ..core.summary import summarize_balances
+from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
+from ..model import CompositionModel, ModelError
+from ._esm import bundle, read_asset
+
+__all__ = ["BalanceBuilder"]
+
+#: Errors the kernel turns into a message in ``error`` (all are ValueErrors).
+_REFUSED = (ValueError, TypeError, KeyError, t.TraitError)
+
+#: Keys of a per-balance summary sent in ``stats`` (from core.summary).
+_STAT_KEYS = (
+    "index",
+    "n",
+    "n_missing",
+    "variance",
+    "share",
+    "mean",
+    "q5",
+    "q25",
+    "q50",
+    "q75",
+    "q95",
+    "groups",
+)
+
+
+def _group_colours(categories: list[str]) -> list[str]:
+    """One colour per group: the palette shared by every view (views/_common.py)."""
+    from ._common import group_colours
+
+    return [str(c) for c in group_colours(categories)]
+
+
+def _leaf(parts: list[str]) -> dict:
+    return {"id": "n0", "parts": list(parts), "name": "", "children": []}
+
+
+class _Partition(NamedTuple):
+    """A checked tree: its SBP and, per split node (pre-order), id, names and sides."""
+
+    sbp: np.ndarray  # int8 (k, D)
+    ids: list[str]
+    display: list[str]  # the names shown and given to the model
+    defaults: list[str]  # "num1,num2 | den1,den2"
+    custom: list[str]  # the user's names ("" = default)
+    sides: list[tuple[list[str], list[str]]]  # (numerator parts, denominator parts)
+
+
+def _row_map(sbp: np.ndarray | None, names) -> dict[bytes, str]:
+    """SBP row (as bytes) -> balance name: the partition regardless of row order."""
+    if sbp is None or sbp.shape[0] == 0:
+        return {}
+    rows = np.asarray(sbp, dtype=np.int8)
+    return {row.tobytes(): str(name) for row, name in zip(rows, names, strict=False)}
+
+
+class BalanceBuilder(anywidget.AnyWidget):
+    """Build a sequential binary partition by hand; it becomes the model's SBP.
+
+    Parameters
+    ----------
+    model : CompositionModel
+        The shared model. The builder writes ``model.sbp`` / ``balance_names``
+        (through :meth:`CompositionModel.set_sbp`) and ``model.colour_by``; it
+        follows ``active_parts``, ``sbp``, ``balance_names``, ``selection``,
+        ``group_column`` and ``colour_by``.
+
+    Traits (synced with the front end)
+    ----------------------------------
+    parts : list of str
+        The model's active parts (the root's parts). Kernel -> front end.
+    tree : dict
+        The partition as a tree: node = ``{"id", "parts", "name", "children"}``,
+        ``children`` = ``[]`` (leaf) or ``[numerator, denominator]``; SBP rows are
+        the split nodes in pre-order (:mod:`compwidgets.core.tree`). The front
+        end proposes an edit by setting it; an invalid tree is refused: the
+        trait goes back to the last valid tree, ``error`` says why and the
+        model is unchanged.
+    stats : list of dict
+        One entry per split node, pre-order: ``id``, ``name`` (as shown and
+        as in ``model.balance_names``), ``default_name``, ``custom_name``,
+        ``numerator``, ``denominator`` (parts) and the summary of the balance
+        over the rows complete in the active parts: ``n``, ``variance``
+        (ddof = 1), ``share`` of the total variance, ``mean``, ``q5`` ..
+        ``q95``, ``groups`` (``[{"code", "n", "mean"}]``, codes index
+        ``groups``). Values that cannot be computed are None.
+    selection_stats : list of dict
+        One entry per split node: ``id``, ``n``, ``mean``, ``q25``, ``q75`` of
+        the selected complete rows. A selection change updates only this and
+        ``n_selected``.
+    total_variance : float or None
+        Total variance of the active parts (complete rows, ddof = 1).
+    n_samples : int
+        Rows complete in the active parts (the rows of every statistic).
+    n_selected : int
+        Selected rows (``model.selection.size``).
+    groups : list of dict
+        ``{"code", "name", "colour"}`` per category of ``model.group_column``.
+    error : str
+        Why the last change was refused or a suggestion failed ("" = fine).
+    busy : bool
+        True while a suggestion that took more than :attr:`progress_delay` s runs.
+    progress : str
+        What the running suggestion has done so far.
+    colour_balance : str
+        Id of the split node whose balance colours the other views ("" = none);
+        mirrored to ``model.colour_by`` as that balance's name.
+
+    Custom messages from the front end
+    ----------------------------------
+    ``{"type": "suggest", "method": "principal" | "ward"}``: see :meth:`suggest`.
+    """
+
+    _esm = bundle()
+    _css = read_asset("builder.css")
+
+    parts = t.List(t.Unicode()).tag(sync=True)
+    tree = t.Dict().tag(sync=True)
+    stats = t.List(t.Dict()).tag(sync=True)
+    selection_stats = t.List(t.Dict()).tag(sync=True)
+    total_variance = t.Float(None, allow_none=True).tag(sync=True)
+    n_samples = t.Int(0).tag(sync=True)
+    n_selected = t.Int(0).tag(sync=True)
+    groups = t.List(t.Dict()).tag(sync=True)
+    error = t.Unicode("").tag(sync=True)
+    busy = t.Bool(False).tag(sync=True)
+    progress = t.Unicode("").tag(sync=True)
+    colour_balance = t.Unicode("").tag(sync=True)
+
+    #: A suggestion running longer than this (seconds) shows ``busy`` and ``progress``.
+    progress_delay: float = 1.0
+    #: Largest group searched exhaustively for principal balances (see core.principal).
+    max_exhaustive: int = 16
+
+    def __init__(self, model: CompositionModel, **kwargs):
+        if not isinstance(model, CompositionModel):
+            raise TypeError(f"BalanceBuilder needs a CompositionModel, got {type(model).__name__}")
+        self.model = model
+        self._syncing = False  # the kernel itself is assigning tree / parts / colour_balance
+        self._pushing = False  # the builder is writing to the model
+        self._last_tree: dict = {}
+        self._part = _Partition(
+            np.zeros((0, len(model.active_parts)), np.int8), [], [], [], [], []
+        )
+        self._rows = np.zeros(model.n_rows, dtype=bool)
+        self._B: np.ndarray | None = None
+        self._summary: list[dict] = []
+        self._total: float | None = None
+        self._n_ok = 0
+        super().__init__(**kwargs)
+        self.observe(self._on_tree, names=["tree"])
+        self.observe(self._on_parts, names=["parts"])
+        self.observe(self._on_colour_balance, names=["colour_balance"])
+        self.on_msg(self._on_msg)
+        self._model_handlers: list[tuple[Callable, list[str]]] = [
+            (self._on_model_partition, ["active_parts", "sbp", "balance_names"]),
+            (self._on_model_data, ["amalgamations"]),
+            (self._on_model_selection, ["selection"]),
+            (self._on_model_groups, ["group_column", "metadata_version"]),
+            (self._on_model_colour, ["colour_by"]),
+        ]
+        for handler, names in self._model_handlers:
+            model.observe(handler, names=names)
+        self._refresh_groups()
+        self._sync_from_model(force=True)
+
+    # ------------------------------------------------------------- public API
+    def suggest(self, method: str) -> bool:
+        """Replace the tree by a suggested partition of the active parts.
+
+        Parameters
+        ----------
+        method : {"principal", "ward"}
+            ``"principal"``: principal balances
+            (:func:`compwidgets.core.principal.principal_balances`);
+            ``"ward"``: Ward clustering of the clr columns
+            (:func:`compwidgets.core.principal.ward_sbp`). Both use the clr
+            coordinates (``model.clr()``) of the rows complete in the active parts.
+
+        Returns
+        -------
+        bool
+            True when the suggestion became the tree (and the model's SBP);
+            otherwise ``error`` says why.
+        """
+        parts = list(self.parts)
+        ok = self.model.complete_rows()
+        Z = np.asarray(self.model.clr())[ok]
+        start = time.monotonic()
+        last = [0.0]
+
+        def report(done: float, total: int) -> None:
+            now = time.monotonic()
+            if now - start < self.progress_delay:
+                return
+            if not self.busy:
+                self.busy = True
+            if now - last[0] >= 0.1 or not self.progress:
+                last[0] = now
+                self.progress = (
+                    f"principal balances: {float(done):.1f} of {total} balances found "
+                    f"({100 * float(done) / max(total, 1):.0f} %)"
+                )
+
+        try:
+            if method == "principal":
+                sbp = _principal.principal_balances(
+                    Z, max_exhaustive=self.max_exhaustive, progress=report, kind="clr"
+                )
+            elif method == "ward":
+                sbp = _principal.ward_sbp(Z, parts)
+            else:
+                self.error = f"unknown suggestion {method!r}; use 'principal' or 'ward'"
+                return False
+            tree = sbp_to_tree(sbp, parts)
+        except _REFUSED as err:
+            self.error = f"no suggestion: {err}"
+            return False
+        finally:
+            if self.busy:
+                self.busy = False
+            if self.progress:
+                self.progress = ""
+        return self._propose(tree)
+
+    def reset(self) -> None:
+        """Back to one group holding every active part (the model's SBP is cleared)."""
+        self._propose(_leaf(list(self.parts)))
+
+    def close(self) -> None:
+        """Stop following the model, then close the widget."""
+        for handler, names in getattr(self, "_model_handlers", []):
+            try:
+                self.model.unobserve(handler, names=names)
+            except ValueError:
+                pass
+        self._model_handlers = []
+        super().close()
+
+    # ------------------------------------------------------- tree validation
+    def _check(self, tree, parts: list[str]) -> _Partition:
+        """The partition of a proposed tree over ``parts``.
+
+        Raises
+        ------
+        core.SBPError
+            For an invalid tree, or two balances with the same name.
+        """
+        sbp, names, ids = tree_to_sbp(tree, parts)
+        if sbp.shape[0] == 0:
+            return _Partition(sbp, [], [], [], [], [])
+        defaults = core.balance_names(sbp, parts, complete=False)
+        custom = [str(n).strip() for n in names]
+        display = [c or d for c, d in zip(custom, defaults, strict=True)]
+        seen: dict[str, int] = {}
+        for i, name in enumerate(display):
+            if name in seen:
+                raise core.SBPError(
+                    f"the balance name {name!r} is used twice (balances {seen[name] + 1} and "
+                    f"{i + 1}); each balance needs its own name"
+                )
+            seen[name] = i
+        sides = [
+            (list(n["children"][0]["parts"]), list(n["children"][1]["parts"]))
+            for n in split_nodes(tree)
+        ]
+        return _Partition(sbp, list(ids), display, defaults, custom, sides)
+
+    def _on_tree(self, change) -> None:
+        if not self._syncing:
+            self._propose(change["new"])
+
+    def _propose(self, tree) -> bool:
+        """Validate a tree; push it to the model and install it, or refuse it."""
+        parts = list(self.parts)
+        try:
+            part = self._check(tree, parts)
+        except _REFUSED as err:
+            self._refuse(str(err))
+            return False
+        colour_id = self._carried_colour(part)
+        colour_name = part.display[part.ids.index(colour_id)] if colour_id else ""
+        try:
+            self._push_to_model(part, colour_name)
+        except (ModelError, t.TraitError) as err:
+            self._refuse(str(err))
+            return False
+        self._install(copy.deepcopy(tree), parts, part, colour_id)
+        return True
+
+    def _refuse(self, message: str) -> None:
+        """Send the last valid tree back, with the reason."""
+        with self.hold_sync():
+            self._set_quietly("tree", copy.deepcopy(self._last_tree))
+            self.error = f"change refused: {message}. The balances are unchanged."
+
+    def _set_quietly(self, name: str, value) -> None:
+        """Assign one of this widget's traits without running the front-end handlers."""
+        self._syncing = True
+        try:
+            if getattr(self, name) != value:
+                setattr(self, name, value)
+        finally:
+            self._syncing = False
+
+    def _carried_colour(self, part: _Partition) -> str:
+        """Id, in a new partition, of the balance colouring the views (same SBP row) or ""."""
+        if not self.colour_balance or self.colour_balance not in self._part.ids:
+            return ""
+        row = self._part.sbp[self._part.ids.index(self.colour_balance)]
+        for k, new_row in enumerate(part.sbp):
+            if np.array_equal(row, new_row):
+                return part.ids[k]
+        return ""
+
+    # --------------------------------------------------------- kernel -> model
+    def _push_to_model(self, part: _Partition, colour_name: str) -> None:
+        """Write the SBP, its names and the colour balance to the model."""
+        m = self.model
+        self._pushing = True
+        try:
+            with m.hold_trait_notifications():
+                if part.sbp.shape[0] == 0:
+                    if m.colour_by:
+                        m.colour_by = ""
+                    if m.sbp is not None:
+                        m.sbp = None
+                    if m.balance_names:
+                        m.balance_names = []
+                    return
+                if _row_map(m.sbp, m.balance_names) != _row_map(part.sbp, part.display):
+                    m.set_sbp(part.sbp, part.display)
+                if m.colour_by != colour_name:
+                    m.colour_by = colour_name
+        finally:
+            self._pushing = False
+
+    def _install(self, tree: dict, parts: list[str], part: _Partition, colour_id: str) -> None:
+        """Make ``tree`` the builder's state and send it with fresh statistics."""
+        self._last_tree = copy.deepcopy(tree)
+        self._part = part
+        warning = self._compute()
+        with self.hold_sync():
+            self._set_quietly("parts", parts)
+            self._set_quietly("tree", tree)
+            self._set_quietly("colour_balance", colour_id)
+            self._publish_stats()
+            self._publish_selection()
+            self.error = warning
+
+    # --------------------------------------------------------- model -> kernel
+    def _tree_for_model(self, parts: list[str]) -> dict:
+        """Tree of the model's SBP (one leaf when it has none or it does not fit)."""
+        m = self.model
+        sbp = m.sbp
+        if sbp is None or sbp.shape[0] == 0 or sbp.shape[1] != len(parts):
+            return _leaf(parts)
+        defaults = core.balance_names(sbp, parts, complete=False)
+        names = list(m.balance_names)
+        if len(names) != len(defaults):
+            names = defaults
+        return sbp_to_tree(
+            sbp, parts, ["" if n == d else n for n, d in zip(names, defaults, strict=True)]
+        )
+
+    def _renamed(self, tree: dict, names: dict[bytes, str]) -> dict:
+        """Copy of ``tree`` with the balance names of ``names`` (row bytes -> name)."""
+        out = copy.deepcopy(tree)
+        for node, row, default in zip(
+            split_nodes(out), self._part.sbp, self._part.defaults, strict=True
+        ):
+            name = names.get(row.tobytes(), default)
+            node["name"] = "" if name == default else name
+        return out
+
+    def _sync_from_model(self, force: bool = False) -> None:
+        """Follow the model's active parts and SBP (an edit made elsewhere, e.g. a load)."""
+        if self._pushing:
+            return
+        m = self.model
+        parts = list(m.active_parts)
+        tree = None
+        if not force and parts == list(self.parts) and self._last_tree:
+            wanted = _row_map(m.sbp, m.balance_names)
+            shown = _row_map(self._part.sbp, self._part.display)
+            if wanted == shown:
+                return
+            if wanted.keys() == shown.keys():  # same partition, other names: keep the ids
+                tree = self._renamed(self._last_tree, wanted)
+        if tree is None:
+            tree = self._tree_for_model(parts)
+        try:
+            part = self._check(tree, parts)
+        except _REFUSED:
+            tree = _leaf(parts)
+            part = self._check(tree, parts)
+        colour_id = (
+            part.ids[part.display.index(m.colour_by)] if m.colour_by in part.display else ""
+        )
+        self._install(tree, parts, part, colour_id)
+
+    def _on_model_partition(self, change) -> None:
+        self._sync_from_model()
+
+    def _on_model_data(self, change) -> None:
+        if self._pushing:
+            return
+        warning = self._compute()
+        with self.hold_sync():
+            self._publish_stats()
+            self._publish_selection()
+            self.error = warning
+
+    def _on_model_selection(self, change) -> None:
+        self._publish_selection()
+
+    def _on_model_groups(self, change) -> None:
+        self._refresh_groups()
+        self._compute()
+        with self.hold_sync():
+            self._publish_stats()
+
+    def _on_model_colour(self, change) -> None:
+        if self._pushing:
+            return
+        name = change["new"]
+        part = self._part
+        colour_id = part.ids[part.display.index(name)] if name in part.display else ""
+        self._set_quietly("colour_balance", colour_id)
+
+    # ------------------------------------------------------ front end -> kernel
+    def _on_parts(self, change) -> None:
+        if not self._syncing:
+            self._set_quietly("parts", list(self.model.active_parts))
+
+    def _on_colour_balance(self, change) -> None:
+        if self._syncing:
+            return
+        new, old = change["new"], change["old"]
+        part = self._part
+        if new and new not in part.ids:
+            with self.hold_sync():
+                self._set_quietly("colour_balance", old if old in part.ids else "")
+                self.error = f"change refused: no balance has the id {new!r}."
+            return
+        name = part.display[part.ids.index(new)] if new else ""
+        if self.model.colour_by == name:
+            return
+        self._pushing = True
+        try:
+            self.model.colour_by = name
+        except t.TraitError as err:
+            with self.hold_sync():
+                self._set_quietly("colour_balance", old if old in part.ids else "")
+                self.error = f"change refused: {err}."
+        finally:
+            self._pushing = False
+
+    def _on_msg(self, widget, content, buffers) -> None:
+        if isinstance(content, dict) and content.get("type") == "suggest":
+            self.suggest(str(content.get("method", "")))
+
+    # ------------------------------------------------------------- statistics
+    def _compute(self) -> str:
+        """Balances and summaries of the complete rows; returns a warning ("" = none)."""
+        m = self.model
+        part = self._part
+        ok = np.asarray(m.complete_rows(), dtype=bool)
+        n_ok = int(ok.sum())
+        self._rows = ok
+        self._B = None
+        self._summary = []
+        self._total = None
+        self._n_ok = n_ok
+        if n_ok <= core.DDOF:
+            return (
+                f"only {n_ok} row(s) have a positive value in every active part; "
+                f"a variance needs at least {core.DDOF + 1}"
+            )
+        values = m.part_values()[ok]
+        self._total = float(core.total_variance(values))
+        if part.sbp.shape[0] == 0:
+            return ""
+        B = np.asarray(core.balances(values, part.sbp, complete=False), dtype=float)
+        self._B = B
+        cats, codes = m.group_codes()
+        self._summary = summarize_balances(
+            B,
+            codes=np.asarray(codes)[ok],
+            n_groups=len(cats),
+            total=self._total,
+            names=part.display,
+        )
+        return ""
+
+    def _publish_stats(self) -> None:
+        part = self._part
+        stats = []
+        for k, summary in enumerate(self._summary):
+            entry = {
+                "id": part.ids[k],
+                "name": part.display[k],
+                "default_name": part.defaults[k],
+                "custom_name": part.custom[k],
+                "numerator": part.sides[k][0],
+                "denominator": part.sides[k][1],
+            }
+            entry.update({key: summary.get(key) for key in _STAT_KEYS})
+            stats.append(entry)
+        if not self._summary and part.sbp.shape[0]:  # no statistics: the structure only
+            stats = [
+                {
+                    "id": part.ids[k],
+                    "name": part.display[k],
+                    "default_name": part.defaults[k],
+                    "custom_name": part.custom[k],
+                    "numerator": part.sides[k][0],
+                    "denominator": part.sides[k][1],
+                    **dict.fromkeys(_STAT_KEYS),
+                    "index": k,
+                    "n": 0,
+                    "groups": [],
+                }
+                for k in range(part.sbp.shape[0])
+            ]
+        if self.stats != stats:
+            self.stats = stats
+        if self.total_variance != self._total:
+            self.total_variance = self._total
+        if self.n_samples != self._n_ok:
+            self.n_samples = self._n_ok
+
+    def _publish_selection(self) -> None:
+        """Statistics of the selected complete rows (cheap: nothing else is resent)."""
+        m = self.model
+        selection = []
+        if self._B is not None:
+            chosen = m.selected_mask()[self._rows]
+            summary = summarize_balances(self._B[chosen])
+            selection = [
+                {"id": i, "n": s["n"], "mean": s["mean"], "q25": s["q25"], "q75": s["q75"]}
+                for i, s in zip(self._part.ids, summary, strict=True)
+            ]
+        with self.hold_sync():
+            if self.selection_stats != selection:
+                self.selection_stats = selection
+            n = int(m.selection.size)
+            if self.n_selected != n:
+                self.n_selected = n
+
+    def _refresh_groups(self) -> None:
+        cats, _ = self.model.group_codes()
+        colours = _group_colours(list(cats))
+        groups = [{"code": i, "name": str(c), "colour": colours[i]} for i, c in enumerate(cats)]
+        if self.groups != groups:
+            self.groups = groups

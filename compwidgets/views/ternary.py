@@ -1,0 +1,478 @@
+"""The ternary diagram of three parts (or amalgamations), linked to the shared model.
+
+Layout (from :mod:`compwidgets.core.ternary`): the first part at the top
+vertex, the second bottom left, the third bottom right; side 1, equal aspect.
+Every number drawn (projection, grid, ticks, centring, regions, lines) comes
+from :mod:`compwidgets.core`; this module only places marks and text.
+
+Example
+-------
+>>> view = TernaryView(model, ["SiO2", "Al2O3", "mafic"], probability_levels=[0.9, 0.99])
+>>> view.centred = True          # perturb data and grid by the inverse data centre
+>>> view.parts = ["Na2O", "K2O", "CaO"]
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import bqplot as bq
+import numpy as np
+import traitlets as t
+
+from ..core import CompositionError, center
+from ..core import regions as core_regions
+from ..core import ternary as core_ternary
+from ..model import CompositionModel
+from . import _common as cm
+from ._scatter import ScatterView
+
+__all__ = ["TernaryView"]
+
+H = core_ternary.HEIGHT
+
+#: Offset of tick labels from the frame, and of vertex labels from the vertices (data units).
+_TICK_OFFSET = 0.035
+#: Scale ranges: the triangle with room for labels, plus a legend strip on the right.
+_X_RANGE = (-0.13, 1.50)
+_Y_RANGE = (-0.15, H + 0.09)
+
+
+def _format_level(level: float) -> str:
+    pct = 100.0 * level
+    return f"{pct:.0f}" if abs(pct - round(pct)) < 1e-9 else f"{pct:.3g}"
+
+
+class TernaryView(ScatterView):
+    """Ternary diagram of three parts of the model, with selection tools.
+
+    Parameters
+    ----------
+    model : CompositionModel
+    parts : sequence of 3 str, optional
+        Parts or amalgamation names of ``model.available_parts``. Default: the
+        first three active parts, following ``model.active_parts`` as it changes
+        (until ``parts`` is set).
+    grid_step : float, default 0.1
+        Grid lines every 10 % of each part.
+    centred : bool, default False
+        Perturb data, grid and overlays by the inverse of the data centre
+        (von Eynatten, Pawlowsky-Glahn & Egozcue 2002); ticks keep the original shares.
+    probability_levels : sequence of float, default ()
+        Probability regions (normal model in ilr) drawn per group, e.g. [0.9, 0.95, 0.99].
+    confidence_level : float or None, default None
+        Confidence region of each group's centre (Hotelling's T^2), e.g. 0.95.
+    compositional_line : None, (row, row) or dict, default None
+        A compositional line through the compositions of two rows (model row
+        positions), or ``{"direction": clr vector of 3 values, "origin": row
+        position or 3-part composition (default: the data centre)}``.
+    id_column : str, default ""
+        Metadata column shown as the sample id on hover ("" = the row label).
+    **kwargs
+        Passed to :class:`~compwidgets.views._scatter.ScatterView` (mode,
+        threshold, subsample_size, seed, height).
+    """
+
+    parts = t.List(t.Unicode())
+    grid_step = t.Float(0.1)
+    centred = t.Bool(False)
+    probability_levels = t.List(t.Float())
+    confidence_level = t.Float(None, allow_none=True)
+    compositional_line = t.Any(None, allow_none=True)
+    id_column = t.Unicode("")
+
+    def __init__(
+        self,
+        model: CompositionModel,
+        parts: Sequence[str] | None = None,
+        *,
+        grid_step: float = 0.1,
+        centred: bool = False,
+        probability_levels: Sequence[float] = (),
+        confidence_level: float | None = None,
+        compositional_line=None,
+        id_column: str = "",
+        **kwargs,
+    ):
+        self._follow = parts is None
+        self._internal = False
+        self._centring: np.ndarray | None = None
+        self._closed_shown = np.zeros((0, 3))
+        super().__init__(model, **kwargs)
+        self._internal = True
+        try:
+            self.parts = self._followed_parts() if parts is None else list(parts)
+        finally:
+            self._internal = False
+        self.grid_step = grid_step
+        self.centred = centred
+        self.probability_levels = list(probability_levels)
+        self.confidence_level = confidence_level
+        self.id_column = id_column
+        self.compositional_line = compositional_line
+        self._start()
+
+    # --------------------------------------------------------------- options
+    def _followed_parts(self) -> list[str]:
+        active = list(self.model.active_parts)
+        if len(active) >= 3:
+            return active[:3]
+        extra = [p for p in self.model.parts if p not in active]
+        return cm.check_view_parts(self.model, (active + extra)[:3], 3)
+
+    @t.validate("parts")
+    def _check_parts(self, proposal):
+        try:
+            return cm.check_view_parts(self.model, proposal["value"], 3)
+        except ValueError as err:
+            raise t.TraitError(f"TernaryView.parts: {err}") from None
+
+    @t.validate("grid_step")
+    def _check_step(self, proposal):
+        try:
+            core_ternary.grid_levels(proposal["value"])
+        except CompositionError as err:
+            raise t.TraitError(f"TernaryView.grid_step: {err}") from None
+        return proposal["value"]
+
+    @t.validate("probability_levels")
+    def _check_levels(self, proposal):
+        levels = [float(v) for v in proposal["value"]]
+        bad = [v for v in levels if not 0.0 < v < 1.0]
+        if bad:
+            raise t.TraitError(f"probability_levels must be in (0, 1), got {bad}")
+        return sorted(set(levels))
+
+    @t.validate("confidence_level")
+    def _check_confidence(self, proposal):
+        value = proposal["value"]
+        if value is not None and not 0.0 < value < 1.0:
+            raise t.TraitError(f"confidence_level must be None or in (0, 1), got {value!r}")
+        return value
+
+    @t.validate("id_column")
+    def _check_id_column(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.model.metadata.columns:
+            raise t.TraitError(
+                f"unknown id column {name!r}; metadata columns: "
+                f"{', '.join(map(str, self.model.metadata.columns))}"
+            )
+        return name
+
+    @t.validate("compositional_line")
+    def _check_line(self, proposal):
+        value = proposal["value"]
+        if value is None:
+            return None
+        if isinstance(value, dict):
+            unknown = set(value) - {"direction", "origin"}
+            if unknown or "direction" not in value:
+                raise t.TraitError(
+                    "compositional_line as a dict needs 'direction' (a clr vector of 3 values) "
+                    f"and optionally 'origin'; got keys {sorted(value)}"
+                )
+            d = np.asarray(value["direction"], dtype=float)
+            if d.shape != (3,):
+                raise t.TraitError(f"compositional_line direction needs 3 values, got {d.shape}")
+            origin = value.get("origin")
+            if origin is not None and not isinstance(origin, (int, np.integer)):
+                o = np.asarray(origin, dtype=float)
+                if o.shape != (3,) or not np.all(o > 0):
+                    raise t.TraitError(
+                        "compositional_line origin must be a row position or 3 positive parts"
+                    )
+            return {"direction": d, "origin": origin}
+        try:
+            rows = [int(v) for v in value]
+        except (TypeError, ValueError):
+            raise t.TraitError(
+                "compositional_line must be None, two row positions, or a dict with a "
+                f"'direction'; got {value!r}"
+            ) from None
+        if len(rows) != 2 or rows[0] == rows[1]:
+            raise t.TraitError(f"compositional_line needs two different row positions, got {rows}")
+        for r in rows:
+            if not 0 <= r < self.model.n_rows:
+                raise t.TraitError(f"row position {r} is outside 0..{self.model.n_rows - 1}")
+        return tuple(rows)
+
+    @t.observe("parts")
+    def _on_parts(self, change):
+        if not self._internal:
+            self._follow = False
+        if self._ready:
+            self._set_vertex_labels()
+            self.refresh()
+
+    @t.observe("centred", "grid_step")
+    def _on_geometry(self, change):
+        if self._ready:
+            self.refresh()
+
+    @t.observe("probability_levels", "confidence_level", "compositional_line")
+    def _on_overlay_options(self, change):
+        if self._ready:
+            self._draw_overlays()
+
+    def follow_active_parts(self) -> None:
+        """Show the model's first three active parts again, and follow them."""
+        self._follow = True
+        self._internal = True
+        try:
+            self.parts = self._followed_parts()
+        finally:
+            self._internal = False
+
+    def _on_parts_source_changed(self) -> None:
+        if self._follow:
+            new = self._followed_parts()
+            if new != list(self.parts):
+                self._internal = True
+                try:
+                    self.parts = new  # redraws
+                finally:
+                    self._internal = False
+                return
+        gone = [p for p in self.parts if p not in self.model.available_parts]
+        if gone:
+            self.notes.value = (
+                f"parts {gone} no longer exist in the model; showing the active parts instead"
+            )
+            self.follow_active_parts()
+            return
+        self.refresh()  # an amalgamation may have new members
+
+    # ----------------------------------------------------------- ScatterView
+    def shown_parts(self) -> list[str]:
+        return list(self.parts)
+
+    def _view_ranges(self):
+        return _X_RANGE, _Y_RANGE
+
+    def _density_extent(self):
+        return 0.0, 1.0, 0.0, H
+
+    def _legend_anchor(self):
+        return 1.12, H + 0.02, 0.055
+
+    def _coordinates(self):
+        parts = list(self.parts)
+        rows = np.flatnonzero(self.model.complete_rows(parts)).astype(np.uint32)
+        closed = np.asarray(self.model.closed(parts))[rows]
+        self._closed_shown = closed
+        self._centring = None
+        if self.centred and rows.size:
+            self._centring = core_ternary.centring_perturbation(data=closed)
+            closed = core_ternary.perturb_closed(closed, self._centring)
+        if rows.size == 0:
+            return rows, np.zeros(0), np.zeros(0)
+        x, y = core_ternary.ternary_to_xy(closed)
+        return rows, x, y
+
+    def _build_marks(self):
+        xy = {"x": self.scale_x, "y": self.scale_y}
+        quiet = {"interactions": {}, "enable_hover": False}
+        self.grid = bq.Lines(
+            x=np.zeros((0, 2)), y=np.zeros((0, 2)), scales=xy, colors=[cm.GRID_COLOUR],
+            stroke_width=0.7, **quiet,
+        )  # fmt: skip
+        self.frame = bq.Lines(
+            x=core_ternary.VERTICES[[1, 2, 0, 1], 0],
+            y=core_ternary.VERTICES[[1, 2, 0, 1], 1],
+            scales=xy, colors=[cm.FRAME_COLOUR], stroke_width=1.4, **quiet,
+        )  # fmt: skip
+        label = {"scales": xy, "colors": [cm.TEXT_COLOUR], "font_unit": "px", **quiet}
+        # one Label mark per frame edge (a Label mark has one alignment)
+        self.tick_labels = [
+            bq.Label(x=[], y=[], text=np.array([], dtype=str), align=a, default_size=10, **label)
+            for a in ("end", "middle", "start")
+        ]
+        self.vertex_labels = bq.Label(
+            x=[0.5, -0.02, 1.02], y=[H + 0.045, -0.105, -0.105], text=np.array(["", "", ""]),
+            align="middle", default_size=14, font_weight="bold", **label,
+        )  # fmt: skip
+        self.regions = bq.Lines(
+            x=np.zeros((0, 2)), y=np.zeros((0, 2)), scales=xy, stroke_width=1.6, **quiet
+        )
+        self.centre_regions = bq.Lines(
+            x=np.zeros((0, 2)), y=np.zeros((0, 2)), scales=xy, stroke_width=1.6,
+            line_style="dashed", **quiet,
+        )  # fmt: skip
+        self.line = bq.Lines(
+            x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.FRAME_COLOUR],
+            stroke_width=1.5, line_style="dash_dotted", **quiet,
+        )  # fmt: skip
+        below = [self.grid, self.frame]
+        above = [self.regions, self.centre_regions, self.line, *self.tick_labels]
+        return below, [*above, self.vertex_labels]
+
+    def _set_vertex_labels(self) -> None:
+        text = np.array([str(p) for p in self.parts], dtype=str)
+        if list(self.vertex_labels.text) != list(text):
+            self.vertex_labels.text = text
+
+    def _refresh_extra(self) -> None:
+        self._set_vertex_labels()
+        self._draw_grid()
+        self._draw_overlays()
+
+    def _draw_grid(self) -> None:
+        g = core_ternary.grid_lines(self.grid_step, centre=self._centre())
+        with self.grid.hold_sync():
+            self.grid.x = g.x.astype(np.float32)
+            self.grid.y = g.y.astype(np.float32)
+        ticks = core_ternary.grid_ticks(self.grid_step, centre=self._centre())
+        for p, mark in enumerate(self.tick_labels):  # part A: left edge, B: bottom, C: right
+            sel = ticks.part == p
+            with mark.hold_sync():
+                mark.x = ticks.x[sel] + _TICK_OFFSET * ticks.dx[sel]
+                mark.y = ticks.y[sel] + _TICK_OFFSET * ticks.dy[sel] - (0.012 if p == 1 else 0)
+                mark.text = np.array([_format_level(v) for v in ticks.level[sel]], dtype=str)
+
+    def _centre(self) -> np.ndarray | None:
+        """The data centre when centred (the grid is perturbed by its inverse), else None."""
+        if self._centring is None:
+            return None
+        inv = 1.0 / self._centring
+        return inv / inv.sum()
+
+    def _to_view(self, closed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        if self._centring is not None:
+            closed = core_ternary.perturb_closed(closed, self._centring)
+        return core_ternary.ternary_to_xy(closed)
+
+    def _draw_overlays(self) -> None:
+        notes: list[str] = []
+        groups = self._groups()
+        curves, colours, opacities = [], [], []
+        centre_curves, centre_colours = [], []
+        levels = list(self.probability_levels)
+        for name, colour, X in groups:
+            if not levels and self.confidence_level is None:
+                break
+            try:
+                if levels:
+                    for k, curve in enumerate(core_regions.probability_regions(X, levels)):
+                        curves.append(self._to_view(curve))
+                        colours.append(colour)
+                        opacities.append(1.0 - 0.45 * k / max(1, len(levels) - 1))
+                if self.confidence_level is not None:
+                    curve = core_regions.centre_confidence_region(X, self.confidence_level)
+                    centre_curves.append(self._to_view(curve))
+                    centre_colours.append(colour)
+            except CompositionError as err:
+                notes.append(f"no region for {name}: {err}")
+        self._set_lines(self.regions, curves, colours, opacities)
+        self._set_lines(self.centre_regions, centre_curves, centre_colours, [1.0])
+        line = self._line_points(notes)
+        with self.line.hold_sync():
+            if line is None:
+                self.line.x, self.line.y = np.zeros(0), np.zeros(0)
+            else:
+                self.line.x, self.line.y = line[0].astype(np.float32), line[1].astype(np.float32)
+        if levels:
+            notes.insert(0, "regions at " + ", ".join(_format_level(v) + " %" for v in levels))
+        self.notes.value = "; ".join(notes)
+
+    @staticmethod
+    def _set_lines(mark, curves, colours, opacities) -> None:
+        with mark.hold_sync():
+            if curves:
+                mark.x = np.array([c[0] for c in curves], dtype=np.float32)
+                mark.y = np.array([c[1] for c in curves], dtype=np.float32)
+                mark.colors = list(colours)
+                mark.opacities = list(opacities)
+            else:
+                mark.x = np.zeros((0, 2), dtype=np.float32)
+                mark.y = np.zeros((0, 2), dtype=np.float32)
+
+    def _groups(self) -> list[tuple[str, str, np.ndarray]]:
+        """(name, colour, closed 3-part data) of each group among the rows shown."""
+        m = self.model
+        X = self._closed_shown
+        if not m.group_column:
+            return [("all rows", cm.SINGLE_COLOUR, X)] if X.shape[0] else []
+        categories, codes = m.group_codes()
+        shown = codes[self.rows]
+        palette = cm.group_colours(categories)
+        out = []
+        for k, name in enumerate(categories):
+            sel = shown == k
+            if sel.any():
+                out.append((f"group {name!r}", palette[k], X[sel]))
+        return out
+
+    def _line_points(self, notes: list[str]):
+        spec = self.compositional_line
+        if spec is None:
+            return None
+        parts = list(self.parts)
+        complete = self.model.complete_rows(parts)
+        closed = self.model.closed(parts)
+
+        def row_composition(r: int) -> np.ndarray | None:
+            if not complete[r]:
+                notes.append(
+                    f"no compositional line: row {self.model.index[r]!r} is missing or zero in "
+                    + ", ".join(parts)
+                )
+                return None
+            return np.asarray(closed[r])
+
+        try:
+            if isinstance(spec, dict):
+                origin = spec["origin"]
+                if origin is None:
+                    if self._closed_shown.shape[0] == 0:
+                        return None
+                    x0 = np.asarray(center(self._closed_shown))  # the data centre
+                elif isinstance(origin, (int, np.integer)):
+                    x0 = row_composition(int(origin))
+                else:
+                    x0 = np.asarray(origin, dtype=float)
+                if x0 is None:
+                    return None
+                pts = core_ternary.line_along(x0, spec["direction"])
+            else:
+                a, b = (row_composition(r) for r in spec)
+                if a is None or b is None:
+                    return None
+                pts = core_ternary.line_through(a, b)
+        except CompositionError as err:
+            notes.append(f"no compositional line: {err}")
+            return None
+        return self._to_view(pts)
+
+    # ------------------------------------------------------------------ hover
+    def _hover_lines(self, row: int) -> list[str]:
+        m = self.model
+        comp = m.composition
+        if self.id_column:
+            ident = str(m.metadata[self.id_column].iloc[row])
+        else:
+            ident = str(m.index[row])
+        lines = [ident]
+        if m.group_column:
+            categories, codes = m.group_codes()
+            code = int(codes[row])
+            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
+        parts = list(self.parts)
+        closed = np.asarray(m.closed(parts))[row]
+        values = m.part_values(parts)[row]
+        unit = comp.unit
+        for j, part in enumerate(parts):
+            members = cm.part_members(m, part)
+            replaced = bool(comp.replaced[members].iloc[row].any())
+            raw = comp.raw[members].iloc[row].to_numpy(dtype=float)
+            text = f"{part}: {100 * closed[j]:.2f} % | {cm.format_number(values[j])} {unit}"
+            if replaced:
+                known = raw[np.isfinite(raw)]
+                observed = (
+                    f"{cm.format_number(known.sum())} {unit} observed, " if known.size else ""
+                )
+                text += f" (replaced; {observed}below detection)"
+            elif np.all(np.isfinite(raw)) and not np.isclose(raw.sum(), values[j]):
+                text += f" (raw {cm.format_number(raw.sum())} {unit})"
+            lines.append(text)
+        return lines

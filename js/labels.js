@@ -1,0 +1,101 @@
+// Text of every label the builder shows. Pure functions returning plain strings:
+// callers put them in the DOM with textContent only, never as markup.
+
+/** Shown for a number that is not available. */
+export const NO_VALUE = "\u2013";
+
+/**
+ * Default balance name, the same form the kernel uses: "num1,num2 | den1,den2".
+ * @param {string[]} numerator
+ * @param {string[]} denominator
+ * @returns {string}
+ */
+export function defaultBalanceName(numerator, denominator) {
+  return `${numerator.join(",")} | ${denominator.join(",")}`;
+}
+
+/**
+ * Label of a node's group of parts ("a, b, c").
+ * @param {string[]} parts
+ * @returns {string}
+ */
+export function partsLabel(parts) {
+  return parts.map(String).join(", ");
+}
+
+/**
+ * Shorten a text to at most `max` characters (an ellipsis marks the cut).
+ * @param {string} text
+ * @param {number} max
+ * @returns {string}
+ */
+export function truncate(text, max) {
+  const s = String(text);
+  if (max < 1 || s.length <= max) return s;
+  return `${s.slice(0, Math.max(0, max - 1))}\u2026`;
+}
+
+/**
+ * A number for display, or a dash when it is missing or not finite.
+ * @param {number | null | undefined} x
+ * @param {number} [digits] significant digits
+ * @returns {string}
+ */
+export function formatNumber(x, digits = 3) {
+  if (x === null || x === undefined || typeof x !== "number" || !Number.isFinite(x)) {
+    return NO_VALUE;
+  }
+  if (x === 0) return "0";
+  const a = Math.abs(x);
+  if (a >= 1e5 || a < 1e-3) return x.toExponential(digits - 1);
+  return Number(x.toPrecision(digits)).toString();
+}
+
+/**
+ * A share (0..1) as a percentage.
+ * @param {number | null | undefined} share
+ * @returns {string}
+ */
+export function formatShare(share) {
+  if (share === null || share === undefined || !Number.isFinite(share)) return NO_VALUE;
+  return `${(100 * share).toFixed(1)} %`;
+}
+
+/**
+ * The count of selected samples, e.g. "n selected: 123".
+ * @param {number} n
+ * @returns {string}
+ */
+export function selectedCountText(n) {
+  return `n selected: ${Math.max(0, Math.trunc(Number(n) || 0))}`;
+}
+
+/**
+ * The total variance line.
+ * @param {number | null | undefined} total
+ * @returns {string}
+ */
+export function totalVarianceText(total) {
+  return `total variance: ${formatNumber(total)}`;
+}
+
+/**
+ * Accessible description of a leaf in the dendrogram.
+ * @param {string[]} parts
+ * @returns {string}
+ */
+export function leafTitle(parts) {
+  if (parts.length < 2) return `part ${parts[0] ?? ""} (a single part is not split)`;
+  return `group of ${parts.length} parts: ${partsLabel(parts)} (click to split)`;
+}
+
+/**
+ * Tooltip of a balance bar.
+ * @param {string} name
+ * @param {number | null | undefined} variance
+ * @param {number | null | undefined} share
+ * @returns {string}
+ */
+export function balanceTitle(name, variance, share) {
+  return `${name}: variance ${formatNumber(variance)} (${formatShare(share)} of the total); click to colour the other views by this balance`;
+}

@@ -1,0 +1,64 @@
+"""Shared hypothesis strategies for tests of compositional data.
+
+Import from other test files with ``from conftest import positive_compositions``.
+
+Compositions are drawn as ``exp(log-values)`` with the log-values in a bounded
+range, so every part is strictly positive and ratios stay well conditioned
+(largest ratio inside one row: exp(2 * LOG_BOUND) ~ 2.2e4).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from hypothesis import settings
+from hypothesis import strategies as st
+from hypothesis.extra import numpy as hnp
+
+#: Log-values are drawn in [-LOG_BOUND, LOG_BOUND].
+LOG_BOUND = 5.0
+
+#: Settings for property tests: modest example counts, no deadline (shared CPU).
+PROPERTY_SETTINGS = settings(max_examples=60, deadline=None)
+
+_log_values = st.floats(
+    min_value=-LOG_BOUND, max_value=LOG_BOUND, allow_nan=False, allow_infinity=False
+)
+
+
+def compositions(n_rows: int, n_parts: int) -> st.SearchStrategy[np.ndarray]:
+    """Positive matrices of exactly shape (n_rows, n_parts), not closed."""
+    return hnp.arrays(np.float64, (n_rows, n_parts), elements=_log_values).map(np.exp)
+
+
+@st.composite
+def positive_compositions(draw, min_parts=2, max_parts=8, min_rows=2, max_rows=30) -> np.ndarray:
+    """Positive matrices (n, D) with n and D drawn in the given ranges, not closed."""
+    n_parts = draw(st.integers(min_parts, max_parts))
+    n_rows = draw(st.integers(min_rows, max_rows))
+    return draw(compositions(n_rows, n_parts))
+
+
+@st.composite
+def valid_sbps(draw, n_parts: int) -> np.ndarray:
+    """A random valid sequential binary partition of ``n_parts`` parts, shape (D-1, D).
+
+    Drawn by recursive random splitting: start from the group of all parts;
+    at each step pick any group still holding more than one part (so rows come
+    in a random order that still respects "split only groups made above"),
+    shuffle it, cut it in two non-empty sides and give the sides random signs.
+    """
+    open_groups = [list(range(n_parts))]
+    rows = []
+    while open_groups:
+        group = open_groups.pop(draw(st.integers(0, len(open_groups) - 1)))
+        shuffled = draw(st.permutations(group))
+        cut = draw(st.integers(1, len(group) - 1))
+        plus, minus = shuffled[:cut], shuffled[cut:]
+        if draw(st.booleans()):
+            plus, minus = minus, plus
+        row = np.zeros(n_parts, dtype=int)
+        row[plus] = 1
+        row[minus] = -1
+        rows.append(row)
+        open_groups.extend(side for side in (plus, minus) if len(side) > 1)
+    return np.array(rows, dtype=int).reshape(n_parts - 1, n_parts)

@@ -1,0 +1,517 @@
+"""Kernel side of the balance builder: what the front end sends is checked here.
+
+The front end's messages are replayed as ipywidgets delivers them
+(``Widget.set_state`` for a state update, ``_handle_custom_msg`` for a custom
+message); what the kernel sends back is recorded by a comm that keeps its
+messages. The data are invented (seeded log-normal numbers).
+
+Balances are recomputed here from their published definition (Egozcue &
+Pawlowsky-Glahn 2005, Balances: a new perspective for compositional data
+analysis): ``b = sqrt(r s / (r + s)) * ln(g(x_num) / g(x_den))`` with ``g`` the
+geometric mean; the clr is ``ln x - mean(ln x)`` per row (Aitchison 1986); the
+total variance is the sum of the clr variances (Aitchison 1986). Variances use
+ddof = 1 and quantiles numpy's default linear interpolation, as documented in
+compwidgets.core.summary.
+"""
+
+from __future__ import annotations
+
+import json
+
+import comm
+import numpy as np
+import pandas as pd
+import pytest
+
+from compwidgets import core
+from compwidgets.core import principal
+from compwidgets.core.tree import sbp_to_tree, validate_tree
+from compwidgets.intake import read_composition
+from compwidgets.model import CompositionModel
+from compwidgets.views._common import group_colours
+from compwidgets.views.builder import BalanceBuilder
+
+HTML_PART = "<img src=x onerror=alert(1)>"
+PARTS = ["Aa", "Bb", "Cc", "Dd", HTML_PART]
+N = 60
+
+
+class RecordingComm(comm.DummyComm):
+    """A comm that keeps every message the kernel sends to the front end."""
+
+    def __init__(self, *args, **kwargs):
+        self.sent: list[dict] = []
+        super().__init__(*args, **kwargs)
+
+    def publish_msg(self, msg_type, data=None, metadata=None, buffers=None, **keys):
+        if msg_type == "comm_msg":
+            self.sent.append(data)
+
+
+@pytest.fixture(autouse=True)
+def recording_comms(monkeypatch):
+    monkeypatch.setattr(comm, "create_comm", lambda *a, **k: RecordingComm(*a, **k))
+
+
+def _values() -> np.ndarray:
+    return np.random.default_rng(20240611).lognormal(mean=1.0, sigma=0.7, size=(N, len(PARTS)))
+
+
+def _frame() -> pd.DataFrame:
+    rng = np.random.default_rng(5)
+    df = pd.DataFrame(_values(), columns=PARTS)
+    df["site"] = rng.choice(["north", "south"], N)
+    df["batch"] = rng.choice(["b1", "b2", "b3"], N)
+    return df
+
+
+@pytest.fixture
+def model() -> CompositionModel:
+    comp = read_composition(_frame(), parts=PARTS, check_total=False)
+    return CompositionModel(comp, group_column="site")
+
+
+@pytest.fixture
+def builder(model):
+    b = BalanceBuilder(model)
+    yield b
+    b.close()
+
+
+def leaf(node_id, parts):
+    return {"id": node_id, "parts": list(parts), "name": "", "children": []}
+
+
+def split(node_id, parts, num, den, name=""):
+    return {"id": node_id, "parts": list(parts), "name": name, "children": [num, den]}
+
+
+def first_split() -> dict:
+    """{Aa, Bb} | {Cc, Dd, X}."""
+    return split("n0", PARTS, leaf("n1", PARTS[:2]), leaf("n2", PARTS[2:]))
+
+
+def two_splits() -> dict:
+    """{Aa, Bb} | {Cc, Dd, X}, then {Cc} | {Dd, X}."""
+    return split(
+        "n0",
+        PARTS,
+        leaf("n1", PARTS[:2]),
+        split("n2", PARTS[2:], leaf("n3", ["Cc"]), leaf("n4", ["Dd", HTML_PART])),
+    )
+
+
+def complete_tree() -> dict:
+    return split(
+        "n0",
+        PARTS,
+        split("n1", PARTS[:2], leaf("n5", ["Aa"]), leaf("n6", ["Bb"])),
+        split(
+            "n2",
+            PARTS[2:],
+            leaf("n3", ["Cc"]),
+            split("n4", ["Dd", HTML_PART], leaf("n7", ["Dd"]), leaf("n8", [HTML_PART])),
+        ),
+    )
+
+
+def from_front_end(widget, **state):
+    """Deliver a state update as ipywidgets does for a front-end message (fresh JSON)."""
+    widget.set_state(json.loads(json.dumps(state)))
+
+
+def sent_states(widget) -> list[dict]:
+    return [m["state"] for m in widget.comm.sent if m.get("method") == "update"]
+
+
+def balance_by_definition(X: np.ndarray, num: list[str], den: list[str]) -> np.ndarray:
+    """Egozcue & Pawlowsky-Glahn (2005): sqrt(rs/(r+s)) ln(g(num)/g(den))."""
+    logs = np.log(X)
+    i = [PARTS.index(p) for p in num]
+    j = [PARTS.index(p) for p in den]
+    r, s = len(i), len(j)
+    return np.sqrt(r * s / (r + s)) * (logs[:, i].mean(axis=1) - logs[:, j].mean(axis=1))
+
+
+def total_variance_by_definition(X: np.ndarray) -> float:
+    """Aitchison (1986): trace of the clr covariance (ddof = 1)."""
+    logs = np.log(X)
+    clr = logs - logs.mean(axis=1, keepdims=True)
+    return float(np.var(clr, axis=0, ddof=1).sum())
+
+
+# --------------------------------------------------------------------------- initial state
+
+
+def test_starts_as_one_group_of_all_parts(builder, model):
+    assert builder.parts == PARTS
+    assert builder.tree == leaf("n0", PARTS)
+    assert model.sbp is None
+    assert builder.stats == []
+    assert builder.n_samples == N
+    assert builder.total_variance == pytest.approx(total_variance_by_definition(_values()))
+    assert builder.groups == [
+        {"code": 0, "name": "north", "colour": group_colours(["north", "south"])[0]},
+        {"code": 1, "name": "south", "colour": group_colours(["north", "south"])[1]},
+    ]
+    assert builder.error == ""
+
+
+def test_needs_a_model():
+    with pytest.raises(TypeError, match="CompositionModel"):
+        BalanceBuilder("not a model")
+
+
+# --------------------------------------------------------------------------- refused trees
+
+
+def _bad_trees():
+    base = PARTS
+    yield (
+        "duplicate part",
+        split("n0", base, leaf("n1", ["Aa", "Bb", "Aa"]), leaf("n2", base[2:])),
+        "twice",
+    )
+    yield (
+        "missing part",
+        split("n0", base[:4], leaf("n1", base[:2]), leaf("n2", base[2:4])),
+        "missing",
+    )
+    yield (
+        "unknown part",
+        split("n0", [*base, "Zz"], leaf("n1", base[:2]), leaf("n2", [*base[2:], "Zz"])),
+        "unknown",
+    )
+    yield (
+        "one part split",
+        split(
+            "n0",
+            base,
+            split("n1", ["Aa"], leaf("n5", ["Aa"]), leaf("n6", ["Aa"])),
+            leaf("n2", base[1:]),
+        ),
+        "one part",
+    )
+    yield (
+        "children overlap",
+        split("n0", base, leaf("n1", base[:3]), leaf("n2", base[2:])),
+        "both sides",
+    )
+    yield (
+        "children lose a part",
+        split("n0", base, leaf("n1", base[:2]), leaf("n2", base[3:])),
+        "neither child",
+    )
+    yield (
+        "a single child",
+        {"id": "n0", "parts": base, "name": "", "children": [leaf("n1", base)]},
+        "one child",
+    )
+    yield (
+        "duplicate node id",
+        split("n0", base, leaf("n1", base[:2]), leaf("n1", base[2:])),
+        "used twice",
+    )
+    yield (
+        "two balances with one name",
+        split(
+            "n0",
+            base,
+            leaf("n1", base[:2]),
+            split("n2", base[2:], leaf("n3", ["Cc"]), leaf("n4", base[3:]), name="same"),
+            name="same",
+        ),
+        "used twice",
+    )
+
+
+@pytest.mark.parametrize(("label", "bad", "words"), list(_bad_trees()), ids=lambda x: str(x)[:24])
+def test_invalid_tree_from_front_end_is_refused(builder, model, label, bad, words):
+    from_front_end(builder, tree=first_split())
+    assert builder.error == ""
+    sbp_before = model.sbp.copy()
+    names_before = list(model.balance_names)
+    builder.comm.sent.clear()
+
+    from_front_end(builder, tree=bad)
+
+    assert builder.error.startswith("change refused:")
+    assert words in builder.error
+    assert np.array_equal(model.sbp, sbp_before)
+    assert model.balance_names == names_before
+    assert builder.tree == first_split()
+    # the front end is told: the last valid tree and the message go back
+    states = sent_states(builder)
+    assert any(s.get("tree") == first_split() for s in states)
+    assert any(s.get("error", "").startswith("change refused:") for s in states)
+
+
+def test_refused_tree_keeps_model_without_sbp(builder, model):
+    bad = split("n0", PARTS, leaf("n1", PARTS[:3]), leaf("n2", PARTS[2:]))
+    from_front_end(builder, tree=bad)
+    assert model.sbp is None
+    assert builder.tree == leaf("n0", PARTS)
+    assert "Cc" in builder.error
+
+
+def test_front_end_message_path_end_to_end(builder, model, caplog):
+    """The raw comm message (as the browser sends it) goes through without an exception."""
+    msg = {
+        "content": {
+            "data": {"method": "update", "state": {"tree": first_split()}, "buffer_paths": []}
+        },
+        "buffers": [],
+    }
+    with caplog.at_level("WARNING"):
+        builder._handle_msg(msg)
+    assert not [r for r in caplog.records if "Exception in widget method" in r.getMessage()]
+    assert model.sbp is not None
+
+
+# --------------------------------------------------------------------------- valid edits
+
+
+def test_valid_splits_update_model_sbp_and_stats(builder, model):
+    from_front_end(builder, tree=first_split())
+    from_front_end(builder, tree=two_splits())
+    # SBP written by hand: columns Aa, Bb, Cc, Dd, X
+    expected = np.array([[1, 1, -1, -1, -1], [0, 0, 1, -1, -1]], dtype=np.int8)
+    assert builder.error == ""
+    assert np.array_equal(model.sbp, expected)
+    assert model.balance_names == [f"Aa,Bb | Cc,Dd,{HTML_PART}", f"Cc | Dd,{HTML_PART}"]
+
+    X = _values()
+    total = total_variance_by_definition(X)
+    assert builder.total_variance == pytest.approx(total)
+    sides = [(["Aa", "Bb"], ["Cc", "Dd", HTML_PART]), (["Cc"], ["Dd", HTML_PART])]
+    via_core = np.asarray(core.balances(X, expected, complete=False))
+    assert [s["id"] for s in builder.stats] == ["n0", "n2"]
+    for k, (num, den) in enumerate(sides):
+        entry = builder.stats[k]
+        b = balance_by_definition(X, num, den)
+        assert entry["numerator"] == num and entry["denominator"] == den
+        assert entry["name"] == model.balance_names[k]
+        assert entry["variance"] == pytest.approx(np.var(b, ddof=1))
+        assert entry["variance"] == pytest.approx(np.var(via_core[:, k], ddof=1))
+        assert entry["share"] == pytest.approx(np.var(b, ddof=1) / total)
+        assert entry["mean"] == pytest.approx(b.mean())
+        for level in (5, 25, 50, 75, 95):
+            assert entry[f"q{level}"] == pytest.approx(np.quantile(b, level / 100))
+        site = model.metadata["site"].to_numpy()
+        means = {g["code"]: g["mean"] for g in entry["groups"]}
+        assert means[0] == pytest.approx(b[site == "north"].mean())
+        assert means[1] == pytest.approx(b[site == "south"].mean())
+
+
+def test_complete_partition_variances_add_up_to_total(builder):
+    # Egozcue & Pawlowsky-Glahn (2005): the balances of a complete SBP are an
+    # orthonormal basis, so their variances add up to the total variance.
+    from_front_end(builder, tree=complete_tree())
+    assert len(builder.stats) == len(PARTS) - 1
+    assert sum(s["variance"] for s in builder.stats) == pytest.approx(builder.total_variance)
+    assert sum(s["share"] for s in builder.stats) == pytest.approx(1.0)
+
+
+def test_unsplitting_everything_clears_the_model_sbp(builder, model):
+    from_front_end(builder, tree=two_splits())
+    builder.colour_balance = "n2"
+    from_front_end(builder, tree=leaf("n0", PARTS))
+    assert model.sbp is None
+    assert model.balance_names == []
+    assert model.colour_by == ""
+    assert builder.colour_balance == ""
+    assert builder.stats == []
+
+
+def test_rename_reaches_the_model_and_duplicates_are_refused(builder, model):
+    tree = two_splits()
+    from_front_end(builder, tree=tree)
+    tree["children"][1]["name"] = "Cc vs rest"
+    from_front_end(builder, tree=tree)
+    assert model.balance_names[1] == "Cc vs rest"
+    assert builder.stats[1]["name"] == "Cc vs rest"
+    assert builder.stats[1]["custom_name"] == "Cc vs rest"
+    assert builder.stats[1]["default_name"] == f"Cc | Dd,{HTML_PART}"
+
+    clash = two_splits()
+    clash["name"] = "Cc vs rest"
+    clash["children"][1]["name"] = "Cc vs rest"
+    from_front_end(builder, tree=clash)
+    assert "used twice" in builder.error
+    assert model.balance_names[1] == "Cc vs rest"
+    assert model.balance_names[0] == f"Aa,Bb | Cc,Dd,{HTML_PART}"
+
+
+def test_front_end_cannot_change_parts(builder):
+    from_front_end(builder, parts=["Aa", "Bb"])
+    assert builder.parts == PARTS
+
+
+# --------------------------------------------------------------------------- selection, groups
+
+
+def test_selection_change_updates_only_selection_stats(builder, model):
+    from_front_end(builder, tree=two_splits())
+    changed: list[str] = []
+    builder.observe(lambda c: changed.append(c["name"]), names=t_all(builder))
+    builder.comm.sent.clear()
+
+    rows = np.arange(0, N, 3)
+    model.select(rows)
+
+    assert set(changed) == {"selection_stats", "n_selected"}
+    for state in sent_states(builder):
+        assert set(state) <= {"selection_stats", "n_selected"}
+    assert builder.n_selected == rows.size
+    b = balance_by_definition(_values()[rows], ["Cc"], ["Dd", HTML_PART])
+    entry = builder.selection_stats[1]
+    assert entry["id"] == "n2"
+    assert entry["n"] == rows.size
+    assert entry["mean"] == pytest.approx(b.mean())
+    assert entry["q25"] == pytest.approx(np.quantile(b, 0.25))
+    assert entry["q75"] == pytest.approx(np.quantile(b, 0.75))
+
+    changed.clear()
+    model.select(rows)  # the same selection again: nothing to send
+    assert changed == []
+
+
+def t_all(widget) -> list[str]:
+    return [name for name in widget.keys if not name.startswith("_")]
+
+
+def test_group_column_change_updates_group_means_not_the_tree(builder, model):
+    from_front_end(builder, tree=first_split())
+    changed: list[str] = []
+    builder.observe(lambda c: changed.append(c["name"]), names=t_all(builder))
+    model.group_column = "batch"
+    assert "tree" not in changed
+    assert [g["name"] for g in builder.groups] == ["b1", "b2", "b3"]
+    b = balance_by_definition(_values(), PARTS[:2], PARTS[2:])
+    batch = model.metadata["batch"].to_numpy()
+    means = {g["code"]: g["mean"] for g in builder.stats[0]["groups"]}
+    for code, label in enumerate(["b1", "b2", "b3"]):
+        assert means[code] == pytest.approx(b[batch == label].mean())
+
+
+# --------------------------------------------------------------------------- colour by
+
+
+def test_colour_balance_mirrors_model_colour_by(builder, model):
+    from_front_end(builder, tree=two_splits())
+    from_front_end(builder, colour_balance="n2")
+    assert model.colour_by == f"Cc | Dd,{HTML_PART}"
+
+    model.colour_by = model.balance_names[0]
+    assert builder.colour_balance == "n0"
+    model.colour_by = ""
+    assert builder.colour_balance == ""
+
+    from_front_end(builder, colour_balance="n2")
+    renamed = two_splits()
+    renamed["children"][1]["name"] = "my balance"
+    from_front_end(builder, tree=renamed)
+    assert model.colour_by == "my balance"  # the coloured balance keeps colouring
+    assert builder.colour_balance == "n2"
+
+
+def test_unknown_colour_balance_is_refused(builder, model):
+    from_front_end(builder, tree=first_split())
+    from_front_end(builder, colour_balance="n0")
+    from_front_end(builder, colour_balance="n4")  # a leaf id, not a balance
+    assert builder.colour_balance == "n0"
+    assert "n4" in builder.error
+    assert model.colour_by == model.balance_names[0]
+
+
+# --------------------------------------------------------------------------- model -> builder
+
+
+def test_external_set_sbp_rebuilds_the_tree(builder, model):
+    sbp = np.array([[1, -1, 1, 1, 1], [1, 0, -1, -1, 1]], dtype=np.int8)
+    model.set_sbp(sbp, ["first", ""])
+    assert builder.tree == sbp_to_tree(sbp, PARTS, ["first", ""])
+    assert [s["name"] for s in builder.stats] == ["first", f"Aa,{HTML_PART} | Cc,Dd"]
+    assert builder.tree["name"] == "first"
+    assert builder.tree["children"][0]["name"] == ""  # a default name stays ""
+    b = balance_by_definition(_values(), ["Aa", "Cc", "Dd", HTML_PART], ["Bb"])
+    assert builder.stats[0]["variance"] == pytest.approx(np.var(b, ddof=1))
+
+
+def test_external_rename_keeps_node_ids(builder, model):
+    from_front_end(builder, tree=two_splits())
+    model.set_sbp(model.sbp, ["whole", "inner"])
+    assert builder.tree["id"] == "n0" and builder.tree["children"][1]["id"] == "n2"
+    assert builder.tree["children"][1]["name"] == "inner"
+
+
+def test_active_parts_change_resets_the_tree(builder, model):
+    from_front_end(builder, tree=two_splits())
+    model.active_parts = ["Aa", "Bb", "Cc"]
+    assert builder.parts == ["Aa", "Bb", "Cc"]
+    assert builder.tree == leaf("n0", ["Aa", "Bb", "Cc"])
+    assert model.sbp is None
+    assert builder.stats == []
+    sub = _values()[:, :3]
+    assert builder.total_variance == pytest.approx(
+        float(np.var(np.log(sub) - np.log(sub).mean(axis=1, keepdims=True), axis=0, ddof=1).sum())
+    )
+
+
+def test_close_stops_following_the_model(model):
+    b = BalanceBuilder(model)
+    b.close()
+    model.set_sbp(np.array([[1, 1, -1, -1, -1]]))
+    assert b.tree == leaf("n0", PARTS)
+
+
+# --------------------------------------------------------------------------- suggestions
+
+
+def _clr_by_definition() -> np.ndarray:
+    logs = np.log(_values())
+    return logs - logs.mean(axis=1, keepdims=True)
+
+
+def test_principal_suggestion_message(builder, model):
+    builder._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
+    expected = principal.principal_balances(_clr_by_definition(), kind="clr")
+    assert builder.error == ""
+    validate_tree(builder.tree, PARTS)
+    assert np.array_equal(model.sbp, expected)
+    assert len(builder.stats) == len(PARTS) - 1
+
+
+def test_ward_suggestion_message(builder, model):
+    builder._handle_custom_msg({"type": "suggest", "method": "ward"}, [])
+    expected = principal.ward_sbp(_clr_by_definition(), PARTS)
+    validate_tree(builder.tree, PARTS)
+    assert np.array_equal(model.sbp, expected)
+
+
+def test_unknown_suggestion_is_an_error(builder, model):
+    builder._handle_custom_msg({"type": "suggest", "method": "astrology"}, [])
+    assert "astrology" in builder.error
+    assert model.sbp is None
+
+
+def test_suggestion_reports_progress(model):
+    b = BalanceBuilder(model)
+    b.progress_delay = 0.0  # report from the start (the default waits a second)
+    seen: list[tuple[str, object]] = []
+    b.observe(lambda c: seen.append((c["name"], c["new"])), names=["busy", "progress"])
+    assert b.suggest("principal")
+    assert ("busy", True) in seen
+    assert any(name == "progress" and "principal balances" in value for name, value in seen)
+    assert b.busy is False and b.progress == ""
+    b.close()
+
+
+# --------------------------------------------------------------------------- front-end code
+
+
+def test_bundled_esm_has_no_html_injection():
+    esm = BalanceBuilder._esm
+    for word in ("innerHTML", "outerHTML", "insertAdjacentHTML", "document.write", "eval("):
+        assert word not in esm
+    assert esm.rstrip().endswith("export default { render };")

@@ -1,0 +1,294 @@
+"""compwidgets.core.ternary and compwidgets.core.regions against outside references.
+
+Sources named at each check: barycentric (areal) coordinates as ratios of
+triangle areas (the definition of barycentric coordinates), the equilateral
+triangle's geometry, ``scipy.stats.gmean`` for the centre, ``numpy.linalg``
+for collinearity, ``matplotlib.path.Path`` for "inside the curve",
+``numpy.random.Generator.multivariate_normal`` for simulated samples, and the
+chi-square law with 2 degrees of freedom, which is exponential with mean 2
+(textbook fact: P(chi2_2 <= q) = 1 - exp(-q / 2)). Simulations are seeded;
+their tolerances are 4 binomial standard deviations.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from matplotlib.path import Path
+from scipy.stats import gmean
+
+import compwidgets.core as core
+from compwidgets.core import CompositionError
+from compwidgets.core import regions as rg
+from compwidgets.core import ternary as tn
+
+H = np.sqrt(3) / 2
+
+
+def area(p, q, r):
+    return 0.5 * abs((q[0] - p[0]) * (r[1] - p[1]) - (r[0] - p[0]) * (q[1] - p[1]))
+
+
+# --------------------------------------------------------------------- projection
+
+
+def test_vertices_and_edge_midpoints():
+    # Source: layout documented in compwidgets.core.ternary (A top, B bottom-left,
+    # C bottom-right, side 1) and the geometry of the equilateral triangle.
+    x, y = tn.ternary_to_xy(np.eye(3))
+    np.testing.assert_allclose(np.column_stack([x, y]), [[0.5, H], [0, 0], [1, 0]], atol=1e-15)
+    mids = [[0.5, 0.5, 0], [0, 0.5, 0.5], [0.5, 0, 0.5]]  # mid A-B, mid B-C, mid C-A
+    x, y = tn.ternary_to_xy(mids)
+    np.testing.assert_allclose(
+        np.column_stack([x, y]), [[0.25, H / 2], [0.5, 0], [0.75, H / 2]], atol=1e-15
+    )
+    x, y = tn.ternary_to_xy([1, 1, 1])  # the barycentre is the centroid (height / 3)
+    np.testing.assert_allclose([x[0], y[0]], [0.5, H / 3], atol=1e-15)
+    sides = [np.linalg.norm(tn.VERTICES[i] - tn.VERTICES[j]) for i, j in [(0, 1), (1, 2), (2, 0)]]
+    np.testing.assert_allclose(sides, 1.0, rtol=1e-15)  # equilateral, side 1
+
+
+def test_projection_is_barycentric_by_areas():
+    # Source: definition of barycentric coordinates: the share of vertex A of
+    # point P is area(P, B, C) / area(A, B, C), and likewise for B and C.
+    rng = np.random.default_rng(0)
+    X = rng.dirichlet([1.0, 2.0, 0.5], size=200)
+    x, y = tn.ternary_to_xy(X * 37.0)  # closure happens inside
+    A, B, C = tn.VERTICES
+    total = area(A, B, C)
+    for (px, py), comp in zip(np.column_stack([x, y]), X, strict=True):
+        p = (px, py)
+        shares = [area(p, B, C) / total, area(A, p, C) / total, area(A, B, p) / total]
+        np.testing.assert_allclose(shares, comp, atol=1e-12)
+    np.testing.assert_allclose(tn.xy_to_ternary(x, y), X, atol=1e-12)
+
+
+def test_projection_rejects_bad_input():
+    with pytest.raises(CompositionError, match="3 parts"):
+        tn.ternary_to_xy(np.ones((4, 2)))
+    with pytest.raises(CompositionError, match="negative"):
+        tn.ternary_to_xy([[0.2, -0.1, 0.9]])
+
+
+# ------------------------------------------------------------------ grid and ticks
+
+
+def test_grid_lines_have_constant_share():
+    g = tn.grid_lines(0.1)
+    assert g.x.shape == (27, 2)  # 9 interior levels per part, straight segments
+    np.testing.assert_allclose(sorted(set(np.round(g.level, 12))), np.arange(1, 10) / 10)
+    for x, y, p, lv in zip(g.x, g.y, g.part, g.level, strict=True):
+        shares = tn.xy_to_ternary(x, y)
+        np.testing.assert_allclose(shares[:, p], lv, atol=1e-12)
+        # both ends lie on the frame: one of the other two parts is zero there
+        assert np.all(np.isclose(np.delete(shares, p, axis=1), 0, atol=1e-12).any(axis=1))
+    # Source: geometry: the line "A = a" is horizontal at height a * H.
+    a_lines = g.part == 0
+    np.testing.assert_allclose(
+        g.y[a_lines], np.repeat(g.level[a_lines, None] * H, 2, axis=1), atol=1e-12
+    )
+
+
+def test_centred_grid_is_the_perturbed_grid():
+    # The centred grid, perturbed back by the centre, must be the plain grid lines:
+    # perturbation by g undoes perturbation by g^-1 (Aitchison's group structure).
+    centre = np.array([0.7, 0.2, 0.1])
+    g = tn.grid_lines(0.2, centre=centre, n_points=33)
+    assert g.x.shape == (12, 33)
+    for x, y, p, lv in zip(g.x, g.y, g.part, g.level, strict=True):
+        back = tn.perturb_closed(tn.xy_to_ternary(x, y), centre)
+        np.testing.assert_allclose(back[:, p], lv, atol=1e-12)
+    # the sampled points spread along each curve: no gap longer than half the curve
+    seg = np.hypot(np.diff(g.x, axis=1), np.diff(g.y, axis=1))
+    assert np.all(seg.max(axis=1) < 0.5 * seg.sum(axis=1))
+
+
+def test_ticks_lie_on_the_documented_edges():
+    t = tn.grid_ticks(0.25)
+    shares = tn.xy_to_ternary(t.x, t.y)
+    zero_part = {0: 2, 1: 0, 2: 1}  # A ticks where C = 0, B where A = 0, C where B = 0
+    for s, p, lv, dx, dy in zip(shares, t.part, t.level, t.dx, t.dy, strict=True):
+        assert s[p] == pytest.approx(lv, abs=1e-12)
+        assert s[zero_part[p]] == pytest.approx(0, abs=1e-12)
+        assert np.hypot(dx, dy) == pytest.approx(1)
+    # outward: a small step along the normal leaves the triangle (a share turns negative)
+    outward = tn.xy_to_ternary(t.x + 0.01 * t.dx, t.y + 0.01 * t.dy)
+    assert np.all(outward.min(axis=1) < 0)
+
+
+@pytest.mark.parametrize("step", [0, 1, -0.1, "a", np.nan])
+def test_bad_grid_step(step):
+    with pytest.raises(CompositionError, match="grid step"):
+        tn.grid_lines(step)
+
+
+# -------------------------------------------------------------------------- centring
+
+
+def test_centred_data_centre_is_the_barycentre():
+    # Source: von Eynatten, Pawlowsky-Glahn & Egozcue (2002): perturbing by the
+    # inverse centre moves the centre to the barycentre. The centre of the centred
+    # data is computed independently with scipy.stats.gmean (closed geometric means).
+    rng = np.random.default_rng(5)
+    X = np.exp(rng.normal([2.0, 0.0, -1.5], [0.4, 0.8, 0.6], size=(300, 3)))
+    p = tn.centring_perturbation(data=X)
+    Xc = np.asarray(core.perturb(X, p))
+    g = gmean(Xc, axis=0)
+    x, y = tn.ternary_to_xy(g / g.sum())
+    assert abs(x[0] - 0.5) < 1e-12 and abs(y[0] - H / 3) < 1e-12
+    # and the closed-form inverse: C[1/g] of the gmean centre
+    g0 = gmean(X / X.sum(axis=1, keepdims=True), axis=0)
+    np.testing.assert_allclose(p, (1 / g0) / (1 / g0).sum(), rtol=1e-12)
+    np.testing.assert_allclose(tn.perturb_closed(X, p), Xc, rtol=1e-12)
+
+
+def test_centring_needs_one_source():
+    with pytest.raises(CompositionError, match="either"):
+        tn.centring_perturbation()
+    with pytest.raises(CompositionError, match="positive"):
+        tn.centring_perturbation(centre=[0.5, 0.5, 0])
+
+
+# --------------------------------------------------------------- compositional lines
+
+
+def test_line_through_two_compositions():
+    x1, x2 = np.array([0.2, 0.5, 0.3]), np.array([0.6, 0.1, 0.3])
+    line = tn.line_through(x1, x2, t=[0.0, 0.5, 1.0, 2.0])
+    np.testing.assert_allclose(line[0], x1, rtol=1e-12)
+    np.testing.assert_allclose(line[2], x2, rtol=1e-12)
+    # t = 1/2 is the closed geometric mean of x1 and x2 (definition of the midpoint
+    # in Aitchison geometry: x1 (+) 1/2 (.) (x2 (-) x1) = C[sqrt(x1 x2)]).
+    mid = np.sqrt(x1 * x2)
+    np.testing.assert_allclose(line[1], mid / mid.sum(), rtol=1e-12)
+    # t = 2: C[x2^2 / x1]
+    far = x2**2 / x1
+    np.testing.assert_allclose(line[3], far / far.sum(), rtol=1e-12)
+
+
+def test_default_line_is_straight_in_log_ratios_and_reaches_the_frame():
+    x1, x2 = [1.0, 2.0, 3.0], [3.0, 2.5, 1.0]
+    line = tn.line_through(x1, x2, n_points=101)
+    # Source: numpy SVD: the centred log-ratio points of a line have rank 1.
+    Z = np.log(line) - np.log(line).mean(axis=1, keepdims=True)
+    s = np.linalg.svd(Z - Z.mean(axis=0), compute_uv=False)
+    assert s[1] < 1e-10 * s[0]
+    assert line[0].min() < 1e-3 and line[-1].min() < 1e-3  # both ends run to the frame
+    # evenly spaced t -> equal steps in Euclidean distance of clr coordinates
+    steps = np.linalg.norm(np.diff(Z, axis=0), axis=1)
+    np.testing.assert_allclose(steps, steps[0], rtol=1e-9)
+
+
+def test_line_of_equal_b_and_c_is_the_altitude_from_a():
+    # Source: symmetry of the equilateral triangle: compositions with b = c lie on the
+    # vertical through the A vertex, x = 1/2.
+    line = tn.line_through([1, 1, 1], [3, 1, 1])
+    x, _ = tn.ternary_to_xy(line)
+    np.testing.assert_allclose(x, 0.5, atol=1e-12)
+
+
+def test_line_along_a_clr_direction():
+    d = np.array([1.0, -0.5, -0.5])
+    pts = tn.compositional_line([0.2, 0.3, 0.5], d, [0.0, 1.0])
+    expected = np.array([0.2, 0.3, 0.5]) * np.exp(d)  # x (+) exp(d), closed
+    np.testing.assert_allclose(pts[1], expected / expected.sum(), rtol=1e-12)
+    with pytest.raises(CompositionError, match="sums to zero"):
+        tn.compositional_line([0.2, 0.3, 0.5], [1.0, 0.0, 0.0], [0.0])
+    with pytest.raises(CompositionError, match="equal"):
+        tn.line_through([1, 2, 3], [2, 4, 6])
+    with pytest.raises(CompositionError, match="positive"):
+        tn.line_through([0, 2, 3], [2, 4, 6])
+
+
+# --------------------------------------------------------------------------- regions
+
+MU = np.array([0.3, -0.2])
+SIGMA = np.array([[0.30, 0.12], [0.12, 0.20]])
+
+
+def simulate(n, seed):
+    rng = np.random.default_rng(seed)
+    Y = rng.multivariate_normal(MU, SIGMA, size=n)
+    return np.asarray(core.ilr_inv(Y))
+
+
+def inside_curve(curve, X):
+    cx, cy = tn.ternary_to_xy(curve)
+    px, py = tn.ternary_to_xy(X)
+    return Path(np.column_stack([cx, cy])).contains_points(np.column_stack([px, py]))
+
+
+def test_chi2_radius_matches_closed_form():
+    # Source: chi-square with 2 degrees of freedom is exponential with mean 2 (textbook).
+    for a in (0.5, 0.9, 0.95, 0.99):
+        assert rg.probability_radius2(a) == pytest.approx(-2 * np.log(1 - a), rel=1e-10)
+
+
+def test_probability_ellipse_is_strictly_inside_the_triangle():
+    X = simulate(400, 1)
+    tri = Path(tn.VERTICES)
+    for curve in rg.probability_regions(X, [0.9, 0.95, 0.99]):
+        assert curve.shape == (181, 3)
+        np.testing.assert_array_equal(curve[0], curve[-1])  # closed
+        assert np.all(curve > 0)
+        x, y = tn.ternary_to_xy(curve)
+        assert tri.contains_points(np.column_stack([x, y])).all()  # matplotlib: inside
+    # wider levels enclose narrower ones (nested regions)
+    r90, r99 = rg.probability_regions(X, [0.9, 0.99])
+    assert inside_curve(r99, r90[:-1]).all()
+
+
+def test_probability_region_coverage_on_simulated_samples():
+    # 20,000 ilr-normal samples (numpy's multivariate_normal, seeded); the fitted
+    # 95 % region drawn in the triangle must hold 95 % of them. Tolerance: 4 binomial
+    # standard deviations, 4 * sqrt(0.95 * 0.05 / 20000) = 0.0062 (the curve is a
+    # 721-gon and parameters are estimated: both effects are far below that).
+    n = 20_000
+    X = simulate(n, 2)
+    curve = rg.probability_region(X, 0.95, n_points=721)
+    frac = inside_curve(curve, X).mean()
+    tol = 4 * np.sqrt(0.95 * 0.05 / n)
+    assert abs(frac - 0.95) < tol, (frac, tol)
+
+
+def test_centre_confidence_region_coverage_on_small_samples():
+    # Hotelling's T^2 region (Johnson & Wichern, result 5.3) for the ilr mean of
+    # samples of 8, repeated 2,000 times (seeded): the true centre ilr_inv(MU) must be
+    # inside about 95 % of the regions; tolerance 4 binomial sd = 0.0195.
+    rng = np.random.default_rng(3)
+    true_centre = np.asarray(core.ilr_inv(MU[None, :]))
+    reps, n = 2_000, 8
+    hits = 0
+    for _ in range(reps):
+        X = np.asarray(core.ilr_inv(rng.multivariate_normal(MU, SIGMA, size=n)))
+        hits += bool(inside_curve(rg.centre_confidence_region(X, 0.95, 121), true_centre)[0])
+    tol = 4 * np.sqrt(0.95 * 0.05 / reps)
+    assert abs(hits / reps - 0.95) < tol, (hits / reps, tol)
+
+
+def test_centre_region_is_inside_the_probability_region():
+    X = simulate(50, 4)
+    centre_curve = rg.centre_confidence_region(X, 0.95)
+    prob_curve = rg.probability_region(X, 0.95)
+    assert inside_curve(prob_curve, centre_curve[:-1]).all()
+    # the region is centred on the compositional centre (scipy gmean, closed)
+    g = gmean(X, axis=0)
+    assert inside_curve(centre_curve, (g / g.sum())[None, :])[0]
+
+
+@pytest.mark.parametrize(
+    ("X", "message"),
+    [
+        (np.ones((2, 3)), "at least 3 rows"),
+        (np.array([[1, 2, 4], [1, 4, 16], [1, 8, 64.0]]), "one compositional line"),
+        (np.ones((5, 4)), "3-part"),
+    ],
+)
+def test_regions_refuse_bad_data(X, message):
+    with pytest.raises(CompositionError, match=message):
+        rg.probability_region(X)
+
+
+def test_region_level_must_be_a_probability():
+    with pytest.raises(CompositionError, match="level"):
+        rg.probability_region(simulate(20, 5), 1.0)
