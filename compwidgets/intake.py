@@ -415,6 +415,28 @@ class _Part:
     parsed: _Parsed
 
 
+#: Column names read as coordinates (metadata) when parts are chosen automatically.
+COORDINATE_NAMES = frozenset(
+    {
+        "x",
+        "y",
+        "z",
+        "east",
+        "north",
+        "easting",
+        "northing",
+        "lat",
+        "latitude",
+        "lon",
+        "long",
+        "longitude",
+        "depth",
+        "elevation",
+        "altitude",
+    }
+)
+
+
 def _choose_columns(frame, parts, parsed_all, tokens, decimal) -> list[Hashable]:
     columns = list(frame.columns)
     if parts is not None:
@@ -444,7 +466,7 @@ def _choose_columns(frame, parts, parsed_all, tokens, decimal) -> list[Hashable]
     for c in columns:
         parsed = parsed_all[c]
         name, unit_text, bracketed = split_unit(c)
-        if isinstance(name, str) and name.strip().lower() in TOTAL_NAMES:
+        if isinstance(name, str) and name.strip().lower() in TOTAL_NAMES | COORDINATE_NAMES:
             continue
         if unit_text is not None and _unit_key(unit_text) in NON_PART_UNITS:
             continue
@@ -628,13 +650,14 @@ def read_composition(
         The part columns (names as in the table, or without their unit).
         Default: every *numeric-like* column, i.e. all of whose non-empty
         cells are numbers, ``<limit`` entries or tokens, with at least one
-        number. Excluded from the default: columns named total/totals/sum and
-        columns whose bracketed unit is a length, angle or temperature (e.g.
-        ``"Easting (m)"``). Other numeric metadata (coordinates without a unit
-        in the name, years, ...) would be taken for parts: name the parts
-        then. A column with a composition unit in its name, or whose
-        non-empty cells are at least half numbers, that holds an unreadable
-        cell raises instead of silently becoming metadata.
+        number. Excluded from the default: columns named total/totals/sum,
+        coordinate names (x, y, easting, northing, latitude, longitude, depth,
+        elevation, ...), columns whose bracketed unit is a length, angle or
+        temperature (e.g. ``"Depth (m)"``). Other numeric metadata (years,
+        sample numbers, ...) would be taken for parts: name the parts then.
+        A column with a composition unit in its name, or whose non-empty
+        cells are at least half numbers, that holds an unreadable cell
+        raises instead of silently becoming metadata.
     units : dict column -> unit, optional
         Units of the parts. Otherwise read from the name (``"SiO2 (wt%)"``,
         ``"Zr [ppm]"``, ``"Ba_ppm"``; the part is then called ``SiO2``, ...)

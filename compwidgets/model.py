@@ -140,7 +140,7 @@ class CompositionModel(t.HasTraits):
             raise t.TraitError(f"at least 2 active parts are needed, got {parts}")
         if len(set(parts)) != len(parts):
             raise t.TraitError(f"a part is listed twice in {parts}")
-        members = [m for p in parts for m in self._members(p)]
+        members = [m for p in parts for m in self.members(p)]
         if len(set(members)) != len(members):
             raise t.TraitError(
                 "an amalgamation shares parts with another active part; "
@@ -325,11 +325,12 @@ class CompositionModel(t.HasTraits):
         return self._cache[key]
 
     # ----------------------------------------------------------- derived data
-    def _members(self, part: str) -> list[str]:
+    def members(self, part: str) -> list[str]:
+        """Parts of the composition that make up ``part`` (itself, or its members)."""
         return list(self.amalgamations.get(part, [part])) if part not in self.parts else [part]
 
     def _key(self, kind: str, parts: Sequence[str]) -> tuple:
-        return (kind, tuple((p, tuple(self._members(p))) for p in parts))
+        return (kind, tuple((p, tuple(self.members(p))) for p in parts))
 
     def _store(self, key, value):
         self._cache[key] = value
@@ -353,7 +354,7 @@ class CompositionModel(t.HasTraits):
             self._cache.move_to_end(key)
             return self._cache[key]
         frame = self.composition.values
-        columns = [frame[self._members(p)].to_numpy(dtype=float).sum(axis=1) for p in parts]
+        columns = [frame[self.members(p)].to_numpy(dtype=float).sum(axis=1) for p in parts]
         return self._store(key, np.column_stack(columns))
 
     def complete_rows(self, parts: Sequence[str] | None = None) -> np.ndarray:

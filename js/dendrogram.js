@@ -197,7 +197,7 @@ function drawLeaf(doc, leaf, state) {
   g.appendChild(svg(doc, "title", {}, leafTitle(leaf.parts)));
   const y = leaf.yBottom;
   g.appendChild(
-    svg(doc, "rect", { class: "cw-leaf-hit", x: leaf.x0 + 1, y: y - 6, width: Math.max(2, leaf.x1 - leaf.x0 - 2), height: 14 }),
+    svg(doc, "rect", { class: "cw-leaf-hit", x: leaf.x0 + 1, y: y - 8, width: Math.max(2, leaf.x1 - leaf.x0 - 2), height: 30 }),
   );
   if (splittable) {
     const a = leaf.slots[0].x;

@@ -46,6 +46,7 @@ import { isLeaf } from "./tree.js";
  * @property {{top: number, right: number, bottom: number, left: number}} [margin]
  * @property {number} [axisFill] share of the half-distance between the children used by
  *   the value axis (default 0.9)
+ * @property {number} [leafGap] px between the deepest balance axis and the leaves (default 16)
  */
 
 /**
@@ -88,7 +89,8 @@ import { isLeaf } from "./tree.js";
  * @property {number} width
  * @property {number} height
  * @property {{x0: number, x1: number, y0: number, y1: number}} plot
- * @property {number} scale      px per unit of variance (0 when nothing to scale)
+ * @property {number} scale      px per unit of variance (0 when nothing to scale); the
+ *   deepest axis lies `leafGap` px above the leaves (plot.y1)
  * @property {number} depth      largest cumulative variance (or level count) of a leaf
  * @property {boolean} byLevel   true when some variance was missing: bars are one level each
  * @property {number} radius     value at either end of every balance axis
@@ -257,7 +259,8 @@ export function layoutDendrogram(tree, stats, selection, options) {
     maxDepth = Math.max(maxDepth, depth);
   })(tree, 0);
 
-  const scale = maxDepth > 0 ? (plot.y1 - plot.y0) / maxDepth : 0;
+  const gap = Math.max(0, Math.min(options.leafGap ?? 16, (plot.y1 - plot.y0) / 2));
+  const scale = maxDepth > 0 ? (plot.y1 - gap - plot.y0) / maxDepth : 0;
   const yOf = (/** @type {number} */ d) => plot.y0 + d * scale;
   const radius = axisRadius(stats, selection);
 

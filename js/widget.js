@@ -93,8 +93,26 @@ export function render({ model, el }) {
 
   // ---- skeleton
   const toolbar = html(doc, "div", { class: "cw-toolbar", role: "toolbar" });
-  const button = (/** @type {string} */ role, /** @type {string} */ text, /** @type {string} */ title, extra = {}) =>
-    html(doc, "button", { type: "button", class: "cw-button", "data-role": role, "data-focus-key": `btn:${role}:${extra["data-method"] || ""}`, title, ...extra }, text);
+  /**
+   * @param {string} role
+   * @param {string} text
+   * @param {string} title
+   * @param {Record<string, string>} [extra]
+   */
+  const button = (role, text, title, extra = {}) =>
+    html(
+      doc,
+      "button",
+      {
+        type: "button",
+        class: "cw-button",
+        "data-role": role,
+        "data-focus-key": `btn:${role}:${extra["data-method"] || ""}`,
+        title,
+        ...extra,
+      },
+      text,
+    );
   const undoButton = button("undo", "undo", "undo the last change (Ctrl+Z)");
   const redoButton = button("redo", "redo", "redo (Ctrl+Shift+Z)");
   const principalButton = button(
@@ -125,7 +143,7 @@ export function render({ model, el }) {
     "div",
     { class: "cw-legend", "data-role": "legend" },
     "bar length = variance of the balance; on each axis: box 25\u201375 %, whiskers 5\u201395 %, " +
-      "diamond = mean, filled dot below = mean of the selection (line: its 25\u201375 %), " +
+      "diamond = mean, tick = median, filled dot below = mean of the selection (line: its 25\u201375 %), " +
       "small dots above = group means; markers lean toward the side that dominates",
   );
   for (const part of [toolbar, progressLine, errorLine, main, legend]) root.appendChild(part);

@@ -21,7 +21,15 @@ from sklearn.decomposition import PCA
 
 import compwidgets.core as core
 from compwidgets.core import CompositionError
-from compwidgets.core.biplot import Biplot, clr_biplot, link_length, ray_associations
+from compwidgets.core.biplot import (
+    Biplot,
+    clr_biplot,
+    link_length,
+    logratio_sd,
+    plane_limits,
+    ray_associations,
+    ray_label_positions,
+)
 
 TOL = {"rtol": 1e-8, "atol": 1e-9}
 
@@ -358,3 +366,42 @@ def test_property_input_not_mutated(X, scaling):
     copy = Z.copy()
     clr_biplot(Z, scaling)
     np.testing.assert_array_equal(Z, copy)
+
+
+# ------------------------------------------------------------ log-ratio sd and layout
+
+
+@pytest.mark.parametrize("scaling", ["covariance", "form"])
+def test_logratio_sd_is_numpy_std_in_either_scaling(scaling):
+    # Source: numpy std (ddof=1) of ln(x_i / x_j) over the rows used.
+    X = random_composition(n=30, D=5, seed=8)
+    Z = core.clr(X)
+    Z[4] = np.nan  # one row left out: the sd is over the other 29
+    b = clr_biplot(Z, scaling, n_components=2, missing="omit")
+    keep = np.arange(30) != 4
+    for i, j in [(0, 1), (2, 4), (3, 0)]:
+        expected = np.std(np.log(X[keep, i] / X[keep, j]), ddof=1)
+        assert logratio_sd(b, i, j) == pytest.approx(expected, rel=1e-10)
+    assert logratio_sd(b, "x2", "x2") == 0.0
+
+
+def test_plane_limits_contain_everything_and_respect_aspect():
+    rng = np.random.default_rng(0)
+    pts = rng.normal(size=(50, 2)) * [10.0, 0.5]  # very wide cloud
+    pts[3] = np.nan  # ignored
+    tips = np.array([[1.0, 2.0], [-0.5, -3.0]])
+    (x0, x1), (y0, y1) = plane_limits(pts, tips, pad=0.05, right_margin=0.2)
+    finite = pts[np.isfinite(pts).all(axis=1)]
+    for a in (finite, tips, np.zeros((1, 2))):
+        assert np.all(a[:, 0] > x0) and np.all(a[:, 0] < x1)
+        assert np.all(a[:, 1] > y0) and np.all(a[:, 1] < y1)
+    assert (x1 - x0) / (y1 - y0) <= 2.0 + 1e-12
+    assert x1 - finite[:, 0].max() > 0.2 * np.ptp(finite[:, 0])  # room for a legend
+    (a0, a1), (b0, b1) = plane_limits(np.zeros((0, 2)), np.zeros((2, 2)))
+    assert a0 < 0 < a1 and b0 < 0 < b1  # nothing to show: still a valid window
+
+
+def test_ray_label_positions_along_rays():
+    tips = np.array([[3.0, 4.0], [0.0, 0.0], [-1.0, 0.0]])
+    pos = ray_label_positions(tips, 0.5)
+    np.testing.assert_allclose(pos, [[3.3, 4.4], [0.0, 0.0], [-1.5, 0.0]])

@@ -212,6 +212,8 @@ def _bad_trees():
         split("n0", base, leaf("n1", base[:2]), leaf("n1", base[2:])),
         "used twice",
     )
+    yield ("keys missing", {"id": "n0", "name": ""}, "missing key")
+    yield ("parts not a list", {"id": "n0", "parts": "AaBb", "children": []}, "must be a list")
     yield (
         "two balances with one name",
         split(
@@ -515,3 +517,79 @@ def test_bundled_esm_has_no_html_injection():
     for word in ("innerHTML", "outerHTML", "insertAdjacentHTML", "document.write", "eval("):
         assert word not in esm
     assert esm.rstrip().endswith("export default { render };")
+
+
+# --------------------------------------------------------------------------- incomplete rows
+
+
+def _model_with_missing(rows_missing: list[int], n: int = N) -> CompositionModel:
+    df = _frame().iloc[:n].copy()
+    for r in rows_missing:
+        df.iloc[r, PARTS.index("Cc")] = np.nan
+    comp = read_composition(df, parts=PARTS, check_total=False)
+    return CompositionModel(comp, group_column="site")
+
+
+def test_statistics_and_suggestions_use_the_complete_rows(recording_comms):
+    model = _model_with_missing([3, 17])
+    b = BalanceBuilder(model)
+    keep = np.setdiff1d(np.arange(N), [3, 17])
+    X = _values()[keep]
+    assert b.n_samples == N - 2
+    assert b.total_variance == pytest.approx(total_variance_by_definition(X))
+    from_front_end(b, tree=first_split())
+    v = balance_by_definition(X, PARTS[:2], PARTS[2:])
+    assert b.stats[0]["n"] == N - 2
+    assert b.stats[0]["variance"] == pytest.approx(np.var(v, ddof=1))
+    # an incomplete selected row counts as selected but has no balance value
+    model.select([3, 4, 5])
+    assert b.n_selected == 3
+    assert b.selection_stats[0]["n"] == 2
+    assert b.selection_stats[0]["mean"] == pytest.approx(
+        balance_by_definition(_values()[[4, 5]], PARTS[:2], PARTS[2:]).mean()
+    )
+    assert b.suggest("principal")
+    logs = np.log(X)
+    expected = principal.principal_balances(logs - logs.mean(axis=1, keepdims=True), kind="clr")
+    assert np.array_equal(model.sbp, expected)
+    b.close()
+
+
+def test_too_few_complete_rows_is_said_and_the_tree_still_works(recording_comms):
+    model = _model_with_missing([0, 1], n=3)
+    b = BalanceBuilder(model)
+    assert "only 1 row(s)" in b.error
+    assert b.total_variance is None
+    from_front_end(b, tree=first_split())
+    assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
+    assert b.stats[0]["variance"] is None
+    assert b.stats[0]["numerator"] == PARTS[:2]
+    assert "only 1 row(s)" in b.error
+    b._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
+    assert b.error.startswith("no suggestion:")
+    assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
+    b.close()
+
+
+def test_redefined_amalgamation_refreshes_the_statistics(builder, model):
+    model.amalgamations = {"AB": ["Aa", "Bb"]}
+    model.active_parts = ["AB", "Cc", "Dd"]
+    X = _values()
+    summed = np.column_stack([X[:, 0] + X[:, 1], X[:, 2], X[:, 3]])
+    assert builder.parts == ["AB", "Cc", "Dd"]
+    assert builder.total_variance == pytest.approx(
+        float(
+            np.var(
+                np.log(summed) - np.log(summed).mean(axis=1, keepdims=True), axis=0, ddof=1
+            ).sum()
+        )
+    )
+    tree = split("n0", ["AB", "Cc", "Dd"], leaf("n1", ["AB"]), leaf("n2", ["Cc", "Dd"]))
+    from_front_end(builder, tree=tree)
+    model.amalgamations = {"AB": ["Aa", HTML_PART]}  # same name, other members
+    assert builder.parts == ["AB", "Cc", "Dd"]
+    assert builder.tree == tree
+    redefined = np.column_stack([X[:, 0] + X[:, 4], X[:, 2], X[:, 3]])
+    logs = np.log(redefined)
+    b = np.sqrt(2 / 3) * (logs[:, 0] - logs[:, 1:].mean(axis=1))
+    assert builder.stats[0]["variance"] == pytest.approx(np.var(b, ddof=1))

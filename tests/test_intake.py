@@ -741,3 +741,24 @@ def test_trace_only_table_is_not_checked_for_an_analytical_total():
     majors = pd.DataFrame({"SiO2 (wt%)": [60.0], "Al2O3 (wt%)": [20.0]}, index=["M-1"])
     flagged = read_composition(majors).flags
     assert flagged.loc["M-1", "total"] == pytest.approx(80.0)
+
+
+def test_coordinate_columns_are_metadata_by_default():
+    # common practice: survey tables carry coordinates and sample numbers beside the parts
+    df = pd.DataFrame(
+        {
+            "easting": [512300.0, 512410.0],
+            "Latitude": [47.1, 47.2],
+            "SiO2 (wt%)": [70.0, 55.0],
+            "Al2O3 (wt%)": [29.5, 44.2],
+            "Zr (ppm)": [200.0, 150.0],
+        },
+        index=["A", "B"],
+    )
+    comp = read_composition(df)
+    assert comp.parts == ["SiO2", "Al2O3", "Zr"]
+    assert list(comp.metadata.columns) == ["easting", "Latitude"]
+    pd.testing.assert_series_equal(comp.metadata["easting"], df["easting"])
+    # named explicitly, a coordinate-like column can still be a part
+    chosen = read_composition(df, parts=["SiO2 (wt%)", "easting"], check_total=False)
+    assert chosen.parts == ["SiO2", "easting"]

@@ -130,6 +130,8 @@ def test_fewer_than_two_parts_are_refused_with_a_message(picker, model, chosen):
     assert state(model) == before and seen == []
     assert "at least 2 active parts" in picker.message.value
     assert "Qz, Fsp, Mica" in picker.message.value  # says what the views keep
+    picker.set_active_parts(["Qz", "Fsp", "Mica"])  # back to the model's choice
+    assert set(picker.parts_select.value) == {"Qz", "Fsp", "Mica"}
 
 
 def test_set_active_parts_refuses_unknown_parts(picker, model):

@@ -168,6 +168,36 @@ def test_intake_items_do_not_need_widgets(model):
     assert all(i.count == i.positions.size > 0 for i in items)
 
 
+def test_demo_survey_items_match_status_and_flags():
+    from compwidgets.demo import DETECTION_LIMITS, MAJORS, TRACES, stream_sediments
+
+    sheet = stream_sediments(400, seed=3)
+    comp = read_composition(sheet, parts=list(MAJORS + TRACES), detection_limits=DETECTION_LIMITS)
+    model = CompositionModel(comp)
+    panel = TriagePanel(model)
+    by_label = dict(panel.items)
+    status = comp.status.to_numpy()
+    for j, part in enumerate(comp.parts):
+        for kind, text in (("below_dl", "below detection"), ("missing", "missing")):
+            rows = np.flatnonzero(status[:, j] == kind)
+            label = f"{part}: {text} ({rows.size:,})"
+            assert (label in by_label) == bool(rows.size)
+            if rows.size:
+                assert by_label[label].tolist() == rows.tolist()
+    flags = comp.flags
+    assert by_label[f"all flagged rows ({len(flags):,})"].tolist() == positions(model, flags.index)
+    lo, hi = comp.settings["total_window"]
+    low = flags.index[flags["total"] < lo]
+    if len(low):
+        assert by_label[f"analytical total below {lo:g} wt% ({len(low)})"].tolist() == positions(
+            model, low
+        )
+    replaced = comp.report[comp.report["action"] == "replaced"]
+    for part, rows in replaced.groupby("column")["row"]:
+        (label,) = [lab for lab in by_label if lab.startswith(f"{part}: replaced")]
+        assert by_label[label].tolist() == positions(model, rows)
+
+
 # ----------------------------------------------------------------- outliers
 
 

@@ -384,6 +384,97 @@ def ray_associations(
     return series.sort_values(ascending=False, na_position="last", kind="stable")
 
 
+def logratio_sd(biplot: Biplot, i: str | int, j: str | int) -> float:
+    """Standard deviation (ddof = 1) of ``ln(x_i / x_j)`` over the rows used.
+
+    Computed from the full decomposition, ``V S / sqrt(n - 1)`` (the covariance
+    ray tips with every component), whatever the biplot's own scaling: it is
+    the length of the covariance link of ``i`` and ``j`` with all components.
+
+    Parameters
+    ----------
+    biplot : Biplot
+    i, j : str or int
+        Part names or positions.
+
+    Returns
+    -------
+    float
+    """
+    a, b = biplot.part_position(i), biplot.part_position(j)
+    tips = biplot.right_vectors * (biplot.singular_values / np.sqrt(biplot.n_rows_used - DDOF))
+    diff = tips[a] - tips[b]
+    return float(np.sqrt(np.sum(diff * diff)))
+
+
+def plane_limits(
+    points,
+    tips,
+    *,
+    pad: float = 0.08,
+    right_margin: float = 0.0,
+    aspect_range: tuple[float, float] = (0.75, 2.0),
+) -> tuple[tuple[float, float], tuple[float, float]]:
+    """Axis limits showing every point, every ray tip and the origin of a biplot plane.
+
+    Parameters
+    ----------
+    points : array-like of shape (n, 2)
+        Row coordinates in the plane (NaN rows are ignored; may be empty).
+    tips : array-like of shape (D, 2)
+        Ray tips in the plane.
+    pad : float, default 0.08
+        Margin on every side, as a share of the span.
+    right_margin : float, default 0.0
+        Extra room on the right (e.g. for a legend), as a share of the x span.
+    aspect_range : (float, float), default (0.75, 2.0)
+        Smallest and largest width / height: the shorter side is widened
+        symmetrically to stay inside it (for drawing with equal aspect).
+
+    Returns
+    -------
+    ((x0, x1), (y0, y1))
+    """
+    xy = [np.zeros((1, 2))]
+    for arr in (points, tips):
+        a = np.asarray(arr, dtype=float).reshape(-1, 2)
+        xy.append(a[np.all(np.isfinite(a), axis=1)])
+    allxy = np.concatenate(xy)
+    lo, hi = allxy.min(axis=0), allxy.max(axis=0)
+    span = hi - lo
+    big = float(span.max())
+    if not big > 0:
+        span = np.array([2.0, 2.0])
+        lo, hi = lo - 1.0, hi + 1.0
+    else:
+        span = np.maximum(span, 1e-6 * big)
+        mid = (lo + hi) / 2
+        lo, hi = mid - span / 2, mid + span / 2
+    lo, hi = lo - pad * span, hi + pad * span
+    hi[0] += right_margin * span[0]
+    w, h = hi - lo
+    a_min, a_max = aspect_range
+    if w / h > a_max:
+        extra = (w / a_max - h) / 2
+        lo[1], hi[1] = lo[1] - extra, hi[1] + extra
+    elif w / h < a_min:
+        extra = (h * a_min - w) / 2
+        lo[0], hi[0] = lo[0] - extra, hi[0] + extra
+    return (float(lo[0]), float(hi[0])), (float(lo[1]), float(hi[1]))
+
+
+def ray_label_positions(tips, offset: float) -> np.ndarray:
+    """Positions (D, 2) a distance ``offset`` beyond each ray tip, along its ray.
+
+    A ray of zero length gets its label at the origin.
+    """
+    T = np.asarray(tips, dtype=float).reshape(-1, 2)
+    length = np.sqrt(np.sum(T * T, axis=1, keepdims=True))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        unit = np.where(length > 0, T / length, 0.0)
+    return T + float(offset) * unit
+
+
 # ----------------------------------------------------------------------------- helpers
 
 

@@ -104,9 +104,7 @@ def balance_colour_scale(values: np.ndarray) -> bq.ColorScale:
 
 def part_members(model, part: str) -> list[str]:
     """The parts of the composition summed into ``part`` (itself when not an amalgamation)."""
-    if part in model.parts:
-        return [part]
-    return list(model.amalgamations.get(part, [part]))
+    return model.members(part)
 
 
 def check_view_parts(model, parts: Sequence[str], count: int) -> list[str]:

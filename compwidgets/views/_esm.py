@@ -53,8 +53,13 @@ class BundleError(ValueError):
     """The js sources do not follow the conventions this bundler supports."""
 
 
-def js_dir() -> Path:
+def js_dir(package: Path | None = None) -> Path:
     """Folder holding the builder's js files.
+
+    Parameters
+    ----------
+    package : Path, optional
+        The ``compwidgets`` package folder (default: this installed package).
 
     A source checkout (``pyproject.toml`` and ``js/`` next to the package)
     wins, so edits to ``js/`` show without a rebuild; otherwise the copy
@@ -65,11 +70,12 @@ def js_dir() -> Path:
     FileNotFoundError
         When neither folder holds the entry module.
     """
-    repo = _PACKAGE.parent
+    package = _PACKAGE if package is None else Path(package)
+    repo = package.parent
     candidates = []
     if (repo / "pyproject.toml").is_file():
         candidates.append(repo / "js")
-    candidates.append(_PACKAGE / "static" / "js")
+    candidates.append(package / "static" / "js")
     for folder in candidates:
         if (folder / ENTRY).is_file():
             return folder

@@ -138,6 +138,7 @@ class ScatterView(widgets.VBox):
         self._selecting = False  # True while the view itself calls model.select
         self._last_brush = None
         self._handlers: list[tuple] = []
+        self._notes: dict[str, str] = {}
         self.model = model
         self.mode, self.threshold = mode, threshold
         self.subsample_size, self.seed = subsample_size, seed
@@ -209,7 +210,9 @@ class ScatterView(widgets.VBox):
         self.density.on_element_click(self._guard(self._on_image_click))
 
         self._tooltip_lines = [widgets.Label() for _ in range(6)]
-        self.hover_box = widgets.VBox(self._tooltip_lines, layout=widgets.Layout(padding="2px 6px"))
+        self.hover_box = widgets.VBox(
+            self._tooltip_lines, layout=widgets.Layout(padding="2px 6px")
+        )
         self.scatter = bq.Scatter(
             x=np.zeros(0, np.float32),
             y=np.zeros(0, np.float32),
@@ -239,9 +242,9 @@ class ScatterView(widgets.VBox):
             x_offset=10, y_offset=4, interactions={}, enable_hover=False,
         )  # fmt: skip
         self.polygon_marker = bq.Scatter(
-            x=np.zeros(0), y=np.zeros(0), scales=xy, interactions={"click": "add"},
-            marker="circle", default_size=30, colors=[cm.DENSITY_SELECTION_COLOUR],
-            enable_hover=False, visible=False,
+            x=np.zeros(0), y=np.zeros(0), scales=xy, interactions={}, marker="circle",
+            default_size=30, colors=[cm.DENSITY_SELECTION_COLOUR], enable_hover=False,
+            visible=False,
         )  # fmt: skip
         self._polygon_line = bq.Lines(
             x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.DENSITY_SELECTION_COLOUR],
@@ -394,6 +397,8 @@ class ScatterView(widgets.VBox):
         self.select_mode = change["new"]
 
     def _on_tool_button(self, change):
+        if getattr(self, "_syncing_buttons", False):
+            return
         if change["new"] is not None and change["new"] != self.tool:
             self.tool = change["new"]
 
@@ -407,16 +412,24 @@ class ScatterView(widgets.VBox):
         return [(_TOOL_LABELS[k], k) for k in keys]
 
     def _apply_tool(self) -> None:
-        options = self._tool_options(self.active_mode)
-        if [v for _, v in self._tool_buttons.options] != [v for _, v in options]:
-            self._tool_buttons.options = options
-        if self._tool_buttons.value != self.tool:
-            self._tool_buttons.value = self.tool
         tool = self.tool
+        options = self._tool_options(self.active_mode)
+        self._syncing_buttons = True  # new options reset the buttons' value: not a user choice
+        try:
+            if [v for _, v in self._tool_buttons.options] != [v for _, v in options]:
+                self._tool_buttons.options = options
+            if self._tool_buttons.value != tool:
+                self._tool_buttons.value = tool
+        finally:
+            self._syncing_buttons = False
         interaction = {"brush": self.brush, "lasso": self.lasso}.get(tool)
         if self.figure.interaction is not interaction:
             self.figure.interaction = interaction
         polygon = tool == "polygon"
+        # clicks add vertices only while the polygon tool is on
+        clicks = {"click": "add"} if polygon else {}
+        if self.polygon_marker.interactions != clicks:
+            self.polygon_marker.interactions = clicks
         self.polygon_marker.visible = polygon
         self._polygon_line.visible = polygon
         self._close_button.layout.display = None if polygon else "none"
@@ -600,12 +613,19 @@ class ScatterView(widgets.VBox):
         """Select the rows inside the polygon clicked so far, then start a new polygon."""
         n = min(len(self.polygon_marker.x), len(self.polygon_marker.y))
         if n < 3:
-            self.notes.value = f"a polygon needs at least 3 points; {n} clicked so far"
+            self._set_note("polygon", f"a polygon needs at least 3 points; {n} clicked so far")
             return
         vertices = np.column_stack([self.polygon_marker.x[:n], self.polygon_marker.y[:n]])
         self._clear_vertices()
-        self.notes.value = ""
+        self._set_note("polygon", "")
         self.select_polygon(vertices)
+
+    def _set_note(self, key: str, text: str) -> None:
+        """Set one of the notes shown under the figure (each source of notes has a key)."""
+        self._notes[key] = text
+        value = "; ".join(v for v in self._notes.values() if v)
+        if self.notes.value != value:
+            self.notes.value = value
 
     def _clear_brush(self) -> None:
         self._last_brush = None

@@ -26,11 +26,13 @@ from ..core import principal as _principal
 from ..core.summary import summarize_balances
 from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
 from ..model import CompositionModel, ModelError
+from ._common import group_colours
 from ._esm import bundle, read_asset
 
 __all__ = ["BalanceBuilder"]
 
-#: Errors the kernel turns into a message in ``error`` (all are ValueErrors).
+#: Errors of a proposed tree that become a message in ``error`` (core.SBPError is a
+#: ValueError; malformed JSON from the front end may raise the others).
 _REFUSED = (ValueError, TypeError, KeyError, t.TraitError)
 
 #: Keys of a per-balance summary sent in ``stats`` (from core.summary).
@@ -48,13 +50,6 @@ _STAT_KEYS = (
     "q95",
     "groups",
 )
-
-
-def _group_colours(categories: list[str]) -> list[str]:
-    """One colour per group: the palette shared by every view (views/_common.py)."""
-    from ._common import group_colours
-
-    return [str(c) for c in group_colours(categories)]
 
 
 def _leaf(parts: list[str]) -> dict:
@@ -441,9 +436,9 @@ class BalanceBuilder(anywidget.AnyWidget):
         self._publish_selection()
 
     def _on_model_groups(self, change) -> None:
-        self._refresh_groups()
-        self._compute()
         with self.hold_sync():
+            self._refresh_groups()
+            self._summarise()
             self._publish_stats()
 
     def _on_model_colour(self, change) -> None:
@@ -488,53 +483,50 @@ class BalanceBuilder(anywidget.AnyWidget):
 
     # ------------------------------------------------------------- statistics
     def _compute(self) -> str:
-        """Balances and summaries of the complete rows; returns a warning ("" = none)."""
+        """Balances of the complete rows and their summaries; returns a warning ("" = none)."""
         m = self.model
         part = self._part
         ok = np.asarray(m.complete_rows(), dtype=bool)
         n_ok = int(ok.sum())
-        self._rows = ok
-        self._B = None
-        self._summary = []
-        self._total = None
-        self._n_ok = n_ok
+        self._rows, self._n_ok = ok, n_ok
+        self._B, self._total = None, None
+        warning = ""
         if n_ok <= core.DDOF:
-            return (
+            warning = (
                 f"only {n_ok} row(s) have a positive value in every active part; "
                 f"a variance needs at least {core.DDOF + 1}"
             )
-        values = m.part_values()[ok]
-        self._total = float(core.total_variance(values))
-        if part.sbp.shape[0] == 0:
-            return ""
-        B = np.asarray(core.balances(values, part.sbp, complete=False), dtype=float)
-        self._B = B
-        cats, codes = m.group_codes()
+        else:
+            values = m.part_values()[ok]
+            self._total = float(core.total_variance(values))
+            if part.sbp.shape[0]:
+                self._B = np.asarray(core.balances(values, part.sbp, complete=False), float)
+        self._summarise()
+        return warning
+
+    def _summarise(self) -> None:
+        """Summaries of the balances (with the current groups) from the cached balances."""
+        if self._B is None:
+            self._summary = []
+            return
+        cats, codes = self.model.group_codes()
         self._summary = summarize_balances(
-            B,
-            codes=np.asarray(codes)[ok],
+            self._B,
+            codes=np.asarray(codes)[self._rows],
             n_groups=len(cats),
             total=self._total,
-            names=part.display,
+            names=self._part.display,
         )
-        return ""
 
     def _publish_stats(self) -> None:
         part = self._part
         stats = []
-        for k, summary in enumerate(self._summary):
-            entry = {
-                "id": part.ids[k],
-                "name": part.display[k],
-                "default_name": part.defaults[k],
-                "custom_name": part.custom[k],
-                "numerator": part.sides[k][0],
-                "denominator": part.sides[k][1],
-            }
-            entry.update({key: summary.get(key) for key in _STAT_KEYS})
-            stats.append(entry)
-        if not self._summary and part.sbp.shape[0]:  # no statistics: the structure only
-            stats = [
+        for k in range(part.sbp.shape[0]):
+            if k < len(self._summary):
+                summary = {key: self._summary[k].get(key) for key in _STAT_KEYS}
+            else:  # no statistics (too few rows): the structure only
+                summary = {**dict.fromkeys(_STAT_KEYS), "index": k, "n": 0, "groups": []}
+            stats.append(
                 {
                     "id": part.ids[k],
                     "name": part.display[k],
@@ -542,13 +534,9 @@ class BalanceBuilder(anywidget.AnyWidget):
                     "custom_name": part.custom[k],
                     "numerator": part.sides[k][0],
                     "denominator": part.sides[k][1],
-                    **dict.fromkeys(_STAT_KEYS),
-                    "index": k,
-                    "n": 0,
-                    "groups": [],
+                    **summary,
                 }
-                for k in range(part.sbp.shape[0])
-            ]
+            )
         if self.stats != stats:
             self.stats = stats
         if self.total_variance != self._total:
@@ -576,7 +564,7 @@ class BalanceBuilder(anywidget.AnyWidget):
 
     def _refresh_groups(self) -> None:
         cats, _ = self.model.group_codes()
-        colours = _group_colours(list(cats))
+        colours = [str(c) for c in group_colours(list(cats))]  # shared palette
         groups = [{"code": i, "name": str(c), "colour": colours[i]} for i, c in enumerate(cats)]
         if self.groups != groups:
             self.groups = groups

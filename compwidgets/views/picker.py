@@ -172,6 +172,7 @@ class SubcompositionPicker(w.VBox):
         """Make ``parts`` the active parts; on an invalid choice show why and change nothing."""
         parts = [str(p) for p in parts]
         if parts == list(self.model.active_parts):
+            self._sync_parts_select()  # drop a pending invalid choice shown in the widget
             return True
         try:
             self.model.active_parts = parts

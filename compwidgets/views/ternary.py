@@ -96,6 +96,7 @@ class TernaryView(ScatterView):
     ):
         self._follow = parts is None
         self._internal = False
+        self._notice = ""  # a lasting note about the parts shown (kept across redraws)
         self._centring: np.ndarray | None = None
         self._closed_shown = np.zeros((0, 3))
         super().__init__(model, **kwargs)
@@ -117,8 +118,14 @@ class TernaryView(ScatterView):
         active = list(self.model.active_parts)
         if len(active) >= 3:
             return active[:3]
-        extra = [p for p in self.model.parts if p not in active]
-        return cm.check_view_parts(self.model, (active + extra)[:3], 3)
+        chosen = list(active)
+        used = {m for p in chosen for m in cm.part_members(self.model, p)}
+        for p in self.model.available_parts:
+            members = set(cm.part_members(self.model, p))
+            if len(chosen) < 3 and p not in chosen and not members & used:
+                chosen.append(p)
+                used |= members
+        return cm.check_view_parts(self.model, chosen, 3)
 
     @t.validate("parts")
     def _check_parts(self, proposal):
@@ -201,6 +208,7 @@ class TernaryView(ScatterView):
     def _on_parts(self, change):
         if not self._internal:
             self._follow = False
+            self._notice = ""
         if self._ready:
             self._set_vertex_labels()
             self.refresh()
@@ -218,6 +226,7 @@ class TernaryView(ScatterView):
     def follow_active_parts(self) -> None:
         """Show the model's first three active parts again, and follow them."""
         self._follow = True
+        self._notice = ""
         self._internal = True
         try:
             self.parts = self._followed_parts()
@@ -236,10 +245,9 @@ class TernaryView(ScatterView):
                 return
         gone = [p for p in self.parts if p not in self.model.available_parts]
         if gone:
-            self.notes.value = (
-                f"parts {gone} no longer exist in the model; showing the active parts instead"
-            )
             self.follow_active_parts()
+            self._notice = f"parts {gone} no longer exist in the model; showing active parts"
+            self._draw_overlays()
             return
         self.refresh()  # an amalgamation may have new members
 
@@ -362,7 +370,7 @@ class TernaryView(ScatterView):
                     centre_curves.append(self._to_view(curve))
                     centre_colours.append(colour)
             except CompositionError as err:
-                notes.append(f"no region for {name}: {err}")
+                notes.append(f"no region for {name}: {str(err).removeprefix('regions: ')}")
         self._set_lines(self.regions, curves, colours, opacities)
         self._set_lines(self.centre_regions, centre_curves, centre_colours, [1.0])
         line = self._line_points(notes)
@@ -373,7 +381,9 @@ class TernaryView(ScatterView):
                 self.line.x, self.line.y = line[0].astype(np.float32), line[1].astype(np.float32)
         if levels:
             notes.insert(0, "regions at " + ", ".join(_format_level(v) + " %" for v in levels))
-        self.notes.value = "; ".join(notes)
+        if self._notice:
+            notes.insert(0, self._notice)
+        self._set_note("overlays", "; ".join(notes))
 
     @staticmethod
     def _set_lines(mark, curves, colours, opacities) -> None:

@@ -1,0 +1,760 @@
+"""The clr biplot of the model's active parts, linked to the shared model.
+
+Samples are points (the scatter machinery of
+:class:`~compwidgets.views._scatter.ScatterView`: group colours, selection
+tools, density mode for large tables, replaced-value markers, hover); parts
+are rays from the origin with their names at the tips. Every number drawn
+comes from :mod:`compwidgets.core.biplot`; this module places marks and text.
+
+Clicking a ray tip (easiest with the selection tool "Off") lists the parts
+whose rays point the same way and the opposite way; clicking a second tip
+draws the link of the two parts and gives the standard deviation of their
+log-ratio. ``picked_parts`` holds the clicked parts and can be set directly.
+
+Switching ``scaling`` or ``components`` moves the points and rays only: the
+selection, the colours and the legend text are not sent again.
+
+Example
+-------
+>>> view = BiplotView(model, components=(0, 2), scaling="form")
+>>> view.picked_parts = ["SiO2", "CaO"]   # show their link
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import bqplot as bq
+import ipywidgets as widgets
+import numpy as np
+import traitlets as t
+
+from ..core import CompositionError
+from ..core import biplot as core_biplot
+from ..model import CompositionModel
+from . import _common as cm
+from ._density import DensityImage
+from ._scatter import ScatterView
+
+__all__ = ["BiplotView"]
+
+#: Colours of the rays, their tips when clicked, and the link between two tips.
+RAY_COLOUR = "#4a4a4a"
+PICKED_COLOUR = "#c0561e"
+AXIS_CROSS_COLOUR = "#b4b4b4"
+
+#: Share of the x span added on the right for the legend.
+_LEGEND_ROOM = 0.32
+#: Distance of a part name beyond its ray tip, as a share of the larger span.
+_LABEL_OFFSET = 0.035
+#: Components offered in the plane menu (pairs among the first few).
+_MENU_COMPONENTS = 3
+#: Parts listed on each side of a ray's associations.
+_ASSOC_LISTED = 3
+#: Metadata values longer than this are shortened in the tooltip.
+_HOVER_MAX_CHARS = 60
+
+_HINT = (
+    "Click a ray tip (selection tool Off) to list the parts most and least associated "
+    "with it; click a second tip to see their link."
+)
+
+
+def axis_label(component: int, ratio: float | None) -> str:
+    """Axis text of a component (0-based) with its share of the total variance."""
+    share = "n/a" if ratio is None or not np.isfinite(ratio) else f"{100 * ratio:.1f} %"
+    return f"clr comp. {component + 1} \u00b7 {share}"
+
+
+def _plane_label(pair: tuple[int, int]) -> str:
+    return f"{pair[0] + 1} \u00d7 {pair[1] + 1}"
+
+
+class BiplotView(ScatterView):
+    """Compositional (clr) biplot of the model's active parts.
+
+    Parameters
+    ----------
+    model : CompositionModel
+    components : (int, int), default (0, 1)
+        0-based components on the x and y axes.
+    scaling : {"covariance", "form"}, default "covariance"
+        Covariance biplot (rays: standard deviations; links: log-ratio
+        standard deviations) or form biplot (points keep Aitchison distances).
+    id_column : str, default ""
+        Metadata column shown as the sample id on hover ("" = the row label).
+    **kwargs
+        Passed to :class:`~compwidgets.views._scatter.ScatterView` (mode,
+        threshold, subsample_size, seed, height).
+
+    Traits
+    ------
+    scaling, components, id_column
+        As above.
+    picked_parts : list of str
+        Up to two clicked parts: one shows its associations, two their link.
+
+    Attributes
+    ----------
+    biplot : compwidgets.core.biplot.Biplot or None
+        The fitted biplot in the current scaling (None when it cannot be fitted).
+    rays, ray_tips, ray_labels, link, link_label : bqplot marks
+    variance_figure : bqplot.Figure
+        Bar chart of the share of total variance per component.
+    info : ipywidgets.Textarea
+        Associations or link of the picked parts (text only).
+    """
+
+    scaling = t.Enum(core_biplot.SCALINGS, default_value="covariance")
+    components = t.Tuple(t.Int(), t.Int(), default_value=(0, 1))
+    picked_parts = t.List(t.Unicode())
+    id_column = t.Unicode("")
+
+    def __init__(
+        self,
+        model: CompositionModel,
+        components: Sequence[int] = (0, 1),
+        scaling: str = "covariance",
+        *,
+        id_column: str = "",
+        **kwargs,
+    ):
+        self._internal = False
+        self._menu_updating = False
+        self._fits: dict[str, core_biplot.Biplot] = {}
+        self._fit_error = ""
+        self._fit_parts: list[str] = []
+        self._ranges: tuple[tuple[float, float], tuple[float, float]] = ((-1.0, 1.0), (-1.0, 1.0))
+        super().__init__(model, **kwargs)
+        self._build_side()
+        self._internal = True
+        try:
+            self.scaling = scaling
+            self._fit_model()
+            self.components = tuple(components)
+            self.id_column = id_column
+        finally:
+            self._internal = False
+        self._start()
+
+    # ---------------------------------------------------------------- fitting
+    @property
+    def biplot(self) -> core_biplot.Biplot | None:
+        """The fitted biplot in the current scaling (None if it cannot be fitted)."""
+        if not self._fits:
+            return None
+        if self.scaling not in self._fits:
+            any_fit = next(iter(self._fits.values()))
+            self._fits[self.scaling] = any_fit.with_scaling(self.scaling)
+        return self._fits[self.scaling]
+
+    def _rows_needed(self) -> int:
+        """How many components of row coordinates to keep (the menu's, or the chosen ones)."""
+        comps = self.components if hasattr(self, "components") else (0, 1)
+        return max(_MENU_COMPONENTS, max(comps) + 1)
+
+    def _fit_model(self) -> None:
+        """Fit the biplot of the active parts from the model's cached clr."""
+        parts = list(self.model.active_parts)
+        self._fits = {}
+        self._fit_error = ""
+        self._fit_parts = parts
+        n_ok = int(self.model.complete_rows(parts).sum())
+        r = min(n_ok - 1, len(parts) - 1)
+        try:
+            fit = core_biplot.clr_biplot(
+                self.model.clr(parts),
+                self.scaling,
+                parts=parts,
+                n_components=max(1, min(self._rows_needed(), r)) if r >= 1 else None,
+                missing="omit",
+            )
+        except CompositionError as err:
+            self._fit_error = f"no biplot: {err}"
+            return
+        self._fits[self.scaling] = fit
+
+    def _n_components(self) -> int:
+        fit = self.biplot
+        return 0 if fit is None else fit.n_components
+
+    def _plane(self) -> tuple[int, int | None]:
+        """(x component, y component or None when the fit has a single component)."""
+        cx, cy = self.components
+        return cx, (cy if cy < self._n_components() else None)
+
+    def _plane_coords(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(rows, x, y, tips (D, 2)) in the current plane."""
+        fit = self.biplot
+        if fit is None:
+            return np.zeros(0, np.uint32), np.zeros(0), np.zeros(0), np.zeros((0, 2))
+        cx, cy = self._plane()
+        if max(cx, cy or 0) >= fit.row_coords.shape[1]:
+            self._fit_model()  # a component beyond the row coordinates kept: refit
+            fit = self.biplot
+        rows = np.flatnonzero(fit.rows_used).astype(np.uint32)
+        x = fit.row_coords[rows, cx]
+        y = fit.row_coords[rows, cy] if cy is not None else np.zeros(rows.size)
+        tips = np.column_stack(
+            [
+                fit.column_coords[:, cx],
+                fit.column_coords[:, cy] if cy is not None else np.zeros(len(fit.parts)),
+            ]
+        )
+        return rows, x, y, tips
+
+    # ------------------------------------------------------------- validation
+    @t.validate("components")
+    def _check_components(self, proposal):
+        value = tuple(int(c) for c in proposal["value"])
+        if value[0] == value[1] or min(value) < 0:
+            raise t.TraitError(
+                f"BiplotView.components: two different 0-based components are needed, got {value}"
+            )
+        r = self._n_components() if hasattr(self, "_fits") else 0
+        if r >= 2 and max(value) >= r:
+            raise t.TraitError(
+                f"BiplotView.components: component {max(value)} does not exist; this biplot "
+                f"has components 0..{r - 1} (0-based)"
+            )
+        if r == 1 and value != (0, 1):
+            raise t.TraitError(
+                "BiplotView.components: this biplot has a single component; "
+                "only (0, 1) is possible"
+            )
+        return value
+
+    @t.validate("picked_parts")
+    def _check_picked(self, proposal):
+        parts = [str(p) for p in proposal["value"]]
+        if len(parts) > 2:
+            raise t.TraitError(f"BiplotView.picked_parts: at most 2 parts, got {parts}")
+        if len(set(parts)) != len(parts):
+            raise t.TraitError(f"BiplotView.picked_parts: a part is listed twice in {parts}")
+        shown = list(self._fit_parts) if hasattr(self, "_fit_parts") else []
+        unknown = [p for p in parts if p not in shown]
+        if unknown:
+            raise t.TraitError(
+                f"BiplotView.picked_parts: {unknown} not in the biplot's parts "
+                f"({', '.join(shown)})"
+            )
+        return parts
+
+    @t.validate("id_column")
+    def _check_id_column(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.model.metadata.columns:
+            raise t.TraitError(
+                f"unknown id column {name!r}; metadata columns: "
+                f"{', '.join(map(str, self.model.metadata.columns))}"
+            )
+        return name
+
+    @t.observe("scaling", "components")
+    def _on_plane_traits(self, change):
+        if change["name"] == "scaling" and hasattr(self, "_scaling_buttons"):
+            if self._scaling_buttons.value != change["new"]:
+                self._scaling_buttons.value = change["new"]
+        if change["name"] == "components":
+            self._sync_plane_menu()
+        if self._ready and not self._internal:
+            self._move()
+
+    @t.observe("picked_parts")
+    def _on_picked(self, change):
+        if self._ready:
+            self._draw_picks()
+
+    # ----------------------------------------------------------- ScatterView
+    def shown_parts(self) -> list[str]:
+        return list(self._fit_parts or self.model.active_parts)
+
+    def _view_ranges(self):
+        return self._ranges
+
+    def _legend_anchor(self):
+        (x0, x1), (y0, y1) = self._ranges
+        w, h = x1 - x0, y1 - y0
+        return x1 - 0.95 * _LEGEND_ROOM / (1 + _LEGEND_ROOM) * w, y1 - 0.05 * h, 0.05 * h
+
+    def _coordinates(self):
+        if self._fit_parts != list(self.model.active_parts):
+            self._fit_model()
+        rows, x, y, tips = self._plane_coords()
+        self._set_ranges(x, y, tips)
+        note = self._fit_error
+        if not note and self._n_components() == 1:
+            note = (
+                f"a single component ({len(self._fit_parts)} parts, {rows.size} rows): "
+                "the points lie on the first axis"
+            )
+        self.notes.value = note
+        return rows, x, y
+
+    def _on_parts_source_changed(self) -> None:
+        """Active parts or amalgamations changed: refit, keep selection and components."""
+        self._fit_model()
+        r = self._n_components()
+        self._internal = True
+        try:
+            if r >= 2 and max(self.components) >= r:
+                self.components = (0, 1)
+            elif r == 1 and self.components != (0, 1):
+                self.components = (0, 1)
+            kept = [p for p in self.picked_parts if p in self._fit_parts]
+            if kept != list(self.picked_parts):
+                self.picked_parts = kept
+        finally:
+            self._internal = False
+        self.refresh()
+
+    def _build_marks(self):
+        xy = {"x": self.scale_x, "y": self.scale_y}
+        quiet = {"interactions": {}, "enable_hover": False}
+        self.axis_cross = bq.Lines(
+            x=np.zeros((2, 2), np.float32), y=np.zeros((2, 2), np.float32), scales=xy,
+            colors=[AXIS_CROSS_COLOUR], stroke_width=0.8, line_style="dashed", **quiet,
+        )  # fmt: skip
+        self.rays = bq.Lines(
+            x=np.zeros((0, 2), np.float32), y=np.zeros((0, 2), np.float32), scales=xy,
+            colors=[RAY_COLOUR], stroke_width=1.4, **quiet,
+        )  # fmt: skip
+        self.link = bq.Lines(
+            x=np.zeros(0, np.float32), y=np.zeros(0, np.float32), scales=xy,
+            colors=[PICKED_COLOUR], stroke_width=2.0, line_style="dashed", **quiet,
+        )  # fmt: skip
+        self.ray_tips = bq.Scatter(
+            x=np.zeros(0, np.float32), y=np.zeros(0, np.float32), scales=xy, marker="circle",
+            default_size=40, colors=[RAY_COLOUR], stroke=None, interactions={},
+            enable_hover=False,
+        )  # fmt: skip
+        self.ray_tips.on_element_click(self._guard(self._on_tip_click))
+        self.ray_labels = bq.Label(
+            x=np.zeros(0), y=np.zeros(0), text=np.array([], dtype=str), scales=xy,
+            colors=[RAY_COLOUR], default_size=12, font_unit="px", align="middle",
+            y_offset=4, interactions={}, enable_hover=False,
+        )  # fmt: skip
+        self.ray_labels.on_element_click(self._guard(self._on_tip_click))
+        self.link_label = bq.Label(
+            x=np.zeros(0), y=np.zeros(0), text=np.array([], dtype=str), scales=xy,
+            colors=[PICKED_COLOUR], default_size=12, font_unit="px", align="start",
+            x_offset=6, y_offset=-6, font_weight="bold", **quiet,
+        )  # fmt: skip
+        below = [self.axis_cross]
+        above = [self.rays, self.link, self.ray_tips, self.ray_labels, self.link_label]
+        return below, above
+
+    def _build_side(self) -> None:
+        """Axes, scaling and plane controls, the variance bar chart and the info text."""
+        self.axis_x = bq.Axis(
+            scale=self.scale_x, label=axis_label(0, None), side="bottom", grid_lines="none"
+        )
+        self.axis_y = bq.Axis(
+            scale=self.scale_y, label=axis_label(1, None), side="left",
+            grid_lines="none", label_offset="40px",
+        )  # fmt: skip
+        with self.figure.hold_sync():
+            self.figure.fig_margin = {"top": 10, "bottom": 45, "left": 58, "right": 10}
+            self.figure.axes = [self.axis_x, self.axis_y]
+        self._size_figure()
+
+        self._bar_x = bq.OrdinalScale()
+        self._bar_y = bq.LinearScale(min=0.0)
+        self.variance_bars = bq.Bars(
+            x=np.zeros(0), y=np.zeros(0), scales={"x": self._bar_x, "y": self._bar_y},
+            colors=[cm.GRID_COLOUR], padding=0.2, interactions={}, enable_hover=False,
+        )  # fmt: skip
+        self._bar_axes = [
+            bq.Axis(scale=self._bar_x, label="component", side="bottom"),
+            bq.Axis(
+                scale=self._bar_y, side="left", label="% of total variance",
+                tick_format=".0f", label_offset="32px",
+            ),
+        ]  # fmt: skip
+        self.variance_figure = bq.Figure(
+            marks=[self.variance_bars], axes=self._bar_axes, animation_duration=0,
+            fig_margin={"top": 10, "bottom": 40, "left": 48, "right": 8},
+            layout=widgets.Layout(width="260px", height="200px"),
+        )  # fmt: skip
+        self.variance_note = widgets.Label()
+        self._scaling_buttons = widgets.ToggleButtons(
+            options=[("covariance", "covariance"), ("form", "form")],
+            value=self.scaling,
+            description="scaling",
+            style={"button_width": "90px"},
+        )
+        self._scaling_buttons.observe(self._guard(self._on_scaling_button), names=["value"])
+        self._plane_menu = widgets.Dropdown(
+            options=[(_plane_label((0, 1)), (0, 1))],
+            value=(0, 1),
+            description="plane",
+            layout=widgets.Layout(width="160px"),
+        )
+        self._plane_menu.observe(self._guard(self._on_plane_menu), names=["value"])
+        self.info = widgets.Textarea(
+            value=_HINT, disabled=True, layout=widgets.Layout(width="260px", height="170px")
+        )
+        self.controls = widgets.HBox([self._scaling_buttons, self._plane_menu])
+        self.side = widgets.VBox([self.variance_figure, self.variance_note, self.info])
+        self.body = widgets.HBox([self.figure, self.side])
+        self.children = [
+            self.toolbar,
+            self.controls,
+            self.body,
+            self.status,
+            self.notes,
+            self.messages,
+        ]
+
+    # ---------------------------------------------------------------- drawing
+    def _set_ranges(self, x: np.ndarray, y: np.ndarray, tips: np.ndarray) -> None:
+        """New axis limits for the plane: scales, density extent, figure size, legend."""
+        ranges = core_biplot.plane_limits(np.column_stack([x, y]), tips, right_margin=_LEGEND_ROOM)
+        if ranges == self._ranges:
+            return
+        old_anchor = self._legend_anchor()
+        old_aspect = _aspect(self._ranges)
+        self._ranges = ranges
+        (x0, x1), (y0, y1) = ranges
+        with self.scale_x.hold_sync():
+            self.scale_x.min, self.scale_x.max = x0, x1
+        with self.scale_y.hold_sync():
+            self.scale_y.min, self.scale_y.max = y0, y1
+        extent = self._density_extent()
+        nx = int(self.density_pixels)
+        ny = max(1, int(round(nx * (extent[3] - extent[2]) / (extent[1] - extent[0]))))
+        self._density_image = DensityImage(extent, (nx, ny))
+        with self.density.hold_sync():
+            self.density.x = [extent[0], extent[1]]
+            self.density.y = [extent[2], extent[3]]
+        if abs(_aspect(ranges) / old_aspect - 1) > 0.005:
+            self._size_figure()
+        self._move_legend(old_anchor)
+
+    def _move_legend(self, old_anchor: tuple[float, float, float]) -> None:
+        """Shift the base's legend to the new anchor (positions only, the text stays)."""
+        x_old, y_old, dy_old = old_anchor
+        x_new, y_new, dy_new = self._legend_anchor()
+        if dy_old == 0:
+            return
+        for mark in (self._legend_text, self._legend_swatches):
+            if len(mark.y) == 0:
+                continue
+            steps = (y_old - np.asarray(mark.y, dtype=float)) / dy_old
+            with mark.hold_sync():
+                mark.x = np.asarray(mark.x, dtype=float) - x_old + x_new
+                mark.y = y_new - dy_new * steps
+
+    def _move(self) -> None:
+        """Scaling or components changed: move points and rays; nothing else is resent."""
+        if not self._ready or self._closed:
+            return
+        rows, x, y, tips = self._plane_coords()
+        if rows.size != self.rows.size or not np.array_equal(rows, self.rows):
+            self.refresh()  # other rows (a refit dropped or added rows): full redraw
+            return
+        self._set_ranges(x, y, tips)
+        self._x, self._y = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
+        pick = self._mark_pos
+        self._updating = True
+        try:
+            with self.scatter.hold_sync():
+                self.scatter.x = self._x[pick].astype(np.float32)
+                self.scatter.y = self._y[pick].astype(np.float32)
+            self._draw_replaced()
+            self._clear_brush()
+            self._clear_vertices()
+        finally:
+            self._updating = False
+        if self.active_mode == "density":
+            self._density_image.set_points(self._x, self._y)
+            in_view = self.model.selected_mask()[self.rows]
+            self._png.value = self._density_image.render(in_view if in_view.any() else None)
+        self._draw_rays(tips)
+        self._draw_axes_labels()
+        self._draw_bars()
+        self._draw_picks()
+
+    def _refresh_extra(self) -> None:
+        _, _, _, tips = self._plane_coords()
+        self._set_ray_names()
+        self._draw_rays(tips)
+        self._draw_axes_labels()
+        self._draw_bars(new_fit=True)
+        self._sync_plane_menu()
+        self._draw_picks()
+
+    def _set_ray_names(self) -> None:
+        fit = self.biplot
+        names = [str(p) for p in fit.parts] if fit is not None else []
+        _assign(self.ray_labels, text=np.array(names, dtype=str))
+
+    def _draw_rays(self, tips: np.ndarray) -> None:
+        D = tips.shape[0]
+        (x0, x1), (y0, y1) = self._ranges
+        offset = _LABEL_OFFSET * max(x1 - x0, y1 - y0)
+        labels = core_biplot.ray_label_positions(tips, offset)
+        zeros = np.zeros(D)
+        _assign(
+            self.rays,
+            x=np.column_stack([zeros, tips[:, 0]]).astype(np.float32),
+            y=np.column_stack([zeros, tips[:, 1]]).astype(np.float32),
+        )
+        _assign(self.ray_tips, x=tips[:, 0].astype(np.float32), y=tips[:, 1].astype(np.float32))
+        _assign(self.ray_labels, x=labels[:, 0], y=labels[:, 1])
+        _assign(
+            self.axis_cross,
+            x=np.array([[x0, x1], [0.0, 0.0]], dtype=np.float32),
+            y=np.array([[0.0, 0.0], [y0, y1]], dtype=np.float32),
+        )
+
+    def _draw_axes_labels(self) -> None:
+        fit = self.biplot
+        cx, cy = self.components
+        rx = fit.explained_ratio[cx] if fit is not None and cx < fit.n_components else None
+        ry = fit.explained_ratio[cy] if fit is not None and cy < fit.n_components else None
+        label_x, label_y = axis_label(cx, rx), axis_label(cy, ry)
+        if self.axis_x.label != label_x:
+            self.axis_x.label = label_x
+        if self.axis_y.label != label_y:
+            self.axis_y.label = label_y
+
+    def _draw_bars(self, new_fit: bool = False) -> None:
+        fit = self.biplot
+        if fit is None:
+            if new_fit:
+                _assign(self.variance_bars, x=np.zeros(0, dtype=str), y=np.zeros(0))
+                self.variance_note.value = ""
+            return
+        r = fit.n_components
+        if new_fit:
+            labels = np.array([str(c + 1) for c in range(r)], dtype=str)
+            percent = 100.0 * np.asarray(fit.explained_ratio, dtype=float)
+            _assign(self.variance_bars, x=labels, y=percent)
+            top = float(percent.max()) * 1.1 if percent.size else 100.0
+            if self._bar_y.max != top:
+                self._bar_y.max = top
+            note = (
+                f"total variance {cm.format_number(fit.total_variance)} "
+                f"(clr, {fit.n_rows_used} rows)"
+            )
+            if self.variance_note.value != note:
+                self.variance_note.value = note
+        shown = set(self.components)
+        colours = [cm.PALETTE[0] if c in shown else cm.GRID_COLOUR for c in range(r)]
+        if list(self.variance_bars.colors) != colours:
+            self.variance_bars.colors = colours
+
+    def _sync_plane_menu(self) -> None:
+        if not hasattr(self, "_plane_menu"):
+            return
+        r = self._n_components()
+        k = min(max(r, 2), _MENU_COMPONENTS)
+        pairs = [(a, b) for a in range(k) for b in range(a + 1, k)]
+        if r < 2:
+            pairs = [(0, 1)]
+        current = tuple(self.components)
+        if current not in pairs:
+            pairs.append(current)
+        options = [(_plane_label(p), p) for p in pairs]
+        self._menu_updating = True  # options then value: the menu's own events are not choices
+        try:
+            if [tuple(o) for o in self._plane_menu.options] != options:
+                self._plane_menu.options = options
+            if self._plane_menu.value != current:
+                self._plane_menu.value = current
+        finally:
+            self._menu_updating = False
+        if self._plane_menu.disabled != (r < 2):
+            self._plane_menu.disabled = r < 2
+
+    # ------------------------------------------------------------------ picks
+    def _on_tip_click(self, mark, content) -> None:
+        point = content.get("point") or content.get("data") or {}
+        index = point.get("index")
+        fit = self.biplot
+        if index is None or fit is None or not 0 <= int(index) < len(fit.parts):
+            return
+        self.pick(fit.parts[int(index)])
+
+    def pick(self, part: str) -> None:
+        """Click on the tip of ``part``: toggle it; a third part starts a new pick."""
+        picked = list(self.picked_parts)
+        if part in picked:
+            picked.remove(part)
+        elif len(picked) >= 2:
+            picked = [part]
+        else:
+            picked.append(part)
+        self.picked_parts = picked
+
+    def _draw_picks(self) -> None:
+        fit = self.biplot
+        D = 0 if fit is None else len(fit.parts)
+        picked = [p for p in self.picked_parts if fit is not None and p in fit.parts]
+        colours = [RAY_COLOUR] * max(D, 1)
+        for p in picked:
+            colours[fit.parts.index(p)] = PICKED_COLOUR
+        if list(self.ray_tips.colors) != colours:
+            self.ray_tips.colors = colours
+        lx, ly, tx, ty, text = [], [], [], [], []
+        if fit is None:
+            info = self._fit_error or _HINT
+        elif len(picked) == 2:
+            info, (lx, ly, tx, ty, text) = self._link_text(fit, *picked)
+        elif len(picked) == 1:
+            info = self._association_text(fit, picked[0])
+        else:
+            info = _HINT
+        _assign(self.link, x=np.asarray(lx, dtype=np.float32), y=np.asarray(ly, dtype=np.float32))
+        _assign(
+            self.link_label,
+            x=np.asarray(tx, dtype=float),
+            y=np.asarray(ty, dtype=float),
+            text=np.asarray(text, dtype=str),
+        )
+        if self.info.value != info:
+            self.info.value = info
+
+    def _plane_list(self) -> list[int]:
+        cx, cy = self._plane()
+        return [cx] if cy is None else [cx, cy]
+
+    def _link_text(self, fit, a: str, b: str):
+        plane = self._plane_list()
+        in_plane = core_biplot.link_length(fit, a, b, plane)
+        sd = core_biplot.logratio_sd(fit, a, b)
+        comps = " and ".join(str(c + 1) for c in plane)
+        if fit.scaling == "covariance":
+            approx = (
+                f"link length in this plane (components {comps}): {cm.format_number(in_plane)}"
+            )
+        else:
+            approx = (
+                f"link length in this plane (components {comps}): {cm.format_number(in_plane)} "
+                "(form scaling: not a standard deviation)"
+            )
+        lines = [
+            f"link {a} \u2013 {b}",
+            f"sd of ln({a}/{b}): {cm.format_number(sd)}",
+            f"(all components, {fit.n_rows_used} rows, ddof 1)",
+            approx,
+        ]
+        cx, cy = self._plane()
+        ia, ib = fit.parts.index(a), fit.parts.index(b)
+        col = fit.column_coords
+        xs = [col[ia, cx], col[ib, cx]]
+        ys = [col[ia, cy], col[ib, cy]] if cy is not None else [0.0, 0.0]
+        mark = (xs, ys, [sum(xs) / 2], [sum(ys) / 2], [f"sd {cm.format_number(sd)}"])
+        return "\n".join(lines), mark
+
+    def _association_text(self, fit, part: str) -> str:
+        plane = self._plane_list()
+        try:
+            assoc = core_biplot.ray_associations(fit, part, plane)
+        except CompositionError as err:
+            return str(err)
+        valid = assoc.dropna()
+        k = min(_ASSOC_LISTED, (len(valid) + 1) // 2)
+        most = valid.iloc[:k]
+        least = valid.iloc[::-1].iloc[: min(_ASSOC_LISTED, len(valid) - k)]
+        comps = " and ".join(str(c + 1) for c in plane)
+        meaning = (
+            "cosine of the rays ~ correlation of the clr coordinates"
+            if fit.scaling == "covariance"
+            else "cosine of the rays in this plane"
+        )
+        lines = [f"{part}: rays in components {comps}", f"({meaning})", "most associated:"]
+        lines += [f"  {name}  {cos:+.2f}" for name, cos in most.items()]
+        lines.append("least associated:")
+        lines += [f"  {name}  {cos:+.2f}" for name, cos in least.items()]
+        undefined = [str(p) for p in assoc.index[assoc.isna()]]
+        if undefined:
+            lines.append("no direction in this plane: " + ", ".join(undefined))
+        return "\n".join(lines)
+
+    # ------------------------------------------------------------- callbacks
+    def _on_scaling_button(self, change) -> None:
+        if change["new"] is not None and change["new"] != self.scaling:
+            self.scaling = change["new"]
+
+    def _on_plane_menu(self, change) -> None:
+        if self._menu_updating:
+            return
+        value = change["new"]
+        if value is not None and tuple(value) != tuple(self.components):
+            self.components = tuple(value)
+
+    # ------------------------------------------------------------------ hover
+    def _hover_lines(self, row: int) -> list[str]:
+        m = self.model
+        meta = m.metadata
+        if self.id_column:
+            ident = str(meta[self.id_column].iloc[row])
+        else:
+            ident = str(m.index[row])
+        lines = [ident]
+        if m.group_column:
+            categories, codes = m.group_codes()
+            code = int(codes[row])
+            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
+        replaced = [
+            p
+            for p in self.shown_parts()
+            if bool(m.composition.replaced[cm.part_members(m, p)].iloc[row].any())
+        ]
+        if replaced:
+            lines.append("replaced below detection: " + ", ".join(replaced))
+        skip = {self.id_column, m.group_column}
+        for column in meta.columns:
+            if len(lines) >= len(self._tooltip_lines):
+                break
+            if column in skip:
+                continue
+            value = meta[column].iloc[row]
+            text = (
+                "n/a"
+                if value is None or (isinstance(value, float) and np.isnan(value))
+                else str(value)
+            )
+            if len(text) > _HOVER_MAX_CHARS:
+                text = text[: _HOVER_MAX_CHARS - 1] + "\u2026"
+            lines.append(f"{column}: {text}")
+        return lines
+
+    # ----------------------------------------------------------------- closing
+    def close(self) -> None:
+        """Stop following the model and close every widget of the view."""
+        if getattr(self, "_closed", True):
+            return  # closed already, or the constructor failed before the view existed
+        names = (
+            "axis_x", "axis_y", "variance_bars", "_bar_x", "_bar_y", "variance_figure",
+            "variance_note", "_scaling_buttons", "_plane_menu", "info", "controls", "side",
+            "body",
+        )  # fmt: skip
+        owned = [getattr(self, n) for n in names if hasattr(self, n)]
+        owned += list(getattr(self, "_bar_axes", []))
+        super().close()
+        for w in owned:
+            w.close()
+
+
+def _assign(mark, **values) -> None:
+    """Set array traits of ``mark`` in one message, skipping values equal to the current ones."""
+    changed = {}
+    for name, value in values.items():
+        current = getattr(mark, name)
+        if current is None or np.shape(current) != np.shape(value):
+            changed[name] = value
+        elif not np.array_equal(np.asarray(current), np.asarray(value)):
+            changed[name] = value
+    if not changed:
+        return
+    with mark.hold_sync():
+        for name, value in changed.items():
+            setattr(mark, name, value)
+
+
+def _aspect(ranges) -> float:
+    (x0, x1), (y0, y1) = ranges
+    return (x1 - x0) / (y1 - y0)

@@ -1,0 +1,59 @@
+// Label text of the builder: plain strings (placed with textContent), so markup in a
+// part name stays text. DOM-free.
+import assert from "node:assert/strict";
+import { test } from "node:test";
+
+import {
+  NO_VALUE,
+  balanceTitle,
+  defaultBalanceName,
+  formatNumber,
+  formatShare,
+  leafTitle,
+  partsLabel,
+  selectedCountText,
+  totalVarianceText,
+  truncate,
+} from "./labels.js";
+
+const HTML_PART = "<img src=x onerror=alert(1)>";
+
+test("the default balance name has the kernel's form 'num1,num2 | den1,den2'", () => {
+  // same form as compwidgets.core.balance_names
+  assert.equal(defaultBalanceName(["SiO2", "Al2O3"], ["CaO"]), "SiO2,Al2O3 | CaO");
+});
+
+test("a part name with markup comes back unchanged, as plain text", () => {
+  assert.equal(defaultBalanceName([HTML_PART], ["B"]), `${HTML_PART} | B`);
+  assert.equal(partsLabel([HTML_PART, "B"]), `${HTML_PART}, B`);
+  assert.ok(leafTitle([HTML_PART, "B"]).includes(HTML_PART));
+  assert.ok(balanceTitle(HTML_PART, 0.5, 0.25).startsWith(`${HTML_PART}: variance 0.5 (25.0 %`));
+  // no escaping happens here (textContent does not need it, and escaping would show &lt;)
+  assert.ok(!partsLabel([HTML_PART]).includes("&lt;"));
+});
+
+test("the selected count reads 'n selected: <count>'", () => {
+  assert.equal(selectedCountText(123), "n selected: 123");
+  assert.equal(selectedCountText(0), "n selected: 0");
+  assert.equal(selectedCountText(undefined), "n selected: 0");
+});
+
+test("numbers: significant digits, exponents for extremes, a dash when missing", () => {
+  assert.equal(formatNumber(0.123456), "0.123");
+  assert.equal(formatNumber(12.3456), "12.3");
+  assert.equal(formatNumber(-2.5), "-2.5");
+  assert.equal(formatNumber(0), "0");
+  assert.equal(formatNumber(1234567), "1.23e+6");
+  assert.equal(formatNumber(0.0000123), "1.23e-5");
+  assert.equal(formatNumber(null), NO_VALUE);
+  assert.equal(formatNumber(Number.NaN), NO_VALUE);
+  assert.equal(formatShare(0.1234), "12.3 %");
+  assert.equal(formatShare(null), NO_VALUE);
+  assert.equal(totalVarianceText(2.5), "total variance: 2.5");
+});
+
+test("truncate keeps short text and cuts long text with an ellipsis", () => {
+  assert.equal(truncate("abc", 5), "abc");
+  assert.equal(truncate("abcdefgh", 5), "abcd\u2026");
+  assert.equal(truncate("abcdefgh", 5).length, 5);
+});

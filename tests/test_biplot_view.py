@@ -1,0 +1,464 @@
+"""Kernel-side tests of the clr biplot view (no browser).
+
+Outside references: scikit-learn's ``PCA`` on the clr coordinates (point and
+ray coordinates), numpy (standard deviations of log-ratios, cosines), and
+``compwidgets.core.variation_matrix`` (itself checked against numpy in
+tests/test_biplot.py). Data: the invented demo survey of compwidgets.demo and
+small random compositions made here.
+
+"What the front end sets" is simulated by assigning the traits the browser
+writes (the brush's ``selected_x``/``selected_y`` with ``brushing``, the
+scatter's ``selected`` for the lasso) or by passing bqplot's custom messages
+(``element_click``, ``hover``) through the mark's own message handler.
+"""
+
+from __future__ import annotations
+
+import re
+
+import ipywidgets as widgets
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.decomposition import PCA
+
+import compwidgets.core as core
+from compwidgets import demo
+from compwidgets.intake import read_composition
+from compwidgets.model import CompositionModel
+from compwidgets.views.biplot import BiplotView
+from compwidgets.views.ternary import TernaryView
+
+#: Active parts of the tests; Cr has missing and replaced cells, Zr replaced ones (seed 11).
+PARTS5 = ["SiO2", "Al2O3", "CaO", "Cr", "Zr"]
+
+
+@pytest.fixture(scope="module")
+def composition():
+    return read_composition(demo.stream_sediments(n=240, seed=11))
+
+
+@pytest.fixture
+def model(composition):
+    return CompositionModel(composition, active_parts=PARTS5, group_column="catchment")
+
+
+@pytest.fixture
+def view(model):
+    v = BiplotView(model, id_column="sample_id")
+    yield v
+    v.close()
+
+
+class SendSpy:
+    """Records every comm message a widget sends: (widget, method, state keys)."""
+
+    def __init__(self, monkeypatch):
+        self.sent: list[tuple[widgets.Widget, str, set]] = []
+        original = widgets.Widget._send
+
+        def spy(widget, msg, buffers=None):
+            self.sent.append((widget, msg.get("method"), set(msg.get("state", {}))))
+            return original(widget, msg, buffers)
+
+        monkeypatch.setattr(widgets.Widget, "_send", spy)
+
+    def clear(self):
+        self.sent.clear()
+
+    def keys_of(self, widget) -> set:
+        return {
+            k for w, method, keys in self.sent if w is widget and method == "update" for k in keys
+        }
+
+    def widgets_sent(self) -> set:
+        return {id(w) for w, _, _ in self.sent}
+
+
+def complete_clr(model, parts):
+    ok = model.complete_rows(parts)
+    return np.flatnonzero(ok), np.asarray(core.clr(model.part_values(parts)[ok]))
+
+
+def brush(view, x_range, y_range):
+    """What the browser sets at the end of a brush stroke."""
+    view.brush.brushing = True
+    view.brush.selected_x = np.asarray(x_range, dtype=float)
+    view.brush.selected_y = np.asarray(y_range, dtype=float)
+    view.brush.brushing = False
+
+
+# --------------------------------------------------------- coordinates vs sklearn
+
+
+def test_points_and_rays_match_sklearn_pca(model):
+    # Source: sklearn.decomposition.PCA on the clr of the complete rows. Form biplot
+    # rows are the PCA scores U S; covariance rays are components_ * sqrt(explained
+    # variance) = V S / sqrt(n-1) (Aitchison & Greenacre 2002). Equal up to a sign per axis.
+    rows, Z = complete_clr(model, PARTS5)
+    pca = PCA().fit(Z)
+    scores = pca.transform(Z)
+    view = BiplotView(model, components=(0, 2), scaling="form")
+    try:
+        np.testing.assert_array_equal(view.rows, rows)
+        for axis, comp in ((view.scatter.x, 0), (view.scatter.y, 2)):
+            got = np.asarray(axis, dtype=float)
+            sign = np.sign(got @ scores[:, comp])
+            np.testing.assert_allclose(got, sign * scores[:, comp], rtol=1e-5, atol=1e-5)
+        view.scaling = "covariance"
+        loadings = pca.components_.T * np.sqrt(pca.explained_variance_)
+        for axis, comp in ((view.ray_tips.x, 0), (view.ray_tips.y, 2)):
+            got = np.asarray(axis, dtype=float)
+            sign = np.sign(got @ loadings[:, comp])
+            np.testing.assert_allclose(got, sign * loadings[:, comp], rtol=1e-5, atol=1e-6)
+        # Axis labels carry the share of total variance (sklearn's ratio, one decimal).
+        assert (
+            view.axis_x.label
+            == f"clr comp. 1 \u00b7 {100 * pca.explained_variance_ratio_[0]:.1f} %"
+        )
+        assert (
+            view.axis_y.label
+            == f"clr comp. 3 \u00b7 {100 * pca.explained_variance_ratio_[2]:.1f} %"
+        )
+        np.testing.assert_allclose(
+            view.variance_bars.y, 100 * pca.explained_variance_ratio_[:4], rtol=1e-8
+        )
+    finally:
+        view.close()
+
+
+def test_left_out_rows_are_counted(model, view):
+    # Independent count with pandas: rows with a missing or non-positive value in a part.
+    values = model.composition.values[PARTS5]
+    n_bad = int((values.isna() | (values <= 0)).any(axis=1).sum())
+    assert n_bad > 0  # the demo has missing cells, so the check means something
+    assert view.n_left_out == n_bad
+    assert view.status.value.startswith(f"{n_bad} row")
+
+
+def test_replaced_markers_on_rows_with_replaced_values(model, view):
+    # Independent: status "below_dl" with a value after replacement, among the shown rows.
+    comp = model.composition
+    replaced = ((comp.status[PARTS5] == "below_dl") & comp.values[PARTS5].notna()).any(axis=1)
+    expected = int(replaced.to_numpy()[view.rows].sum())
+    assert expected > 0  # the demo rows shown do carry replaced values
+    assert len(view.replaced_marker.x) == expected
+
+
+# ----------------------------------------------------------------- linked selection
+
+
+def test_brush_here_shows_in_ternary_and_back(model, view):
+    tern = TernaryView(model, ["SiO2", "Al2O3", "CaO"])
+    try:
+        x, y = np.asarray(view.scatter.x, float), np.asarray(view.scatter.y, float)
+        x_range = (float(np.quantile(x, 0.2)), float(np.quantile(x, 0.8)))
+        y_range = (float(np.quantile(y, 0.1)), float(np.quantile(y, 0.9)))
+        brush(view, x_range, y_range)
+        inside = (x >= x_range[0]) & (x <= x_range[1]) & (y >= y_range[0]) & (y <= y_range[1])
+        expected = view.rows[inside]
+        assert 0 < expected.size < view.rows.size
+        np.testing.assert_array_equal(model.selection, expected)
+        # The ternary view highlights exactly those rows.
+        shown = np.asarray(tern.scatter.selected)
+        np.testing.assert_array_equal(
+            tern._mark_rows[shown], expected[np.isin(expected, tern.rows)]
+        )
+
+        # And back: a lasso in the ternary view (the browser sets `selected`).
+        tern.scatter.selected = np.array([0, 3, 5, 9], dtype=np.uint32)
+        picked = tern._mark_rows[[0, 3, 5, 9]]
+        np.testing.assert_array_equal(model.selection, np.sort(picked))
+        here = np.asarray(view.scatter.selected)
+        np.testing.assert_array_equal(np.sort(view._mark_rows[here]), np.sort(picked))
+    finally:
+        tern.close()
+
+
+def test_lasso_here_writes_the_model(model, view):
+    view.tool = "lasso"
+    view.scatter.selected = np.array([1, 4, 7], dtype=np.uint32)
+    np.testing.assert_array_equal(model.selection, view.rows[[1, 4, 7]])
+
+
+def test_model_selection_highlights_here(model, view):
+    rows = view.rows[::7]
+    model.select(rows)
+    np.testing.assert_array_equal(view._mark_rows[np.asarray(view.scatter.selected)], rows)
+
+
+# ------------------------------------------- switching scaling / components resends less
+
+
+#: What a change of scaling or plane may send: positions, scales and figure size, the
+#: axis labels and bar colours of the new plane, the controls, and the pick's text.
+_POSITIONS = {"x", "y"}
+MOVE_ALLOWED = {
+    **{
+        name: _POSITIONS
+        for name in (
+            "scatter", "replaced_marker", "rays", "ray_tips", "ray_labels", "axis_cross",
+            "link", "link_label", "density", "_legend_text", "_legend_swatches",
+        )
+    },
+    "scale_x": {"min", "max"},
+    "scale_y": {"min", "max"},
+    "figure": {"layout", "min_aspect_ratio", "max_aspect_ratio"},
+    "axis_x": {"label"},
+    "axis_y": {"label"},
+    "variance_bars": {"colors"},
+    "_plane_menu": {"index"},
+    "_scaling_buttons": {"index"},
+    "info": {"value"},
+}  # fmt: skip
+
+
+def _unchanged_widgets(view):
+    """Widgets and keys whose data a change of scaling or plane must not resend."""
+    return [
+        (view.scatter, {"selected", "color", "colors", "unselected_style", "selected_style"}),
+        (view.replaced_marker, {"colors"}),
+        (view.colour_scale, {"colors", "min", "max"}),
+        (view._legend_text, {"text"}),
+        (view._legend_swatches, {"colors"}),
+        (view.ray_labels, {"text"}),
+        (view.variance_bars, {"x", "y"}),
+    ]
+
+
+@pytest.mark.parametrize("change", ["scaling", "components"])
+def test_switching_keeps_selection_and_resends_only_coordinates(model, view, monkeypatch, change):
+    model.select(view.rows[::5])
+    view.picked_parts = ["SiO2", "Cr"]
+    selection = model.selection.copy()
+    selected_before = np.asarray(view.scatter.selected).copy()
+    x_before = np.asarray(view.scatter.x).copy()
+    spy = SendSpy(monkeypatch)
+    if change == "scaling":
+        view.scaling = "form"
+    else:
+        view.components = (1, 2)
+    np.testing.assert_array_equal(model.selection, selection)
+    np.testing.assert_array_equal(view.scatter.selected, selected_before)
+    assert not np.allclose(view.scatter.x, x_before)  # the points did move
+    assert {"x", "y"} <= spy.keys_of(view.scatter)  # ... and were sent
+    assert spy.keys_of(view.scatter) <= {"x", "y"}
+    assert {"x", "y"} <= spy.keys_of(view.rays)
+    for widget, keys in _unchanged_widgets(view):
+        assert not (spy.keys_of(widget) & keys), (widget, spy.keys_of(widget) & keys)
+    # Strict: every message is a position, a scale/size, or a label of the new plane.
+    names = {id(w): n for n, w in vars(view).items() if isinstance(w, widgets.Widget)}
+    for widget, method, keys in spy.sent:
+        name = names.get(id(widget), type(widget).__name__)
+        allowed = MOVE_ALLOWED.get(name, set())
+        assert method == "update" and keys <= allowed, (name, method, keys - allowed)
+
+
+def test_spy_sees_a_selection_change(model, view, monkeypatch):
+    # Control for the test above: the spy does record 'selected' when it changes.
+    spy = SendSpy(monkeypatch)
+    model.select(view.rows[:3])
+    assert "selected" in spy.keys_of(view.scatter)
+    assert "x" not in spy.keys_of(view.scatter)  # a selection never resends coordinates
+
+
+def test_components_menu_and_bars_follow(view):
+    view.components = (0, 2)
+    assert view._plane_menu.value == (0, 2)
+    colours = list(view.variance_bars.colors)
+    assert colours[0] == colours[2] != colours[1]
+    view._plane_menu.value = (1, 2)
+    assert view.components == (1, 2)
+    view._scaling_buttons.value = "form"
+    assert view.scaling == "form"
+    with pytest.raises(Exception, match="component 7 does not exist"):
+        view.components = (0, 7)
+    with pytest.raises(Exception, match="two different"):
+        view.components = (1, 1)
+
+
+# ----------------------------------------------------------- active parts change
+
+
+def test_active_parts_change_keeps_selection_and_components(model, view):
+    view.components = (0, 2)
+    model.select(view.rows[::4])
+    selection = model.selection.copy()
+    model.active_parts = ["SiO2", "Al2O3", "CaO", "MgO"]  # 3 components: (0, 2) still exists
+    assert view.components == (0, 2)
+    np.testing.assert_array_equal(model.selection, selection)
+    assert list(view.ray_labels.text) == ["SiO2", "Al2O3", "CaO", "MgO"]
+    here = view._mark_rows[np.asarray(view.scatter.selected)]
+    np.testing.assert_array_equal(here, selection[np.isin(selection, view.rows)])
+    # Recomputed for the new parts: matches sklearn on the new clr (up to sign).
+    rows, Z = complete_clr(model, model.active_parts)
+    scores = PCA().fit(Z).transform(Z)
+    got = np.asarray(view.scatter.x, dtype=float)
+    cov_scores = scores[:, 0] / scores[:, 0].std(ddof=1)  # covariance rows: unit variance
+    assert abs(abs(np.corrcoef(got, cov_scores)[0, 1]) - 1) < 1e-6
+    np.testing.assert_allclose(np.std(got, ddof=1), 1.0, rtol=1e-5)
+    # Three parts: only two components, so (0, 2) falls back to (0, 1).
+    model.active_parts = ["SiO2", "Al2O3", "CaO"]
+    assert view.components == (0, 1)
+    np.testing.assert_array_equal(model.selection, selection)
+
+
+def test_picked_parts_dropped_when_parts_go(model, view):
+    view.picked_parts = ["SiO2", "Zr"]
+    model.active_parts = ["SiO2", "Al2O3", "CaO", "MgO"]
+    assert view.picked_parts == ["SiO2"]
+
+
+def test_two_parts_single_component(model, view):
+    model.active_parts = ["SiO2", "CaO"]
+    assert np.all(np.asarray(view.scatter.y) == 0)
+    assert view.axis_y.label.endswith("n/a")
+    assert len(view.ray_labels.text) == 2
+
+
+# ------------------------------------------------------------- links and associations
+
+
+def _number_after(text: str, prefix: str) -> float:
+    match = re.search(re.escape(prefix) + r"\s*([-+0-9.eE]+)", text)
+    assert match, (prefix, text)
+    return float(match.group(1))
+
+
+@pytest.mark.parametrize("scaling", ["covariance", "form"])
+def test_link_text_is_logratio_sd(model, view, scaling):
+    view.scaling = scaling
+    a, b = "SiO2", "CaO"
+    # Clicking two tips, through bqplot's own message handler.
+    for part in (a, b):
+        i = list(view.ray_labels.text).index(part)
+        view.ray_tips._handle_custom_msgs(None, {"event": "element_click", "data": {"index": i}})
+    assert view.picked_parts == [a, b]
+    sd_text = _number_after(view.info.value, f"sd of ln({a}/{b}):")
+    # Source: core.variation_matrix over the complete rows, and numpy std (ddof=1).
+    T = model.variation_matrix(PARTS5)
+    ok = model.complete_rows(PARTS5)
+    v = model.composition.values.loc[ok]
+    direct = np.std(np.log(v[a] / v[b]), ddof=1)
+    assert sd_text == pytest.approx(np.sqrt(T.loc[a, b]), rel=5e-4)  # 4 significant digits
+    assert sd_text == pytest.approx(direct, rel=5e-4)
+    assert len(view.link.x) == 2
+    assert list(view.link_label.text) == [f"sd {sd_text:.4g}"]
+    # Drawn link joins the two tips.
+    ia, ib = list(view.ray_labels.text).index(a), list(view.ray_labels.text).index(b)
+    np.testing.assert_allclose(view.link.x, np.asarray(view.ray_tips.x)[[ia, ib]])
+
+
+def test_association_text_against_sklearn_loadings(model, view):
+    view.components = (0, 1)
+    view.picked_parts = ["CaO"]
+    text = view.info.value
+    # Source: cosines in the plane of the covariance rays from sklearn's PCA loadings
+    # (components_ * sqrt(explained_variance_)), with numpy.
+    _, Z = complete_clr(model, PARTS5)
+    pca = PCA().fit(Z)
+    G = (pca.components_.T * np.sqrt(pca.explained_variance_))[:, :2]
+    i = PARTS5.index("CaO")
+    cos = {
+        p: float(G[i] @ G[j] / np.linalg.norm(G[i]) / np.linalg.norm(G[j]))
+        for j, p in enumerate(PARTS5)
+        if j != i
+    }
+    order = sorted(cos, key=cos.get, reverse=True)
+    most = text.split("most associated:")[1].split("least associated:")[0]
+    least = text.split("least associated:")[1]
+    listed_most = re.findall(r"^\s+(\S+)\s+([-+][0-9.]+)$", most, flags=re.M)
+    listed_least = re.findall(r"^\s+(\S+)\s+([-+][0-9.]+)$", least, flags=re.M)
+    assert [p for p, _ in listed_most] == order[:2]
+    assert [p for p, _ in listed_least] == order[::-1][:2]
+    for p, value in listed_most + listed_least:
+        assert float(value) == pytest.approx(cos[p], abs=0.006)
+    # Clicking the same tip again clears the pick.
+    view.pick("CaO")
+    assert view.picked_parts == [] and "Click a ray tip" in view.info.value
+
+
+def test_third_click_starts_a_new_pick(view):
+    view.pick("SiO2")
+    view.pick("CaO")
+    view.pick("Cr")
+    assert view.picked_parts == ["Cr"]
+    with pytest.raises(Exception, match="not in the biplot's parts"):
+        view.picked_parts = ["MgO"]
+
+
+# ------------------------------------------------------------------ hover and text
+
+
+def test_hover_shows_id_group_and_metadata(model, view):
+    pos = 5
+    row = int(view._mark_rows[pos])
+    view.scatter._handle_custom_msgs(None, {"event": "hover", "point": {"index": pos}})
+    lines = [label.value for label in view._tooltip_lines if label.value]
+    meta = model.metadata.iloc[row]
+    assert lines[0] == str(meta["sample_id"])
+    assert f"catchment: {meta['catchment']}" in lines
+    assert f"bedrock: {meta['bedrock']}" in lines
+
+
+def _walk(widget, seen=None):
+    seen = set() if seen is None else seen
+    if id(widget) in seen:
+        return
+    seen.add(id(widget))
+    yield widget
+    for name in widget.keys:
+        value = getattr(widget, name, None)
+        items = value if isinstance(value, (list, tuple)) else [value]
+        for item in items:
+            if isinstance(item, widgets.Widget):
+                yield from _walk(item, seen)
+
+
+def test_markup_in_part_names_stays_plain_text():
+    hostile = "<img src=x onerror=alert(1)>"
+    rng = np.random.default_rng(4)
+    df = pd.DataFrame(np.exp(rng.normal(size=(40, 4))), columns=[hostile, "B", "C", "D"])
+    df["site"] = ["<b>north</b>", "south"] * 20
+    m = CompositionModel(read_composition(df, check_total=False), group_column="site")
+    v = BiplotView(m)
+    try:
+        assert hostile in [str(s) for s in v.ray_labels.text]  # a plain string in the Label mark
+        v.picked_parts = [hostile, "B"]
+        assert f"sd of ln({hostile}/B)" in v.info.value  # Textarea: text, not markup
+        assert isinstance(v.info, widgets.Textarea)
+        v.scatter._handle_custom_msgs(None, {"event": "hover", "point": {"index": 0}})
+        # No widget of the view renders HTML.
+        tree = list(_walk(v))
+        assert v.ray_labels in tree and v.info in tree
+        html = [w for w in tree if isinstance(w, (widgets.HTML, widgets.HTMLMath))]
+        assert html == []
+    finally:
+        v.close()
+
+
+# ----------------------------------------------------------------------- density mode
+
+
+def test_density_mode_selection_and_switch(model, monkeypatch):
+    view = BiplotView(model, threshold=50, subsample_size=40)
+    try:
+        assert view.active_mode == "density"
+        assert len(view.scatter.x) == 40  # the hover subsample
+        x = view._x
+        brush(view, (float(np.min(x)) - 1, float(np.median(x))), (-100.0, 100.0))
+        expected = view.rows[x <= np.median(x)]
+        np.testing.assert_array_equal(model.selection, expected)
+        image = view._png.value
+        spy = SendSpy(monkeypatch)
+        view.scaling = "form"
+        np.testing.assert_array_equal(model.selection, expected)
+        assert view._png.value != image  # points moved: a new image
+        assert not (spy.keys_of(view.scatter) & {"selected", "color"})
+    finally:
+        view.close()
+
+
+def test_constructor_rejects_non_model():
+    with pytest.raises(TypeError, match="CompositionModel"):
+        BiplotView(object())
