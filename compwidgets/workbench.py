@@ -120,9 +120,10 @@ class Workbench(w.AppLayout):
             center=plots,
             footer=self.builder,
             pane_widths=["360px", 1, 0],
-            pane_heights=["auto", "auto", "auto"],
             grid_gap="8px",
         )
+        # every row as tall as its content (AppLayout's own sizes are fixed or fractions)
+        self.layout.grid_template_rows = "auto auto auto"
         self.add_class("cw-workbench")
 
 

@@ -5,7 +5,9 @@ principal component analysis), numpy (standard deviations, correlations),
 scipy (``pdist``), and the definitions of Aitchison & Greenacre (2002,
 "Biplots of compositional data", JRSS C 51): form biplot rows ``U S`` with
 columns ``V``, covariance biplot rows ``sqrt(n-1) U`` with columns
-``V S / sqrt(n-1)``. The compositions are random, invented for these tests.
+``V S / sqrt(n-1)`` (definitions quoted from memory; each identity used is
+also checked numerically against numpy/scipy/scikit-learn here). The
+compositions are random, invented for these tests.
 """
 
 from __future__ import annotations

@@ -462,3 +462,19 @@ def test_density_mode_selection_and_switch(model, monkeypatch):
 def test_constructor_rejects_non_model():
     with pytest.raises(TypeError, match="CompositionModel"):
         BiplotView(object())
+
+
+def test_no_biplot_is_explained_not_raised():
+    # Every complete row has the same composition: nothing to decompose.
+    df = pd.DataFrame(np.tile([[1.0, 2.0, 3.0, 4.0]], (10, 1)), columns=list("ABCD"))
+    df.loc[3, "A"] = np.nan
+    m = CompositionModel(read_composition(df, check_total=False))
+    v = BiplotView(m)
+    try:
+        assert v.biplot is None
+        assert v.notes.value.startswith("no biplot:") and "total variance 0" in v.notes.value
+        assert len(v.scatter.x) == 0 and len(v.ray_labels.text) == 0
+        v.scaling = "form"  # still no error
+        assert v.info.value.startswith("no biplot:")
+    finally:
+        v.close()

@@ -90,7 +90,9 @@ def test_columns_and_dtypes(text: pd.DataFrame, clean: pd.DataFrame) -> None:
         assert list(frame["catchment"].cat.categories) == list(demo.CATCHMENTS)
         assert isinstance(frame["bedrock"].dtype, pd.CategoricalDtype)
         assert 4 <= len(demo.CATCHMENTS) <= 5
-        assert frame["easting (m)"].dtype == np.float64 and frame["northing (m)"].dtype == np.float64
+        assert (
+            frame["easting (m)"].dtype == np.float64 and frame["northing (m)"].dtype == np.float64
+        )
         for col in MAJOR_COLS:
             assert frame[col].dtype == np.float64, col
     for col in TRACE_COLS:
@@ -113,7 +115,9 @@ def test_coordinates_are_finite_metres_on_a_local_grid(text: pd.DataFrame) -> No
     assert (xy >= 0).all() and (xy <= 50_000).all()
     np.testing.assert_array_equal(xy, np.round(xy))  # whole metres
     # Catchments occupy different places: centroids at least 5 km apart.
-    centres = text.groupby("catchment", observed=True)[["easting (m)", "northing (m)"]].mean().to_numpy()
+    centres = (
+        text.groupby("catchment", observed=True)[["easting (m)", "northing (m)"]].mean().to_numpy()
+    )
     gaps = np.linalg.norm(centres[:, None, :] - centres[None, :, :], axis=-1)
     assert gaps[np.triu_indices(len(centres), 1)].min() > 5_000
 

@@ -7,7 +7,9 @@ Every variance uses ddof = 1 (:data:`DDOF`). Log-ratio functions raise
 columns for zero, negative or non-finite input, never returning NaN.
 """
 
+from . import geometry, outliers, principal, regions, summary, ternary, tree
 from ._arrays import CompositionError
+from .biplot import Biplot, clr_biplot, link_length, logratio_sd, ray_associations
 from .operations import (
     aitchison_distance,
     aitchison_inner,
@@ -16,6 +18,7 @@ from .operations import (
     perturb,
     power,
 )
+from .principal import principal_balances, ward_sbp
 from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
 from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
 from .subcomp import amalgamate, subcomposition
@@ -23,6 +26,7 @@ from .transforms import alr, alr_inv, clr, clr_inv, default_basis, ilr, ilr_inv
 from .zeros import DEFAULT_FRACTION, multiplicative_replacement
 
 __all__ = [
+    "Biplot",
     "DDOF",
     "DEFAULT_FRACTION",
     "CompositionError",
@@ -38,17 +42,31 @@ __all__ = [
     "center",
     "closure",
     "clr",
+    "clr_biplot",
     "clr_covariance",
     "clr_inv",
     "default_basis",
     "ilr",
     "ilr_inv",
+    "link_length",
+    "logratio_sd",
     "multiplicative_replacement",
     "perturb",
     "power",
+    "principal_balances",
+    "ray_associations",
     "sbp_basis",
     "subcomposition",
     "total_variance",
     "validate_sbp",
     "variation_matrix",
+    "ward_sbp",
+    # submodules
+    "geometry",
+    "outliers",
+    "principal",
+    "regions",
+    "summary",
+    "ternary",
+    "tree",
 ]

@@ -98,9 +98,40 @@ class ScatterView(widgets.VBox):
     n_left_out : int
         Rows of the model this view does not show.
 
-    Subclasses implement ``_coordinates``, ``shown_parts``, ``_view_ranges``
-    and may override ``_build_marks``, ``_refresh_extra``, ``_hover_lines``,
-    ``_legend_anchor`` and ``_on_parts_source_changed``.
+    Methods
+    -------
+    refresh()
+        Recompute the coordinates from the model and redraw everything.
+    set_view_ranges(x_range, y_range)
+        New limits of the figure's scales (density image, figure size and
+        legend follow).
+    move_points(x, y, *, x_range=None, y_range=None)
+        New coordinates for the same rows, sending only positions.
+
+    Subclass API
+    ------------
+    A subclass implements
+
+    * ``_coordinates()``: (rows, x, y) of the rows it shows;
+    * ``shown_parts()``: the parts those coordinates depend on;
+    * ``_view_ranges()``: the scale limits at construction (later changes go
+      through :meth:`set_view_ranges`);
+
+    may override ``_density_extent``, ``_build_marks``, ``_refresh_extra``,
+    ``_hover_lines``, ``_legend_anchor`` and ``_on_parts_source_changed``;
+    may set the class attributes ``figure_margin`` (pixels around the plot
+    area, e.g. room for axes), ``density_pixels``, ``legend_max`` and
+    ``tooltip_max_lines``; and may use these protected members:
+
+    * ``_start()``: connect to the model and draw; called once at the end of
+      the subclass's ``__init__``;
+    * ``_guard(func)``: wrap a widget callback so its errors reach the view's
+      ``messages`` output and it does nothing once the view is closed;
+    * ``_set_note(key, text)``: one of the notes joined in the ``notes`` line;
+    * ``_ready`` (True once ``_start`` ran) and ``_closed`` (True once closed,
+      or before the base was constructed): read only.
+
+    Everything else whose name starts with an underscore belongs to this class.
     """
 
     mode = t.Enum(("auto", "points", "density"), default_value="auto")
@@ -114,6 +145,14 @@ class ScatterView(widgets.VBox):
     density_pixels = 240
     #: Legend entries drawn before "... and N more".
     legend_max = 12
+    #: Text lines of the hover tooltip.
+    tooltip_max_lines = 6
+    #: Pixels between the figure's edges and its plot area (room for axes, if any).
+    figure_margin: dict = {"top": 10, "bottom": 10, "left": 10, "right": 10}
+
+    # Lifecycle flags, also right before __init__ ran (close() must work then).
+    _ready = False
+    _closed = True
 
     def __init__(
         self,
@@ -132,8 +171,8 @@ class ScatterView(widgets.VBox):
                 "build one with compwidgets.model.CompositionModel(read_composition(...))"
             )
         super().__init__(**kwargs)
-        self._ready = False
-        self._closed = False
+        self._closed = False  # from here on close() has widgets to close
+        self._refreshing = False  # True while refresh() runs (it redraws density and legend)
         self._updating = False  # True while the view itself writes mark/selector traits
         self._selecting = False  # True while the view itself calls model.select
         self._last_brush = None
@@ -165,8 +204,8 @@ class ScatterView(widgets.VBox):
         raise NotImplementedError
 
     def _density_extent(self) -> tuple[float, float, float, float]:
-        """Data rectangle covered by the density image (default: the view ranges)."""
-        (x0, x1), (y0, y1) = self._view_ranges()
+        """Data rectangle covered by the density image (default: the current view ranges)."""
+        (x0, x1), (y0, y1) = self.view_ranges
         return x0, x1, y0, y1
 
     def _build_marks(self) -> tuple[list, list]:
@@ -177,12 +216,12 @@ class ScatterView(widgets.VBox):
         """Update the subclass's marks after new coordinates or groups."""
 
     def _hover_lines(self, row: int) -> list[str]:
-        """Text lines of the tooltip of model row ``row``."""
+        """Text lines of the tooltip of model row ``row`` (``tooltip_max_lines`` are shown)."""
         return [str(self.model.index[row])]
 
     def _legend_anchor(self) -> tuple[float, float, float]:
         """(x, y of the first entry, step down) of the legend, in data coordinates."""
-        (x0, x1), (y0, y1) = self._view_ranges()
+        (x0, x1), (y0, y1) = self.view_ranges
         return x1 - 0.25 * (x1 - x0), y1 - 0.05 * (y1 - y0), 0.05 * (y1 - y0)
 
     def _on_parts_source_changed(self) -> None:
@@ -191,7 +230,8 @@ class ScatterView(widgets.VBox):
 
     # ------------------------------------------------------------------ build
     def _build(self) -> None:
-        (x0, x1), (y0, y1) = self._view_ranges()
+        self._ranges = _checked_ranges(*self._view_ranges())
+        (x0, x1), (y0, y1) = self._ranges
         self.scale_x = bq.LinearScale(min=x0, max=x1, allow_padding=False)
         self.scale_y = bq.LinearScale(min=y0, max=y1, allow_padding=False)
         self.colour_scale = bq.ColorScale(
@@ -199,17 +239,15 @@ class ScatterView(widgets.VBox):
         )
         xy = {"x": self.scale_x, "y": self.scale_y}
 
-        ex = self._density_extent()
-        nx = int(self.density_pixels)
-        ny = max(1, int(round(nx * (ex[3] - ex[2]) / (ex[1] - ex[0]))))
-        self._density_image = DensityImage(ex, (nx, ny))
+        self._density_image = self._new_density_image()
+        ex = self._density_image.extent
         self._png = widgets.Image(value=self._density_image.render(), format="png")
         self.density = bq.Image(
             image=self._png, x=[ex[0], ex[1]], y=[ex[2], ex[3]], scales=xy, visible=False
         )
         self.density.on_element_click(self._guard(self._on_image_click))
 
-        self._tooltip_lines = [widgets.Label() for _ in range(6)]
+        self._tooltip_lines = [widgets.Label() for _ in range(int(self.tooltip_max_lines))]
         self.hover_box = widgets.VBox(
             self._tooltip_lines, layout=widgets.Layout(padding="2px 6px")
         )
@@ -277,10 +315,10 @@ class ScatterView(widgets.VBox):
         )
         self.scatter.observe(self._guard(self._on_mark_selected), names=["selected"])
 
-        margin = {"top": 10, "bottom": 10, "left": 10, "right": 10}
         self.figure = bq.Figure(
             marks=marks, axes=[], scale_x=self.scale_x, scale_y=self.scale_y,
-            fig_margin=margin, padding_x=0.0, padding_y=0.0, animation_duration=0,
+            fig_margin=dict(self.figure_margin), padding_x=0.0, padding_y=0.0,
+            animation_duration=0,
         )  # fmt: skip
         self._size_figure()
 
@@ -309,14 +347,28 @@ class ScatterView(widgets.VBox):
         self.messages = widgets.Output()
         self.children = [self.toolbar, self.figure, self.status, self.notes, self.messages]
 
+    def _new_density_image(self) -> DensityImage:
+        """An empty density grid over ``_density_extent()``, ``density_pixels`` wide."""
+        ex = self._density_extent()
+        nx = int(self.density_pixels)
+        ny = max(1, int(round(nx * (ex[3] - ex[2]) / (ex[1] - ex[0]))))
+        return DensityImage(ex, (nx, ny))
+
     def _size_figure(self) -> None:
         """Fix the figure's size so one data unit is as long in x as in y (equal aspect)."""
-        (x0, x1), (y0, y1) = self._view_ranges()
+        (x0, x1), (y0, y1) = self._ranges
         m = self.figure.fig_margin
         plot_h = self.height_px - m["top"] - m["bottom"]
         plot_w = plot_h * (x1 - x0) / (y1 - y0)
         width = int(round(plot_w + m["left"] + m["right"]))
         ratio = width / self.height_px
+        layout = self.figure.layout
+        if (
+            layout.width == f"{width}px"
+            and layout.height == f"{self.height_px}px"
+            and self.figure.min_aspect_ratio == ratio == self.figure.max_aspect_ratio
+        ):
+            return
         with self.figure.hold_sync():
             self.figure.layout = widgets.Layout(
                 width=f"{width}px", height=f"{self.height_px}px", min_width=f"{width}px"

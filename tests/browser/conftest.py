@@ -82,7 +82,7 @@ def unavailable(message: str):
 
 
 def chromium_path() -> str | None:
-    """The Chromium to drive: $COMPWIDGETS_CHROMIUM, ``chromium`` on the PATH, /usr/bin/chromium."""
+    """Chromium to drive: $COMPWIDGETS_CHROMIUM, `chromium` on the PATH or /usr/bin/chromium."""
     candidates = [os.environ.get("COMPWIDGETS_CHROMIUM"), shutil.which("chromium")]
     candidates.append("/usr/bin/chromium")
     for candidate in candidates:
@@ -101,8 +101,8 @@ def chromium_executable() -> str:
     path = chromium_path()
     if path is None:
         unavailable(
-            "Chromium not found ($COMPWIDGETS_CHROMIUM, `chromium` on the PATH, /usr/bin/chromium); "
-            "install it with `apt-get install chromium`"
+            "Chromium not found ($COMPWIDGETS_CHROMIUM, `chromium` on the PATH, "
+            "/usr/bin/chromium); install it with `apt-get install chromium`"
         )
     return path
 
@@ -220,7 +220,7 @@ class LabServer:
 
 
 def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
-    """Start JupyterLab in ``base/root`` holding ``notebooks`` (name -> source path or JSON text)."""
+    """Start JupyterLab in ``base/root`` with ``notebooks`` (name -> source path or JSON text)."""
     root, config, runtime, workspaces = (base / d for d in ("root", "config", "runtime", "ws"))
     for d in (root, config, runtime, workspaces):
         d.mkdir(parents=True, exist_ok=True)
@@ -263,7 +263,9 @@ def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
             try:
                 with urllib.request.urlopen(f"{server.url}/api/status", timeout=2) as reply:
                     if reply.status == 200:
-                        print(f"\nJupyterLab up on port {port} in {time.monotonic() - started:.1f} s")
+                        print(
+                            f"\nJupyterLab up on port {port} in {time.monotonic() - started:.1f} s"
+                        )
                         return server
             except (urllib.error.URLError, ConnectionError, TimeoutError, OSError):
                 pass
@@ -274,7 +276,7 @@ def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
 
 
 #: A small invented table whose part names and group values carry markup (an XSS probe).
-XSS_SOURCE = '''\
+XSS_SOURCE = """\
 import numpy as np
 import pandas as pd
 
@@ -300,7 +302,7 @@ bench = cw.explore(
     ternary_parts=[[ALERT_PART, FLAG_PART, "SiO2"], [FLAG_PART, "SiO2", "CaO"]],
 )
 bench
-'''
+"""
 
 
 def xss_notebook_json() -> str:
@@ -422,7 +424,7 @@ class LabNotebook:
         )
 
     def run_all(self, timeout: float = RUN_ALL_TIMEOUT_MS) -> float:
-        """Run every cell (``notebook:run-all-cells``); raise when a cell fails. Returns seconds."""
+        """Run every cell (``notebook:run-all-cells``); raise if a cell fails. Returns seconds."""
         self.wait_kernel_idle()
         started = time.monotonic()
         self.js(
@@ -455,7 +457,8 @@ class LabNotebook:
               if (c.model.type !== "code") return;
               for (const o of c.model.outputs.toJSON()) {
                 if (o.output_type === "error") {
-                  out.push(`cell ${i}: ${o.ename}: ${o.evalue}\\n${(o.traceback || []).join("\\n")}`);
+                  const tb = (o.traceback || []).join("\\n");
+                  out.push(`cell ${i}: ${o.ename}: ${o.evalue}\\n${tb}`);
                 }
               }
             });
@@ -463,7 +466,9 @@ class LabNotebook:
             """
         )
         if errors["errors"] or errors["run"]["ok"] is False:
-            text = "\n\n".join(_ANSI.sub("", e) for e in errors["errors"]) or errors["run"]["error"]
+            text = (
+                "\n\n".join(_ANSI.sub("", e) for e in errors["errors"]) or errors["run"]["error"]
+            )
             raise AssertionError(f"running {self.path} failed:\n{text}")
         return time.monotonic() - started
 
@@ -542,7 +547,9 @@ def open_notebook(lab, browser):
         page.goto(lab.notebook_url(path, workspace), wait_until="domcontentloaded")
         notebook.wait_kernel_idle()
         # no dialog, pop-up or side panel over the notebook
-        notebook.js("window.jupyterapp.shell.collapseLeft(); window.jupyterapp.shell.collapseRight();")
+        notebook.js(
+            "window.jupyterapp.shell.collapseLeft(); window.jupyterapp.shell.collapseRight();"
+        )
         print(f"\n{path}: open with an idle kernel after {time.monotonic() - started:.1f} s")
         return notebook
 

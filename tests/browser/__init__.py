@@ -1,0 +1,1 @@
+"""Real-browser tests (a package, so its conftest does not shadow tests/conftest.py)."""

@@ -1,0 +1,572 @@
+"""The workbench in a real browser: JupyterLab in headless Chromium, driven with the mouse.
+
+1. The quick-start notebook runs top to bottom and every view renders (screenshots).
+2. A rectangle brushed in the first ternary selects the same samples in every view: checked in
+   the kernel (model, each view's mark) and in the page (highlighted points, the selection bar,
+   the builder's count). The time from mouse release to each highlight is printed, not asserted.
+3. A split made by clicks in the balance builder becomes the exported ilr column.
+4. Part names and group values carrying markup reach the page as text only.
+
+Run with ``-s`` to see the timings; they are also written to test-artifacts/browser-timings.json.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from .conftest import ARTIFACTS
+
+pytestmark = pytest.mark.browser
+
+VIEW_NAMES = ("ternary-0", "ternary-1", "biplot")
+
+# Kernel side: give each bqplot view and the selection bar a class the test can find (the
+# public add_class of ipywidgets; the builder is found by its own "cw-builder" root) and
+# describe the scatter mark of each view.
+TAG_VIEWS = """
+_cw_views = {"ternary-0": bench.ternaries[0], "ternary-1": bench.ternaries[1],
+             "biplot": bench.biplot}
+for _cw_name, _cw_view in _cw_views.items():
+    _cw_view.add_class("cwtest-" + _cw_name)
+bench.selection_bar.add_class("cwtest-selection-bar")
+_cw_info = {
+    name: {
+        "mark": view.figure.marks.index(view.scatter),
+        "n": len(view.scatter.x),
+        "mode": view.active_mode,
+        "selected_style": dict(view.scatter.selected_style),
+        "unselected_style": dict(view.scatter.unselected_style),
+    }
+    for name, view in _cw_views.items()
+}
+_cw_info["n_rows"] = bench.model.n_rows
+"""
+
+# Page side: the scatter mark of a view (the mark group at the mark's index in the figure),
+# and how many of its points carry a style.
+MARK_JS = """
+const markOf = (name, index) => {
+  const fig = document.querySelector(`.cwtest-${name} svg.svg-figure`);
+  const box = fig && fig.querySelector(":scope > g > g");
+  return box ? box.children[index] || null : null;
+};
+const norm = (key, value) => {
+  const probe = document.createElement("div");
+  probe.style.setProperty(key, String(value));
+  return probe.style.getPropertyValue(key);
+};
+const styled = (el, style) =>
+  Object.entries(style).every(([k, v]) => el.style.getPropertyValue(k) === norm(k, v));
+const countStyled = (mark, style) => {
+  let n = 0;
+  for (const dot of mark.querySelectorAll(".dot")) if (styled(dot, style)) n += 1;
+  return n;
+};
+const countOf = (text) => {
+  const m = /([\\d,]+) of [\\d,]+ samples selected/.exec(text || "");
+  return m ? Number(m[1].replace(/,/g, "")) : null;
+};
+"""
+
+
+def tag_and_wait(nb) -> dict:
+    """Tag the views, then wait until each draws all its points and the builder has drawn."""
+    info = nb.kernel_json("_cw_info", setup=TAG_VIEWS)
+    for name in VIEW_NAMES:
+        nb.wait_js(
+            MARK_JS
+            + """
+            const mark = markOf(arg.name, arg.info.mark);
+            return Boolean(mark) && mark.querySelectorAll(".dot").length === arg.info.n;
+            """,
+            {"name": name, "info": info[name]},
+            what=f"{name} to draw its {info[name]['n']} points",
+        )
+    nb.wait_js(
+        """
+        const root = document.querySelector(".cw-builder");
+        const count = root && root.querySelector('[data-role="n-selected"]');
+        return Boolean(root && root.querySelector('[data-role="dendrogram"]') && count
+          && /^n selected: \\d+$/.test(count.textContent));
+        """,
+        what="the balance builder to render",
+    )
+    nb.wait_js(
+        MARK_JS
+        + """
+        const bar = document.querySelector(".cwtest-selection-bar");
+        return Boolean(bar) && countOf(bar.textContent) !== null;
+        """,
+        what="the selection bar to render",
+    )
+    return info
+
+
+@pytest.fixture(scope="module")
+def quick_start(open_notebook):
+    """The quick start, run top to bottom, with every view rendered; ``.info`` describes them."""
+    nb = open_notebook("01_quick_start.ipynb")
+    seconds = nb.run_all()
+    print(f"quick start: all cells ran in {seconds:.1f} s")
+    nb.info = tag_and_wait(nb)
+    return nb
+
+
+def dom_counts(nb) -> dict:
+    """What the page shows: styled points per view, the bar's and the builder's counts."""
+    return nb.js(
+        MARK_JS
+        + """
+        const out = {views: {}};
+        for (const [name, info] of Object.entries(arg)) {
+          const mark = markOf(name, info.mark);
+          out.views[name] = {
+            dots: mark.querySelectorAll(".dot").length,
+            selected: countStyled(mark, info.selected_style),
+            unselected: countStyled(mark, info.unselected_style),
+          };
+        }
+        out.bar = countOf(document.querySelector(".cwtest-selection-bar").textContent);
+        out.builder = document.querySelector(
+          '.cw-builder [data-role="n-selected"]').textContent;
+        return out;
+        """,
+        {name: nb.info[name] for name in VIEW_NAMES},
+    )
+
+
+# ------------------------------------------------------------------------------------ tests
+def test_quick_start_renders_every_view(quick_start):
+    nb = quick_start
+    info = nb.info
+    for name in VIEW_NAMES:
+        assert info[name]["mode"] == "points", f"{name} is not in points mode: {info}"
+        assert info[name]["n"] > 0.9 * info["n_rows"], f"{name} shows too few rows: {info}"
+
+    # the ternary corners are labelled with the view's parts (SVG text)
+    parts = nb.kernel_json("[list(v.parts) for v in bench.ternaries]")
+    for k, triple in enumerate(parts):
+        texts = nb.page.locator(f".cwtest-ternary-{k} svg.svg-figure text").all_text_contents()
+        for part in triple:
+            assert part in texts, f"ternary {k}: no label {part!r} among {sorted(set(texts))[:40]}"
+
+    # the builder starts with one group holding every active part
+    active = nb.kernel_json("list(bench.model.active_parts)")
+    root_id = nb.kernel_json('bench.builder.tree["id"]')
+    leaf = nb.page.locator(f'.cw-builder [data-role="leaf"][data-node-id="{root_id}"]')
+    assert leaf.count() == 1
+    assert leaf.get_attribute("aria-label") == (
+        f"group of {len(active)} parts: {', '.join(active)} (click to split)"
+    )
+
+    # the selection bar and the builder show the model's selection (the notebook selects one
+    # catchment in code)
+    n = nb.kernel_json("len(bench.model.selection)")
+    assert n > 0
+    counts = dom_counts(nb)
+    assert counts["bar"] == n
+    assert counts["builder"] == f"n selected: {n}"
+
+    shots = {
+        "ternary-0": ".cwtest-ternary-0",
+        "ternary-1": ".cwtest-ternary-1",
+        "biplot": ".cwtest-biplot",
+        "builder": ".cw-builder",
+        "selection-bar": ".cwtest-selection-bar",
+    }
+    for name, selector in shots.items():
+        path = nb.screenshot(nb.page.locator(selector), f"quick-start-{name}")
+        assert path.stat().st_size > 1000, f"screenshot {path} is (nearly) empty"
+
+
+PLAN_BRUSH = """
+import numpy as _np
+_v = bench.ternaries[0]
+_x = _np.asarray(_v.scatter.x, dtype=float)
+_y = _np.asarray(_v.scatter.y, dtype=float)
+_order = _np.argsort(_x)
+_cw_plan = None
+for _q in (0.5, 0.4, 0.6, 0.3, 0.7, 0.2, 0.8):
+    _c = int(_order[int(_q * (_x.size - 1))])
+    for _h in (0.05, 0.08, 0.12, 0.18):
+        _inside = (_np.abs(_x - _x[_c]) <= _h) & (_np.abs(_y - _y[_c]) <= _h)
+        if 0.02 * _x.size <= _inside.sum() <= 0.6 * _x.size:
+            _cw_plan = {"x": [_x[_c] - _h, _x[_c] + _h], "y": [_y[_c] - _h, _y[_c] + _h],
+                        "n": int(_inside.sum())}
+            break
+    if _cw_plan:
+        break
+_cw_plan = {"box": _cw_plan, "tool": _v.tool, "select_mode": _v.select_mode,
+            "centred": _v.centred, "scale_x": [_v.scale_x.min, _v.scale_x.max],
+            "scale_y": [_v.scale_y.min, _v.scale_y.max]}
+"""
+
+CHECK_BRUSH = """
+import numpy as _np
+from compwidgets.core import ternary as _ternary
+_m = bench.model
+_sel = _np.asarray(_m.selection)
+_v0 = bench.ternaries[0]
+_sx = sorted(float(v) for v in _v0.brush.selected_x)
+_sy = sorted(float(v) for v in _v0.brush.selected_y)
+# barycentric -> Cartesian with the triangle's vertices: a second route to the view's points
+_xy = _np.asarray(_m.closed(list(_v0.parts)))[_v0.rows] @ _ternary.VERTICES
+_in = ((_xy[:, 0] >= _sx[0]) & (_xy[:, 0] <= _sx[1])
+       & (_xy[:, 1] >= _sy[0]) & (_xy[:, 1] <= _sy[1]))
+_cw_check = {
+    "n": int(_sel.size),
+    "brush": [_sx, _sy],
+    "rows_in_rectangle": int(_in.sum()),
+    "selection_is_rectangle": bool(_np.array_equal(_np.sort(_v0.rows[_in]), _sel)),
+    "views": {
+        name: {
+            "mark_selected": 0 if v.scatter.selected is None else len(v.scatter.selected),
+            "shown_and_selected": int(_np.isin(v.rows, _sel).sum()),
+        }
+        for name, v in _cw_views.items()
+    },
+    "builder": int(bench.builder.n_selected),
+    "bar": int(bench.selection_bar.count),
+}
+"""
+
+WATCH_JS = """
+const T = {up: null, done: {}};
+window.__cwT = T;
+window.addEventListener("mouseup", () => { if (T.up === null) T.up = performance.now(); },
+                        {capture: true});
+const watch = (name, target, test) => {
+  const check = () => {
+    if (T.up !== null && !(name in T.done) && test()) {
+      T.done[name] = performance.now();
+      obs.disconnect();
+    }
+  };
+  const obs = new MutationObserver(check);
+  obs.observe(target, {subtree: true, attributes: true, childList: true, characterData: true});
+};
+for (const [name, info] of Object.entries(arg.views)) {
+  const mark = markOf(name, info.mark);
+  watch(name, mark, () => countStyled(mark, info.selected_style) > 0);
+}
+const count = document.querySelector('.cw-builder [data-role="n-selected"]');
+watch("builder", count, () => count.textContent !== "n selected: 0");
+const bar = document.querySelector(".cwtest-selection-bar");
+watch("selection bar", bar, () => (countOf(bar.textContent) || 0) > 0);
+return true;
+"""
+
+
+def test_brush_in_one_ternary_selects_in_every_view(quick_start):
+    nb = quick_start
+    info = nb.info
+    page = nb.page
+
+    # start from an empty selection (the notebook selected a catchment in code)
+    nb.execute("bench.model.clear_selection()")
+    nb.wait_js(
+        MARK_JS
+        + """
+        const count = document.querySelector('.cw-builder [data-role="n-selected"]');
+        if (count.textContent !== "n selected: 0") return false;
+        const bar = document.querySelector(".cwtest-selection-bar");
+        if (countOf(bar.textContent) !== 0) return false;
+        return Object.entries(arg).every(([name, info]) =>
+          countStyled(markOf(name, info.mark), info.selected_style) === 0);
+        """,
+        {name: info[name] for name in VIEW_NAMES},
+        what="every view to show an empty selection",
+    )
+
+    plan = nb.kernel_json("_cw_plan", setup=PLAN_BRUSH)
+    assert plan["box"] is not None, "no rectangle with 2-60 % of the points in ternary 0"
+    assert plan["tool"] == "brush" and plan["select_mode"] == "replace" and not plan["centred"]
+
+    # data -> page pixels through the plot area of the first ternary
+    figure = page.locator(".cwtest-ternary-0 svg.svg-figure")
+    figure.scroll_into_view_if_needed()
+    area = page.locator(".cwtest-ternary-0 svg.svg-figure rect.plotarea_events").bounding_box()
+    (x0, x1), (y0, y1) = plan["scale_x"], plan["scale_y"]
+
+    def to_px(x, y):
+        return (
+            area["x"] + (x - x0) / (x1 - x0) * area["width"],
+            area["y"] + (y1 - y) / (y1 - y0) * area["height"],
+        )
+
+    (bx0, bx1), (by0, by1) = plan["box"]["x"], plan["box"]["y"]
+    start, end = to_px(bx0, by1), to_px(bx1, by0)
+    nb.js(MARK_JS + WATCH_JS, {"views": {name: info[name] for name in VIEW_NAMES}})
+
+    page.mouse.move(*start)
+    page.mouse.down()
+    page.mouse.move(*end, steps=12)
+    page.mouse.up()
+    nb.wait_js(
+        """
+        const T = window.__cwT;
+        return T.up !== null && ["ternary-0", "ternary-1", "biplot", "builder",
+          "selection bar"].every((k) => k in T.done);
+        """,
+        timeout=90_000,
+        what="every view to show the brushed selection",
+    )
+    times = nb.js(
+        "const T = window.__cwT; const out = {};"
+        "for (const [k, t] of Object.entries(T.done)) out[k] = t - T.up; return out;"
+    )
+    check = nb.kernel_json("_cw_check", setup=CHECK_BRUSH)
+    # the page may still be applying the last styles: wait until the counts settle
+    expected = {name: check["views"][name]["mark_selected"] for name in VIEW_NAMES}
+    nb.wait_js(
+        MARK_JS
+        + """
+        return Object.entries(arg.views).every(([name, info]) =>
+          countStyled(markOf(name, info.mark), info.selected_style) === arg.expected[name]);
+        """,
+        {"views": {name: info[name] for name in VIEW_NAMES}, "expected": expected},
+        what="the highlighted points to match the kernel's selection",
+    )
+    shown = dom_counts(nb)
+
+    report = {
+        "brush_release_to_highlight_ms": {k: round(v, 1) for k, v in sorted(times.items())},
+        "selected": check["n"],
+        "planned_in_box": plan["box"]["n"],
+        "points_per_view": {name: info[name]["n"] for name in VIEW_NAMES},
+        "selected_per_view": expected,
+    }
+    print("\nbrush -> highlight (ms from mouse up):", json.dumps(report, indent=1))
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    (ARTIFACTS / "browser-timings.json").write_text(json.dumps(report, indent=1))
+    for name in ("ternary-0", "ternary-1", "biplot"):
+        nb.screenshot(page.locator(f".cwtest-{name}"), f"brushed-{name}")
+
+    n = check["n"]
+    assert n > 0, f"the brush selected nothing: {check}"
+    assert check["selection_is_rectangle"], f"selection != rows inside the brush: {check}"
+    for name in VIEW_NAMES:
+        view = check["views"][name]
+        assert view["shown_and_selected"] > 0, f"{name} shows none of the selection: {check}"
+        assert view["mark_selected"] == view["shown_and_selected"], (name, check)
+        dom = shown["views"][name]
+        assert dom["selected"] == view["mark_selected"], (name, dom, check)
+        assert dom["unselected"] == dom["dots"] - view["mark_selected"], (name, dom, check)
+    assert check["builder"] == n and check["bar"] == n
+    assert shown["builder"] == f"n selected: {n}"
+    assert shown["bar"] == n
+
+
+SPLIT_CHECK = """
+import numpy as _np
+import compwidgets as _cw
+from compwidgets import core as _core
+_m = bench.model
+_num, _den = {num!r}, {den!r}
+_parts = list(_m.active_parts)
+_S = _np.array([[1 if p in _num else -1 if p in _den else 0 for p in _parts]])
+_ilr = _cw.export.ilr_frame(_m, require_complete=False)
+_ok = _m.complete_rows()
+_X = _m.part_values()[_ok]
+_ref = _np.asarray(_core.balances(_X, _S, complete=False))[:, 0]
+# the balance formula itself, numpy only: sqrt(rs/(r+s)) * ln(g(numerator) / g(denominator))
+# (Egozcue & Pawlowsky-Glahn 2005)
+_r, _s = len(_num), len(_den)
+_L = _np.log(_X)
+_formula = _np.sqrt(_r * _s / (_r + _s)) * (
+    _L[:, [_parts.index(p) for p in _num]].mean(axis=1)
+    - _L[:, [_parts.index(p) for p in _den]].mean(axis=1))
+_col = _ilr.to_numpy()[:, 0] if _ilr.shape[1] else _np.zeros(0)
+_cw_split = {{
+    "columns": [str(c) for c in _ilr.columns],
+    "index_kept": bool(_ilr.index.equals(_m.index)),
+    "sbp": None if _m.sbp is None else _m.sbp.tolist(),
+    "expected_sbp": _S.tolist(),
+    "nan_where_incomplete": bool(_np.isnan(_col[~_ok]).all()) if _col.size else False,
+    "max_diff_core": float(_np.max(_np.abs(_col[_ok] - _ref))) if _col.size else None,
+    "max_diff_formula": float(_np.max(_np.abs(_col[_ok] - _formula))) if _col.size else None,
+    "n_complete": int(_ok.sum()),
+}}
+"""
+
+
+def test_builder_split_by_clicks_exports_that_balance(quick_start):
+    nb = quick_start
+    page = nb.page
+    builder = page.locator(".cw-builder")
+
+    nb.execute("bench.builder.reset()")
+    before = nb.kernel_json(
+        "_cw_before",
+        setup=(
+            "import compwidgets as _cw\n"
+            "try:\n"
+            "    _f = _cw.export.ilr_frame(bench.model, require_complete=False)\n"
+            "    _cw_before = list(_f.columns)\n"
+            "except Exception as err:\n"
+            "    _cw_before = type(err).__name__ + ': ' + str(err)\n"
+        ),
+    )
+    assert isinstance(before, str) and before.startswith("ExportError"), before
+    nb.wait_js(
+        """return document.querySelectorAll(
+             '.cw-builder [data-role="balance-row"]').length === 0;""",
+        what="the builder to show no balance",
+    )
+
+    parts = nb.kernel_json("list(bench.builder.parts)")
+    root_id = nb.kernel_json('bench.builder.tree["id"]')
+    numerator = parts[::3]  # every third part on the numerator side
+    denominator = [p for p in parts if p not in numerator]
+
+    builder.locator(f'[data-role="leaf"][data-node-id="{root_id}"] rect.cw-leaf-hit').click()
+    chips = builder.locator('[data-role="splitter"] [data-role="chip"]')
+    chips.first.wait_for()
+    assert chips.count() == len(parts)
+    for index, part in enumerate(parts):
+        want = "numerator" if part in numerator else "denominator"
+        chip = builder.locator(f'[data-role="chip"][data-part-index="{index}"]')
+        assert chip.text_content() == part
+        if chip.get_attribute("data-side") != want:
+            chip.click()  # moves it to the other side (the editor redraws)
+            chip = builder.locator(f'[data-role="chip"][data-part-index="{index}"]')
+            assert chip.get_attribute("data-side") == want, part
+    preview = builder.locator('[data-role="split-preview"]').text_content()
+    assert preview == f"new balance: {','.join(numerator)} | {','.join(denominator)}"
+
+    nb.js(
+        """
+        window.__cwSplit = {click: null, done: null};
+        const root = document.querySelector(".cw-builder");
+        root.addEventListener("click", () => { window.__cwSplit.click = performance.now(); },
+                              {capture: true, once: true});
+        const obs = new MutationObserver(() => {
+          const cell = root.querySelector('[data-role="balance-row"] [data-role="variance"]');
+          if (cell && cell.textContent !== "\\u2013") {
+            window.__cwSplit.done = performance.now();
+            obs.disconnect();
+          }
+        });
+        obs.observe(root, {subtree: true, childList: true, characterData: true});
+        return true;
+        """
+    )
+    builder.locator('[data-role="apply-split"]').click()
+    rows = builder.locator('[data-role="balance-row"]')
+    nb.wait_js(
+        "return window.__cwSplit.done !== null;",
+        timeout=60_000,
+        what="the new balance with its variance in the builder's table",
+    )
+    split_ms = nb.js("return window.__cwSplit.done - window.__cwSplit.click;")
+    print(f"\nbuilder: split click -> balance row with its variance: {split_ms:.0f} ms")
+    assert rows.count() == 1
+    name_box = rows.first.locator('[data-role="name-input"]')
+    shown_name = name_box.input_value() or name_box.get_attribute("placeholder")
+    shown_num = rows.first.locator('[data-role="numerator"]').text_content().split(", ")
+    shown_den = rows.first.locator('[data-role="denominator"]').text_content().split(", ")
+    assert shown_num == numerator and shown_den == denominator
+    nb.screenshot(builder, "builder-after-split")
+
+    result = nb.kernel_json("_cw_split", setup=SPLIT_CHECK.format(num=shown_num, den=shown_den))
+    print(
+        "builder split, kernel side:", json.dumps({k: v for k, v in result.items() if k != "sbp"})
+    )
+    assert result["columns"] == [shown_name]
+    assert result["sbp"] == result["expected_sbp"]
+    assert result["index_kept"]
+    assert result["n_complete"] > 0
+    assert result["nan_where_incomplete"]
+    assert result["max_diff_core"] <= 1e-9, result
+    assert result["max_diff_formula"] <= 1e-9, result
+
+
+XSS_PARTS = ("<img src=x onerror=alert(1)>", '<img src=x onerror="window.__xss=1">')
+XSS_GROUP = '<b onmouseover="window.__xss=2">bold</b><script>window.__xss=3</script>'
+
+
+def test_markup_in_the_table_renders_as_text(open_notebook):
+    nb = open_notebook("xss_labels.ipynb")
+    nb.page.evaluate("window.__xss = 0")
+    nb.run_all()
+    nb.info = tag_and_wait(nb)
+    parts = nb.kernel_json("list(bench.model.parts)")
+    assert parts[:2] == list(XSS_PARTS)
+
+    found = nb.js(
+        """
+        const bench = document.querySelector(".cw-workbench");
+        const texts = (sel) => [...bench.querySelectorAll(sel)].map((e) => e.textContent);
+        return {
+          ternary0: texts(".cwtest-ternary-0 svg.svg-figure text"),
+          biplot: texts(".cwtest-biplot svg.svg-figure text"),
+          builderTitles: texts(".cw-builder title"),
+          options: texts("option"),
+        };
+        """
+    )
+    for part in XSS_PARTS:
+        assert part in found["ternary0"], f"{part!r} is not a ternary label"
+        assert part in found["biplot"], f"{part!r} is not a biplot label"
+        assert part in found["options"], f"{part!r} is not a picker option"
+        assert any(part in t for t in found["builderTitles"]), f"{part!r} not in the builder"
+    assert XSS_GROUP in found["ternary0"], "the group value is not in the ternary legend"
+
+    # hover a point of the markup group: the tooltip names its group as text
+    row = nb.kernel_json(
+        "_cw_row",
+        setup=(
+            "import numpy as _np\n"
+            "_v = bench.ternaries[0]\n"
+            "_codes = bench.model.group_codes()\n"
+            "_k = _codes[0].index(" + repr(XSS_GROUP) + ")\n"
+            "_cw_row = [int(i) for i in _np.flatnonzero(_codes[1][_v.rows] == _k)]\n"
+        ),
+    )
+    hovered = nb.js(
+        MARK_JS
+        + """
+        const mark = markOf("ternary-0", arg.mark);
+        const dots = mark.querySelectorAll(".dot");
+        for (const i of arg.rows) {
+          const r = dots[i].getBoundingClientRect();
+          const x = r.left + r.width / 2, y = r.top + r.height / 2;
+          const hit = document.elementFromPoint(x, y);
+          if (hit === dots[i]) return [x, y];
+        }
+        return null;
+        """,
+        {"mark": nb.info["ternary-0"]["mark"], "rows": row},
+    )
+    if hovered is not None:  # a point of that group not covered by another point
+        nb.page.mouse.move(hovered[0] - 30, hovered[1] - 30)
+        nb.page.mouse.move(*hovered, steps=5)
+        nb.wait_js(
+            """
+            return [...document.querySelectorAll(".bqplot_mark_tooltip")]
+              .some((t) => t.textContent.includes(arg));
+            """,
+            "site: " + XSS_GROUP,
+            timeout=30_000,
+            what="the tooltip to show the group value as text",
+        )
+    nb.page.wait_for_timeout(500)  # let any injected handler run before looking for it
+
+    injected = nb.js(
+        """
+        return {
+          imgX: [...document.querySelectorAll("img")].filter(
+            (e) => e.getAttribute("src") === "x").length,
+          handlers: document.querySelectorAll("[onerror], [onmouseover]").length,
+          scripts: [...document.querySelectorAll("script")].filter(
+            (e) => e.textContent.includes("__xss")).length,
+          boldInViews: document.querySelectorAll(".cw-workbench b").length,
+          flag: window.__xss,
+        };
+        """
+    )
+    nb.screenshot(nb.page.locator(".cwtest-ternary-0"), "xss-ternary-0")
+    assert injected == {"imgX": 0, "handlers": 0, "scripts": 0, "boldInViews": 0, "flag": 0}
+    assert nb.dialogs == [], f"a dialog opened: {nb.dialogs}"
