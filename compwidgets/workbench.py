@@ -22,6 +22,9 @@ from .model import CompositionModel
 #: A metadata column with at most this many distinct values can be a grouping column.
 MAX_GROUPS = 12
 
+#: Smallest median share of the active composition for a part in a default ternary.
+MIN_SHARE = 0.01
+
 
 def default_group_column(metadata: pd.DataFrame) -> str:
     """The first metadata column that looks categorical ("" when none does).
@@ -46,13 +49,20 @@ def default_group_column(metadata: pd.DataFrame) -> str:
 def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[str]]:
     """Triples of active parts that spread the data, one per ternary view.
 
-    For each triple: the pair of parts with the largest log-ratio variance
+    Only parts whose median share of the active composition is at least
+    :data:`MIN_SHARE` take part (when three or more do), since a ternary of parts
+    that differ a thousandfold in size piles every point in one corner. For
+    each triple: the pair of those parts with the largest log-ratio variance
     (variation matrix), and the part that adds most log-ratio variance to both;
     later triples use the parts not shown yet first.
     """
-    parts = list(model.active_parts)
+    active = list(model.active_parts)
+    if len(active) < 3:
+        raise ValueError(f"a ternary view needs 3 active parts, got {active}")
+    share = np.nanmedian(model.closed(active), axis=0)
+    parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
     if len(parts) < 3:
-        raise ValueError(f"a ternary view needs 3 active parts, got {parts}")
+        parts = active
     T = model.variation_matrix(parts).to_numpy()
     triples: list[list[str]] = []
     unused = list(range(len(parts)))

@@ -478,3 +478,130 @@ def test_no_biplot_is_explained_not_raised():
         assert v.info.value.startswith("no biplot:")
     finally:
         v.close()
+
+
+# ------------------------------------------------- the base's public hooks (ScatterView)
+
+
+def test_set_view_ranges_moves_scales_image_figure_and_legend_only(model, view, monkeypatch):
+    legend_text = list(view._legend_text.text)
+    swatch_colours = list(view._legend_swatches.colors)
+    text_y = np.asarray(view._legend_text.y, dtype=float).copy()
+    spy = SendSpy(monkeypatch)
+    view.set_view_ranges((-10.0, 30.0), (-10.0, 10.0))  # width / height 2
+    assert (view.scale_x.min, view.scale_x.max) == (-10.0, 30.0)
+    assert (view.scale_y.min, view.scale_y.max) == (-10.0, 10.0)
+    assert view.view_ranges == ((-10.0, 30.0), (-10.0, 10.0))
+    # the density image follows the ranges (the biplot's extent is its ranges)
+    assert list(view.density.x) == [-10.0, 30.0] and list(view.density.y) == [-10.0, 10.0]
+    assert view._density_image.extent == (-10.0, 30.0, -10.0, 10.0)
+    # equal aspect: plot area width / height == 2 (within a pixel of rounding)
+    m = view.figure.fig_margin
+    width = int(view.figure.layout.width.removesuffix("px"))
+    plot_h = view.height_px - m["top"] - m["bottom"]
+    assert abs((width - m["left"] - m["right"]) - 2 * plot_h) <= 1
+    # the legend moved to the new anchor, same text, same steps between entries
+    x_anchor, y_anchor, dy = view._legend_anchor()
+    np.testing.assert_allclose(view._legend_text.y, y_anchor - dy * np.arange(len(text_y)))
+    assert float(np.max(view._legend_swatches.x)) == pytest.approx(x_anchor)
+    assert list(view._legend_text.text) == legend_text
+    assert list(view._legend_swatches.colors) == swatch_colours
+    assert not (spy.keys_of(view._legend_text) & {"text"})
+    assert not (spy.keys_of(view._legend_swatches) & {"colors"})
+    assert not spy.keys_of(view.scatter)  # points mode: the points did not move
+    assert not spy.keys_of(view._png)  # points mode: no density image sent
+    # the same ranges again: nothing is sent
+    spy.clear()
+    view.set_view_ranges((-10, 30), (-10, 10))
+    assert spy.sent == []
+
+
+@pytest.mark.parametrize(
+    ("x_range", "y_range", "match"),
+    [
+        ((1.0, 1.0), (0.0, 1.0), "x_range must be finite with lower < upper"),
+        ((0.0, 1.0), (2.0, -1.0), "y_range must be finite with lower < upper"),
+        ((0.0, np.nan), (0.0, 1.0), "x_range must be finite"),
+        ((0.0,), (0.0, 1.0), "x_range must be two numbers"),
+    ],
+)
+def test_set_view_ranges_rejects_bad_ranges(view, x_range, y_range, match):
+    before = view.view_ranges
+    with pytest.raises(ValueError, match=match):
+        view.set_view_ranges(x_range, y_range)
+    assert view.view_ranges == before
+
+
+def test_set_view_ranges_in_density_mode_redraws_the_image(model):
+    view = BiplotView(model, threshold=50, subsample_size=40)
+    try:
+        image = view._png.value
+        view.set_view_ranges((-20.0, 20.0), (-20.0, 20.0))
+        assert view._png.value != image
+        # every shown point is counted in the new grid (all inside the wider ranges)
+        assert int(view._density_image.all_counts.sum()) == view.rows.size
+    finally:
+        view.close()
+
+
+def test_move_points_sends_positions_only_and_clears_the_brush(model, view, monkeypatch):
+    model.select(view.rows[::3])
+    brush(view, (-0.5, 0.5), (-0.5, 0.5))
+    selection = model.selection.copy()
+    assert view.brush.selected_x is not None
+    new_x = np.linspace(-1.0, 1.0, view.rows.size)
+    new_y = -new_x
+    spy = SendSpy(monkeypatch)
+    view.move_points(new_x, new_y)
+    np.testing.assert_allclose(view.scatter.x, new_x, atol=1e-6)
+    np.testing.assert_allclose(view.scatter.y, new_y, atol=1e-6)
+    assert view.brush.selected_x is None and view.brush.selected_y is None
+    np.testing.assert_array_equal(model.selection, selection)  # the selection stays
+    assert spy.keys_of(view.scatter) == {"x", "y"}
+    assert not spy.keys_of(view.colour_scale)
+    assert not (spy.keys_of(view._legend_text) & {"text"})
+    # the replaced markers moved with their rows
+    replaced = np.flatnonzero(core_replaced(model, view.shown_parts())[view.rows])
+    np.testing.assert_allclose(view.replaced_marker.x, new_x[replaced], atol=1e-6)
+    # a later rectangle selects with the new coordinates
+    brush(view, (-1.01, 0.0), (-100.0, 100.0))
+    np.testing.assert_array_equal(model.selection, view.rows[new_x <= 0.0])
+
+
+def core_replaced(model, parts):
+    """Rows with a replaced value in ``parts``, from the composition's own mask."""
+    members = [m for p in parts for m in model.members(p)]
+    return model.composition.replaced[members].to_numpy(dtype=bool).any(axis=1)
+
+
+def test_move_points_rejects_other_rows(view):
+    with pytest.raises(ValueError, match="one x and one y per row shown"):
+        view.move_points(np.zeros(3), np.zeros(3))
+    n = view.rows.size
+    with pytest.raises(ValueError, match="both x_range and y_range"):
+        view.move_points(np.zeros(n), np.zeros(n), x_range=(0.0, 1.0))
+
+
+class _FailingBiplot(BiplotView):
+    """A biplot whose side panel cannot be built (a constructor failing half-way)."""
+
+    def _build_side(self):
+        raise RuntimeError("side panel broken")
+
+
+def test_close_is_safe_after_a_failed_constructor(model):
+    # Failing before the base existed: close() and __del__ do nothing and do not raise.
+    early = BiplotView.__new__(BiplotView)
+    with pytest.raises(TypeError, match="CompositionModel"):
+        early.__init__(object())
+    early.close()
+    early.__del__()
+    # Failing half-way: what was built is closed (no comm left open).
+    half = _FailingBiplot.__new__(_FailingBiplot)
+    with pytest.raises(RuntimeError, match="side panel broken"):
+        half.__init__(model)
+    assert half.figure.comm is not None and half.scatter.comm is not None
+    half.close()
+    assert half.figure.comm is None and half.scatter.comm is None and half.comm is None
+    half.close()  # twice: still fine
+    half.__del__()

@@ -150,3 +150,27 @@ def format_number(value: float) -> str:
     if value is None or not np.isfinite(value):
         return "n/a"
     return f"{value:.4g}"
+
+
+def assign_arrays(mark, **values) -> None:
+    """Set array traits of a widget in one message, skipping values equal to the current ones.
+
+    Parameters
+    ----------
+    mark : ipywidgets.Widget
+        Usually a bqplot mark.
+    **values
+        Trait name -> new value (arrays, lists).
+    """
+    changed = {}
+    for name, value in values.items():
+        current = getattr(mark, name)
+        if current is None or np.shape(current) != np.shape(value):
+            changed[name] = value
+        elif not np.array_equal(np.asarray(current), np.asarray(value)):
+            changed[name] = value
+    if not changed:
+        return
+    with mark.hold_sync():
+        for name, value in changed.items():
+            setattr(mark, name, value)

@@ -47,6 +47,8 @@ _EMPTY_ROWS = np.zeros(0, dtype=np.uint32)
 
 _TOOL_LABELS = {"brush": "Rectangle", "lasso": "Lasso", "polygon": "Polygon", "none": "Off"}
 _MODE_LABELS = {"replace": "new", "add": "add", "remove": "remove", "intersect": "intersect"}
+#: Legend titles start this share of the x range left of the swatches.
+_LEGEND_TITLE_INDENT = 0.0125
 
 
 def _same(a, b) -> bool:
@@ -188,6 +190,8 @@ class ScatterView(widgets.VBox):
         self._x = np.zeros(0)
         self._y = np.zeros(0)
         self._mark_rows = _EMPTY_ROWS
+        self._mark_pos = np.zeros(0, dtype=np.intp)
+        self._legend_entries: list[tuple[str | None, str]] = []
         self._build()
 
     # ------------------------------------------------------------ subclass API
@@ -488,11 +492,119 @@ class ScatterView(widgets.VBox):
         # the hover points would catch the clicks meant for polygon vertices
         self.scatter.visible = not (polygon and self.active_mode == "density")
 
+    # ------------------------------------------------------------ public hooks
+    @property
+    def view_ranges(self) -> tuple[tuple[float, float], tuple[float, float]]:
+        """((x0, x1), (y0, y1)): the current limits of the figure's scales."""
+        return self._ranges
+
+    def set_view_ranges(self, x_range, y_range) -> None:
+        """Show another rectangle of data coordinates.
+
+        Updates the x and y scales, rebuilds the density grid and moves the
+        density image when its extent follows the ranges, resizes the figure
+        (equal aspect) and moves the legend (positions only: its text and
+        colours are not sent again). Nothing is sent when the ranges are
+        those shown already.
+
+        Parameters
+        ----------
+        x_range, y_range : (float, float)
+            Lower and upper limits, finite, lower < upper.
+
+        Raises
+        ------
+        ValueError
+            If a range is not two finite increasing numbers.
+        """
+        self._apply_ranges(_checked_ranges(x_range, y_range), redraw_density=True)
+
+    def move_points(self, x, y, *, x_range=None, y_range=None) -> None:
+        """New coordinates for the rows shown (same rows, same order as ``rows``).
+
+        Sends only what moves: the points' x and y (one message), the
+        replaced-value markers and, in density mode, a new density image.
+        The selection, the colours and the legend text are not sent again.
+        The brush rectangle and an unfinished polygon are cleared (they were
+        drawn on the old positions). Marks of a subclass are its own to move.
+
+        Parameters
+        ----------
+        x, y : array-like of float, shape (len(rows),)
+            New coordinates, in the order of ``rows``.
+        x_range, y_range : (float, float), optional
+            New view ranges applied in the same step (see
+            :meth:`set_view_ranges`); give both or neither.
+
+        Raises
+        ------
+        ValueError
+            If ``x`` or ``y`` does not have one value per row shown, or only
+            one of ``x_range``, ``y_range`` is given.
+        """
+        x = np.asarray(x, dtype=float).reshape(-1)
+        y = np.asarray(y, dtype=float).reshape(-1)
+        n = self.rows.size
+        if x.size != n or y.size != n:
+            raise ValueError(
+                f"move_points needs one x and one y per row shown ({n}, in the order of "
+                f"view.rows), got {x.size} x and {y.size} y values; for other rows use refresh()"
+            )
+        if (x_range is None) != (y_range is None):
+            raise ValueError("move_points: give both x_range and y_range, or neither")
+        if x_range is not None:
+            self._apply_ranges(_checked_ranges(x_range, y_range), redraw_density=False)
+        self._x, self._y = x, y
+        pick = self._mark_pos
+        self._updating = True
+        try:
+            with self.scatter.hold_sync():
+                self.scatter.x = self._x[pick].astype(np.float32)
+                self.scatter.y = self._y[pick].astype(np.float32)
+            self._draw_replaced()
+            self._clear_brush()
+            self._clear_vertices()
+        finally:
+            self._updating = False
+        if self.active_mode == "density":
+            self._density_image.set_points(self._x, self._y)
+            self._render_density()
+
+    def _apply_ranges(self, ranges, redraw_density: bool) -> None:
+        if ranges == self._ranges:
+            return
+        self._ranges = ranges
+        for scale, (lo, hi) in zip((self.scale_x, self.scale_y), ranges, strict=True):
+            if scale.min != lo or scale.max != hi:
+                with scale.hold_sync():
+                    scale.min, scale.max = lo, hi
+        extent = tuple(float(v) for v in self._density_extent())
+        if extent != self._density_image.extent:
+            self._density_image = self._new_density_image()
+            with self.density.hold_sync():
+                self.density.x = [extent[0], extent[1]]
+                self.density.y = [extent[2], extent[3]]
+            if redraw_density and not self._refreshing and self.active_mode == "density":
+                self._density_image.set_points(self._x, self._y)
+                self._render_density()
+        self._size_figure()
+        if not self._refreshing:  # refresh() draws the whole legend afterwards
+            self._place_legend()
+
     # ---------------------------------------------------------------- drawing
     def refresh(self) -> None:
         """Recompute the coordinates from the model and redraw everything."""
         if not self._ready or self._closed:
             return
+        self._refreshing = True
+        try:
+            self._redraw()
+        finally:
+            self._refreshing = False
+        self.status.value = cm.left_out_message(self.n_left_out, self.shown_parts())
+        self._refresh_extra()
+
+    def _redraw(self) -> None:
         rows, x, y = self._coordinates()
         rows = np.asarray(rows, dtype=np.uint32)
         self.rows = rows
@@ -532,8 +644,6 @@ class ScatterView(widgets.VBox):
         self._apply_tool()
         self._apply_colours()
         self._apply_selection()
-        self.status.value = cm.left_out_message(self.n_left_out, self.shown_parts())
-        self._refresh_extra()
 
     def _draw_replaced(self) -> None:
         mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
@@ -592,24 +702,35 @@ class ScatterView(widgets.VBox):
         self._draw_legend(entries)
 
     def _draw_legend(self, entries: list[tuple[str | None, str]]) -> None:
-        x, y, dy = self._legend_anchor()
-        ys = y - dy * np.arange(len(entries))
-        with_swatch = [i for i, (c, _) in enumerate(entries) if c is not None]
-        text = np.array([label for _, label in entries], dtype=str)
-        tx = np.full(len(entries), x)
-        for i, (c, _) in enumerate(entries):
-            if c is None:
-                tx[i] = x - 0.02  # titles start a little to the left of the swatches
+        """Draw the legend: (swatch colour or None for a title line, text) per line."""
+        self._legend_entries = list(entries)
+        sx, sy, tx, ty = self._legend_positions()
+        colours = [c for c, _ in entries if c is not None] or [cm.SINGLE_COLOUR]
         with self._legend_swatches.hold_sync():
-            self._legend_swatches.x = np.full(len(with_swatch), x)
-            self._legend_swatches.y = ys[with_swatch]
-            self._legend_swatches.colors = [entries[i][0] for i in with_swatch] or [
-                cm.SINGLE_COLOUR
-            ]
+            self._legend_swatches.x = sx
+            self._legend_swatches.y = sy
+            self._legend_swatches.colors = colours
         with self._legend_text.hold_sync():
             self._legend_text.x = tx
-            self._legend_text.y = ys
-            self._legend_text.text = text
+            self._legend_text.y = ty
+            self._legend_text.text = np.array([label for _, label in entries], dtype=str)
+
+    def _legend_positions(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(swatch x, swatch y, text x, text y) of the legend entries at the current anchor."""
+        x, y, dy = self._legend_anchor()
+        entries = self._legend_entries
+        ys = y - dy * np.arange(len(entries), dtype=float)
+        swatch = np.array([c is not None for c, _ in entries], dtype=bool)
+        (x0, x1), _ = self._ranges
+        # titles start a little to the left of the swatches
+        tx = np.where(swatch, x, x - _LEGEND_TITLE_INDENT * (x1 - x0)).astype(float)
+        return np.full(int(swatch.sum()), float(x)), ys[swatch], tx, ys
+
+    def _place_legend(self) -> None:
+        """Move the legend to the current anchor (positions only)."""
+        sx, sy, tx, ty = self._legend_positions()
+        cm.assign_arrays(self._legend_swatches, x=sx, y=sy)
+        cm.assign_arrays(self._legend_text, x=tx, y=ty)
 
     # -------------------------------------------------------------- selection
     def _apply_selection(self) -> None:
@@ -618,8 +739,14 @@ class ScatterView(widgets.VBox):
         pos = np.flatnonzero(mask[self._mark_rows]).astype(np.uint32)
         self._set_mark_selected(pos if pos.size else None)
         if self.active_mode == "density":
-            in_view = mask[self.rows]
-            self._png.value = self._density_image.render(in_view if in_view.any() else None)
+            self._render_density(mask)
+
+    def _render_density(self, mask: np.ndarray | None = None) -> None:
+        """Send the density image of the rows shown, with the selection (model mask) on top."""
+        if mask is None:
+            mask = self.model.selected_mask()
+        in_view = mask[self.rows]
+        self._png.value = self._density_image.render(in_view if in_view.any() else None)
 
     def _set_mark_selected(self, pos) -> None:
         if _same(self.scatter.selected, pos):
@@ -796,22 +923,42 @@ class ScatterView(widgets.VBox):
 
     # ----------------------------------------------------------------- closing
     def close(self) -> None:
-        """Stop following the model and close every widget of the view."""
-        if getattr(self, "_closed", True) or not hasattr(self, "toolbar"):
-            super().close()  # not (fully) built, or closed already
-            return
-        for obj, handler, names in self._handlers:
+        """Stop following the model and close every widget of the view.
+
+        Safe to call twice, and on a view whose constructor failed (whatever
+        was built is closed; nothing at all before the base was constructed),
+        so ``__del__`` never raises.
+        """
+        if getattr(self, "_closed", True):
+            return  # closed already, or the constructor failed before the view existed
+        self._closed = True
+        for obj, handler, names in getattr(self, "_handlers", []):
             obj.unobserve(handler, names=names)
         self._handlers = []
-        self._closed = True
-        owned = [
-            self.toolbar, self._tool_buttons, self._mode_dropdown, self._clear_button,
-            self._close_button, self.status, self.notes, self.messages, self.hover_box,
-            *self._tooltip_lines, self.brush, self.lasso, self.figure, self.scatter,
-            self.replaced_marker, self.density, self._png, self._legend_swatches,
-            self._legend_text, self.polygon_marker, self._polygon_line, *self._extra_marks,
-            self.colour_scale, self.scale_x, self.scale_y,
-        ]  # fmt: skip
+        names = (
+            "toolbar", "_tool_buttons", "_mode_dropdown", "_clear_button", "_close_button",
+            "status", "notes", "messages", "hover_box", "brush", "lasso", "figure", "scatter",
+            "replaced_marker", "density", "_png", "_legend_swatches", "_legend_text",
+            "polygon_marker", "_polygon_line", "colour_scale", "scale_x", "scale_y",
+        )  # fmt: skip
+        owned = [getattr(self, n, None) for n in names]
+        owned += list(getattr(self, "_tooltip_lines", []))
+        owned += list(getattr(self, "_extra_marks", []))
         for w in owned:
-            w.close()
+            if w is not None:
+                w.close()
         super().close()
+
+
+def _checked_ranges(x_range, y_range) -> tuple[tuple[float, float], tuple[float, float]]:
+    """((x0, x1), (y0, y1)) as floats, or ValueError naming the bad range."""
+    out = []
+    for name, r in (("x_range", x_range), ("y_range", y_range)):
+        try:
+            lo, hi = (float(v) for v in r)
+        except (TypeError, ValueError):
+            raise ValueError(f"{name} must be two numbers (lower, upper), got {r!r}") from None
+        if not (np.isfinite(lo) and np.isfinite(hi) and lo < hi):
+            raise ValueError(f"{name} must be finite with lower < upper, got ({lo}, {hi})")
+        out.append((lo, hi))
+    return out[0], out[1]

@@ -33,7 +33,6 @@ from ..core import CompositionError
 from ..core import biplot as core_biplot
 from ..model import CompositionModel
 from . import _common as cm
-from ._density import DensityImage
 from ._scatter import ScatterView
 
 __all__ = ["BiplotView"]
@@ -105,6 +104,9 @@ class BiplotView(ScatterView):
         Associations or link of the picked parts (text only).
     """
 
+    #: Room for the axes around the plot area (pixels).
+    figure_margin = {"top": 10, "bottom": 45, "left": 58, "right": 10}
+
     scaling = t.Enum(core_biplot.SCALINGS, default_value="covariance")
     components = t.Tuple(t.Int(), t.Int(), default_value=(0, 1))
     picked_parts = t.List(t.Unicode())
@@ -124,7 +126,6 @@ class BiplotView(ScatterView):
         self._fits: dict[str, core_biplot.Biplot] = {}
         self._fit_error = ""
         self._fit_parts: list[str] = []
-        self._ranges: tuple[tuple[float, float], tuple[float, float]] = ((-1.0, 1.0), (-1.0, 1.0))
         super().__init__(model, **kwargs)
         self._build_side()
         self._internal = True
@@ -270,10 +271,10 @@ class BiplotView(ScatterView):
         return list(self._fit_parts or self.model.active_parts)
 
     def _view_ranges(self):
-        return self._ranges
+        return (-1.0, 1.0), (-1.0, 1.0)  # until the first fit: see _coordinates
 
     def _legend_anchor(self):
-        (x0, x1), (y0, y1) = self._ranges
+        (x0, x1), (y0, y1) = self.view_ranges
         w, h = x1 - x0, y1 - y0
         return x1 - 0.95 * _LEGEND_ROOM / (1 + _LEGEND_ROOM) * w, y1 - 0.05 * h, 0.05 * h
 
@@ -281,14 +282,14 @@ class BiplotView(ScatterView):
         if self._fit_parts != list(self.model.active_parts):
             self._fit_model()
         rows, x, y, tips = self._plane_coords()
-        self._set_ranges(x, y, tips)
+        self.set_view_ranges(*_plane_ranges(x, y, tips))
         note = self._fit_error
         if not note and self._n_components() == 1:
             note = (
                 f"a single component ({len(self._fit_parts)} parts, {rows.size} rows): "
                 "the points lie on the first axis"
             )
-        self.notes.value = note
+        self._set_note("fit", note)
         return rows, x, y
 
     def _on_parts_source_changed(self) -> None:
@@ -353,10 +354,7 @@ class BiplotView(ScatterView):
             scale=self.scale_y, label=axis_label(1, None), side="left",
             grid_lines="none", label_offset="40px",
         )  # fmt: skip
-        with self.figure.hold_sync():
-            self.figure.fig_margin = {"top": 10, "bottom": 45, "left": 58, "right": 10}
-            self.figure.axes = [self.axis_x, self.axis_y]
-        self._size_figure()
+        self.figure.axes = [self.axis_x, self.axis_y]
 
         self._bar_x = bq.OrdinalScale()
         self._bar_y = bq.LinearScale(min=0.0)
@@ -407,44 +405,6 @@ class BiplotView(ScatterView):
         ]
 
     # ---------------------------------------------------------------- drawing
-    def _set_ranges(self, x: np.ndarray, y: np.ndarray, tips: np.ndarray) -> None:
-        """New axis limits for the plane: scales, density extent, figure size, legend."""
-        ranges = core_biplot.plane_limits(np.column_stack([x, y]), tips, right_margin=_LEGEND_ROOM)
-        if ranges == self._ranges:
-            return
-        old_anchor = self._legend_anchor()
-        old_aspect = _aspect(self._ranges)
-        self._ranges = ranges
-        (x0, x1), (y0, y1) = ranges
-        with self.scale_x.hold_sync():
-            self.scale_x.min, self.scale_x.max = x0, x1
-        with self.scale_y.hold_sync():
-            self.scale_y.min, self.scale_y.max = y0, y1
-        extent = self._density_extent()
-        nx = int(self.density_pixels)
-        ny = max(1, int(round(nx * (extent[3] - extent[2]) / (extent[1] - extent[0]))))
-        self._density_image = DensityImage(extent, (nx, ny))
-        with self.density.hold_sync():
-            self.density.x = [extent[0], extent[1]]
-            self.density.y = [extent[2], extent[3]]
-        if abs(_aspect(ranges) / old_aspect - 1) > 0.005:
-            self._size_figure()
-        self._move_legend(old_anchor)
-
-    def _move_legend(self, old_anchor: tuple[float, float, float]) -> None:
-        """Shift the base's legend to the new anchor (positions only, the text stays)."""
-        x_old, y_old, dy_old = old_anchor
-        x_new, y_new, dy_new = self._legend_anchor()
-        if dy_old == 0:
-            return
-        for mark in (self._legend_text, self._legend_swatches):
-            if len(mark.y) == 0:
-                continue
-            steps = (y_old - np.asarray(mark.y, dtype=float)) / dy_old
-            with mark.hold_sync():
-                mark.x = np.asarray(mark.x, dtype=float) - x_old + x_new
-                mark.y = y_new - dy_new * steps
-
     def _move(self) -> None:
         """Scaling or components changed: move points and rays; nothing else is resent."""
         if not self._ready or self._closed:
@@ -453,23 +413,8 @@ class BiplotView(ScatterView):
         if rows.size != self.rows.size or not np.array_equal(rows, self.rows):
             self.refresh()  # other rows (a refit dropped or added rows): full redraw
             return
-        self._set_ranges(x, y, tips)
-        self._x, self._y = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
-        pick = self._mark_pos
-        self._updating = True
-        try:
-            with self.scatter.hold_sync():
-                self.scatter.x = self._x[pick].astype(np.float32)
-                self.scatter.y = self._y[pick].astype(np.float32)
-            self._draw_replaced()
-            self._clear_brush()
-            self._clear_vertices()
-        finally:
-            self._updating = False
-        if self.active_mode == "density":
-            self._density_image.set_points(self._x, self._y)
-            in_view = self.model.selected_mask()[self.rows]
-            self._png.value = self._density_image.render(in_view if in_view.any() else None)
+        x_range, y_range = _plane_ranges(x, y, tips)
+        self.move_points(x, y, x_range=x_range, y_range=y_range)
         self._draw_rays(tips)
         self._draw_axes_labels()
         self._draw_bars()
@@ -487,22 +432,24 @@ class BiplotView(ScatterView):
     def _set_ray_names(self) -> None:
         fit = self.biplot
         names = [str(p) for p in fit.parts] if fit is not None else []
-        _assign(self.ray_labels, text=np.array(names, dtype=str))
+        cm.assign_arrays(self.ray_labels, text=np.array(names, dtype=str))
 
     def _draw_rays(self, tips: np.ndarray) -> None:
         D = tips.shape[0]
-        (x0, x1), (y0, y1) = self._ranges
+        (x0, x1), (y0, y1) = self.view_ranges
         offset = _LABEL_OFFSET * max(x1 - x0, y1 - y0)
         labels = core_biplot.ray_label_positions(tips, offset)
         zeros = np.zeros(D)
-        _assign(
+        cm.assign_arrays(
             self.rays,
             x=np.column_stack([zeros, tips[:, 0]]).astype(np.float32),
             y=np.column_stack([zeros, tips[:, 1]]).astype(np.float32),
         )
-        _assign(self.ray_tips, x=tips[:, 0].astype(np.float32), y=tips[:, 1].astype(np.float32))
-        _assign(self.ray_labels, x=labels[:, 0], y=labels[:, 1])
-        _assign(
+        cm.assign_arrays(
+            self.ray_tips, x=tips[:, 0].astype(np.float32), y=tips[:, 1].astype(np.float32)
+        )
+        cm.assign_arrays(self.ray_labels, x=labels[:, 0], y=labels[:, 1])
+        cm.assign_arrays(
             self.axis_cross,
             x=np.array([[x0, x1], [0.0, 0.0]], dtype=np.float32),
             y=np.array([[0.0, 0.0], [y0, y1]], dtype=np.float32),
@@ -523,14 +470,14 @@ class BiplotView(ScatterView):
         fit = self.biplot
         if fit is None:
             if new_fit:
-                _assign(self.variance_bars, x=np.zeros(0, dtype=str), y=np.zeros(0))
+                cm.assign_arrays(self.variance_bars, x=np.zeros(0, dtype=str), y=np.zeros(0))
                 self.variance_note.value = ""
             return
         r = fit.n_components
         if new_fit:
             labels = np.array([str(c + 1) for c in range(r)], dtype=str)
             percent = 100.0 * np.asarray(fit.explained_ratio, dtype=float)
-            _assign(self.variance_bars, x=labels, y=percent)
+            cm.assign_arrays(self.variance_bars, x=labels, y=percent)
             top = float(percent.max()) * 1.1 if percent.size else 100.0
             if self._bar_y.max != top:
                 self._bar_y.max = top
@@ -606,8 +553,10 @@ class BiplotView(ScatterView):
             info = self._association_text(fit, picked[0])
         else:
             info = _HINT
-        _assign(self.link, x=np.asarray(lx, dtype=np.float32), y=np.asarray(ly, dtype=np.float32))
-        _assign(
+        cm.assign_arrays(
+            self.link, x=np.asarray(lx, dtype=np.float32), y=np.asarray(ly, dtype=np.float32)
+        )
+        cm.assign_arrays(
             self.link_label,
             x=np.asarray(tx, dtype=float),
             y=np.asarray(ty, dtype=float),
@@ -707,7 +656,7 @@ class BiplotView(ScatterView):
             lines.append("replaced below detection: " + ", ".join(replaced))
         skip = {self.id_column, m.group_column}
         for column in meta.columns:
-            if len(lines) >= len(self._tooltip_lines):
+            if len(lines) >= self.tooltip_max_lines:
                 break
             if column in skip:
                 continue
@@ -739,22 +688,6 @@ class BiplotView(ScatterView):
             w.close()
 
 
-def _assign(mark, **values) -> None:
-    """Set array traits of ``mark`` in one message, skipping values equal to the current ones."""
-    changed = {}
-    for name, value in values.items():
-        current = getattr(mark, name)
-        if current is None or np.shape(current) != np.shape(value):
-            changed[name] = value
-        elif not np.array_equal(np.asarray(current), np.asarray(value)):
-            changed[name] = value
-    if not changed:
-        return
-    with mark.hold_sync():
-        for name, value in changed.items():
-            setattr(mark, name, value)
-
-
-def _aspect(ranges) -> float:
-    (x0, x1), (y0, y1) = ranges
-    return (x1 - x0) / (y1 - y0)
+def _plane_ranges(x: np.ndarray, y: np.ndarray, tips: np.ndarray):
+    """View ranges of a plane: every point, tip and the origin, with room for the legend."""
+    return core_biplot.plane_limits(np.column_stack([x, y]), tips, right_margin=_LEGEND_ROOM)

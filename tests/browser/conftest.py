@@ -438,38 +438,40 @@ class LabNotebook:
             return true;
             """
         )
+        # the command resolves once the run is over (after the last cell, or at the first error)
         self.wait_js(
             """
             if (!window.__cwRunAll || !window.__cwRunAll.done) return false;
             const kernel = panel.sessionContext.session.kernel;
-            if (kernel.status !== "idle") return false;
-            return panel.content.widgets.every(
-              (c) => c.model.type !== "code" || c.model.executionCount !== null
-                || c.model.sharedModel.getSource().trim() === "");
+            return kernel.status === "idle"
+              && panel.content.widgets.every((c) => c.model.executionState !== "running");
             """,
             timeout=timeout,
-            what=f"every cell of {self.path} to run",
+            what=f"the cells of {self.path} to run",
         )
-        errors = self.js(
+        state = self.js(
             """
-            const out = [];
+            const errors = [], notRun = [];
             panel.content.widgets.forEach((c, i) => {
               if (c.model.type !== "code") return;
+              if (c.model.sharedModel.getSource().trim() === "") return;
+              if (c.model.executionCount === null) notRun.push(i);
               for (const o of c.model.outputs.toJSON()) {
                 if (o.output_type === "error") {
                   const tb = (o.traceback || []).join("\\n");
-                  out.push(`cell ${i}: ${o.ename}: ${o.evalue}\\n${tb}`);
+                  errors.push(`cell ${i}: ${o.ename}: ${o.evalue}\\n${tb}`);
                 }
               }
             });
-            return {errors: out, run: window.__cwRunAll};
+            return {errors, notRun, run: window.__cwRunAll};
             """
         )
-        if errors["errors"] or errors["run"]["ok"] is False:
-            text = (
-                "\n\n".join(_ANSI.sub("", e) for e in errors["errors"]) or errors["run"]["error"]
+        if state["errors"] or state["notRun"] or state["run"]["ok"] is False:
+            text = "\n\n".join(_ANSI.sub("", e) for e in state["errors"])
+            raise AssertionError(
+                f"running {self.path} failed ({state['run']}); cells not run: {state['notRun']}"
+                f"\n{text}"
             )
-            raise AssertionError(f"running {self.path} failed:\n{text}")
         return time.monotonic() - started
 
     # ----------------------------------------------------------------------------- kernel
