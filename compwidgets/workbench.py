@@ -118,11 +118,10 @@ class Workbench(w.AppLayout):
 
         sidebar = w.Tab(children=[self.picker, self.triage])
         sidebar.titles = ("parts", "triage")
-        plots = w.GridBox(
+        # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
+        plots = w.Box(
             children=[*self.ternaries, self.biplot],
-            layout=w.Layout(
-                grid_template_columns="repeat(auto-fill, minmax(420px, 1fr))", grid_gap="8px"
-            ),
+            layout=w.Layout(display="flex", flex_flow="row wrap", grid_gap="8px"),
         )
         super().__init__(
             header=self.selection_bar,

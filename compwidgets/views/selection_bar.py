@@ -21,6 +21,11 @@ import traitlets as t
 __all__ = ["SelectionBar"]
 
 
+def _fit() -> w.Layout:
+    """A button as wide as its label (the default width cuts long labels)."""
+    return w.Layout(width="auto")
+
+
 def _view_name(i: int, view) -> str:
     title = getattr(view, "title", "") or ""
     kind = type(view).__name__
@@ -63,20 +68,20 @@ class SelectionBar(w.VBox):
 
         self.count_label = w.Label(value="")
         self.count_value = w.Label(value="", layout=w.Layout(display="none"))
-        self.clear_button = w.Button(description="Clear selection")
-        self.invert_button = w.Button(description="Invert selection")
+        self.clear_button = w.Button(description="Clear selection", layout=_fit())
+        self.invert_button = w.Button(description="Invert selection", layout=_fit())
         self.clear_button.on_click(capture(lambda _b: self.model.clear_selection()))
         self.invert_button.on_click(capture(lambda _b: self.model.invert_selection()))
 
         self.group_name = w.Text(placeholder="name of the new group column", description="Group")
-        self.group_button = w.Button(description="Make a group from the selection")
+        self.group_button = w.Button(description="Make a group from the selection", layout=_fit())
         self.group_button.on_click(capture(lambda _b: self.make_group(self.group_name.value)))
 
         self.file_name = w.Text(placeholder="file name, e.g. survey_ilr.csv", description="File")
         self.overwrite = w.Checkbox(value=False, description="overwrite an existing file")
-        self.ilr_button = w.Button(description="ilr coordinates (CSV)")
-        self.sbp_button = w.Button(description="SBP (JSON)")
-        self.selected_button = w.Button(description="Selected rows (CSV)")
+        self.ilr_button = w.Button(description="ilr coordinates (CSV)", layout=_fit())
+        self.sbp_button = w.Button(description="SBP (JSON)", layout=_fit())
+        self.selected_button = w.Button(description="Selected rows (CSV)", layout=_fit())
         self.ilr_button.on_click(capture(lambda _b: self.export_ilr()))
         self.sbp_button.on_click(capture(lambda _b: self.export_sbp()))
         self.selected_button.on_click(capture(lambda _b: self.export_selected()))
@@ -85,8 +90,8 @@ class SelectionBar(w.VBox):
             options=[(_view_name(i, v), i) for i, v in enumerate(self.views)],
             description="View",
         )
-        self.png_button = w.Button(description="View as PNG")
-        self.svg_button = w.Button(description="View as SVG")
+        self.png_button = w.Button(description="View as PNG", layout=_fit())
+        self.svg_button = w.Button(description="View as SVG", layout=_fit())
         self.png_button.on_click(
             capture(lambda _b: self.export_view(self.view_select.value, "png"))
         )

@@ -13,14 +13,16 @@ browser tests must run.
 Fixtures
 --------
 lab : LabServer
-    The running server (``url``, ``root``, ``notebook_url(path)``).
+    The running server (``url``, ``root``, ``notebook_url(path, workspace)``, ``stop()``).
 browser : playwright BrowserContext
     A persistent context on a fresh temporary profile.
 open_notebook : callable
     ``open_notebook(path) -> LabNotebook``: opens a notebook of the server root in a new page.
-quick_start : LabNotebook
-    The quick-start notebook, opened and run top to bottom once per test module, with the
-    views rendered (see :func:`quick_start`).
+
+``LabNotebook`` runs all cells (``notebook:run-all-cells``), runs code in the notebook's kernel
+and reads the result back (``execute``, ``kernel_json``), waits for page conditions
+(``wait_js``) and screenshots elements (``screenshot``). The quick-start fixture, which runs the
+notebook once and waits for the views, is in test_workbench.py.
 
 Screenshots go to ``test-artifacts/`` at the repository root (git-ignored).
 """
@@ -527,11 +529,37 @@ class LabNotebook:
         return self.page.locator(f"#{self.js('return panel.id;')} .jp-Notebook")
 
     def screenshot(self, locator, name: str) -> Path:
-        """Screenshot one element into test-artifacts/<name>.png."""
+        """Screenshot one element into test-artifacts/<name>.png.
+
+        The picture covers the element's children and its bqplot figures, also where a figure
+        overflows the element's box (a figure wider than its grid cell is shown whole), and not
+        the empty space of a box stretched by its grid row.
+        """
         ARTIFACTS.mkdir(parents=True, exist_ok=True)
         path = ARTIFACTS / f"{name}.png"
-        locator.scroll_into_view_if_needed()
-        locator.screenshot(path=str(path))
+        locator.evaluate("(el) => el.scrollIntoView({block: 'start', inline: 'nearest'})")
+        box = locator.evaluate(
+            """
+            (el) => {
+              let [x0, y0, x1, y1] = [Infinity, Infinity, -Infinity, -Infinity];
+              const parts = el.children.length ? [...el.children] : [el];
+              for (const e of [...parts, ...el.querySelectorAll(".bqplot.figure")]) {
+                const r = e.getBoundingClientRect();
+                if (r.width === 0 || r.height === 0) continue;
+                x0 = Math.min(x0, r.left); y0 = Math.min(y0, r.top);
+                x1 = Math.max(x1, r.right); y1 = Math.max(y1, r.bottom);
+              }
+              const w = window.innerWidth, h = window.innerHeight;
+              x0 = Math.max(0, x0); y0 = Math.max(0, y0);
+              x1 = Math.min(w, x1); y1 = Math.min(h, y1);
+              return {x: x0, y: y0, width: x1 - x0, height: y1 - y0};
+            }
+            """
+        )
+        if box["width"] >= 1 and box["height"] >= 1:
+            self.page.screenshot(path=str(path), clip=box)
+        else:
+            locator.screenshot(path=str(path))
         return path
 
 
