@@ -46,6 +46,24 @@ def default_group_column(metadata: pd.DataFrame) -> str:
     return min(candidates)[2] if candidates else ""
 
 
+def default_id_column(metadata: pd.DataFrame) -> str:
+    """A metadata column that names each sample ("" when none; then the index does).
+
+    The first text column whose values are all present and unique, preferring
+    names with "id" or "sample" in them.
+    """
+    candidates = []
+    for name in metadata.columns:
+        column = metadata[name]
+        if pd.api.types.is_numeric_dtype(column) or isinstance(column.dtype, pd.CategoricalDtype):
+            continue
+        if column.notna().all() and column.is_unique:
+            label = str(name).lower()
+            rank = 0 if ("id" in label or "sample" in label) else 1
+            candidates.append((rank, len(candidates), str(name)))
+    return min(candidates)[2] if candidates else ""
+
+
 def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[str]]:
     """Triples of active parts that spread the data, one per ternary view.
 
@@ -108,8 +126,11 @@ class Workbench(w.AppLayout):
 
         self.model = model
         triples = ternary_parts or default_ternary_parts(model)
-        self.ternaries = [TernaryView(model, parts=list(p), mode=mode) for p in triples]
-        self.biplot = BiplotView(model, mode=mode)
+        ident = default_id_column(model.metadata)
+        self.ternaries = [
+            TernaryView(model, parts=list(p), mode=mode, id_column=ident) for p in triples
+        ]
+        self.biplot = BiplotView(model, mode=mode, id_column=ident)
         self.builder = BalanceBuilder(model)
         self.picker = SubcompositionPicker(model, ternaries=self.ternaries)
         self.triage = TriagePanel(model)

@@ -605,3 +605,46 @@ def test_close_is_safe_after_a_failed_constructor(model):
     assert half.figure.comm is None and half.scatter.comm is None and half.comm is None
     half.close()  # twice: still fine
     half.__del__()
+
+
+def test_part_names_clear_their_ray_tips_and_bars_have_few_numbers():
+    # 12 parts: 11 components, numbered every second bar; names placed beyond the tips.
+    rng = np.random.default_rng(5)
+    parts = [f"P{i}" for i in range(11)] + ["LongPartName"]
+    df = pd.DataFrame(np.exp(rng.normal(0.0, 0.6, size=(80, 12))), columns=parts)
+    v = BiplotView(CompositionModel(read_composition(df, check_total=False)))
+    try:
+        (x0, x1), (y0, y1) = v.view_ranges
+        px = v._plot_height_px() / (y1 - y0)  # pixels per data unit (equal aspect)
+        tips = np.column_stack([v.ray_tips.x, v.ray_tips.y]).astype(float) * px
+        labels = np.column_stack([v.ray_labels.x, v.ray_labels.y]).astype(float) * px
+        for name, tip, label in zip(v.ray_labels.text, tips, labels, strict=True):
+            half_w, half_h = len(str(name)) * 7.0 / 2, 7.0
+            dx, dy = np.abs(tip - label)
+            assert dx >= half_w or dy >= half_h, name  # the tip is outside the name's box
+        assert list(v._bar_axes[0].tick_values) == [1, 3, 5, 7, 9, 11]
+        assert (v._bar_x.min, v._bar_x.max) == (0.5, 11.5)
+        # the legend's room is on the right of every tip and label
+        legend_x = v._legend_anchor()[0]
+        assert np.max(v.ray_labels.x) + 7.0 * len("LongPartName") / 2 / px < legend_x
+    finally:
+        v.close()
+
+
+@pytest.mark.parametrize("scaling", ["covariance", "form"])
+def test_every_plane_fits_its_points_and_keeps_the_figure_narrow(model, scaling):
+    v = BiplotView(model, scaling=scaling)
+    try:
+        for components in [(0, 1), (0, 2), (1, 2)]:
+            v.components = components
+            (x0, x1), (y0, y1) = v.view_ranges
+            assert (x1 - x0) / (y1 - y0) <= 1.6 + 1e-9
+            legend_x = v._legend_anchor()[0]
+            for xs, ys in ((v.scatter.x, v.scatter.y), (v.ray_tips.x, v.ray_tips.y)):
+                xs, ys = np.asarray(xs, float), np.asarray(ys, float)
+                assert xs.min() >= x0 and xs.max() < legend_x
+                assert ys.min() >= y0 and ys.max() <= y1
+            width = int(v.figure.layout.width.removesuffix("px"))
+            assert width <= 1.6 * v.height_px
+    finally:
+        v.close()

@@ -267,7 +267,11 @@ def test_density_mode_rectangle_selects_like_core_geometry(big_model, monkeypatc
     np.testing.assert_array_equal(big_model.selection, ref)
     assert view._png.value != before  # the selection layer was redrawn
     keys = {k for _, m in sent for k in m.get("state", {})}
-    assert keys <= {"selected", "value", "selected_x", "selected_y", "brushing"}, keys
+    # "image": bqplot's Image mark shows a new picture only when its image widget is
+    # replaced (checked in Chromium); only the density marks may send it
+    assert keys <= {"selected", "value", "selected_x", "selected_y", "brushing", "image"}, keys
+    image_senders = {id(w) for w, m in sent if "image" in m.get("state", {})}
+    assert image_senders and image_senders <= {id(view.density), id(other.density)}
     # the subsample highlights exactly its selected rows
     np.testing.assert_array_equal(
         np.sort(shown_selected(other)), np.intersect1d(other._mark_rows, big_model.selection)
@@ -524,3 +528,106 @@ def test_tool_buttons_and_mode_switches(model):
     v.tool = "lasso"
     v.mode = "density"
     assert v.tool == "polygon" and v._tool_buttons.value == "polygon"
+
+
+# ------------------------------------------------- colours, legend and clicks seen in a browser
+
+
+def test_colour_values_are_sent_before_the_colour_scale(model, monkeypatch):
+    # In Chromium, bqplot repaints the points of a changed colour scale in a transition run
+    # at the next frame: colour values sent after the scale were painted with the old
+    # values. The view sends the values first.
+    v = TernaryView(model, ["A", "B", "C"])
+    model.set_sbp([[1, 1, -1, -1, -1], [1, -1, 0, 0, 0], [0, 0, 1, -1, -1], [0, 0, 0, 1, -1]])
+    sent = []
+    original = widgets.Widget._send
+
+    def spy(widget, msg, buffers=None):
+        sent.append((widget, set(msg.get("state", {}))))
+        return original(widget, msg, buffers)
+
+    monkeypatch.setattr(widgets.Widget, "_send", spy)
+    model.colour_by = model.balance_names[0]
+    order = [
+        "values" if w is v.scatter and "color" in keys else "scale"
+        for w, keys in sent
+        if (w is v.scatter and "color" in keys) or w is v.colour_scale
+    ]
+    assert order[0] == "values" and "scale" in order, order
+
+
+def test_rows_without_a_balance_value_are_grey(frame):
+    frame.loc["S00005", "D"] = np.nan  # complete in A, B, C, but no balance A,B | C,D,E
+    m = CompositionModel(read_composition(frame, check_total=False), group_column="site")
+    v = TernaryView(m, ["A", "B", "C"])
+    m.set_sbp([[1, 1, -1, -1, -1], [1, -1, 0, 0, 0], [0, 0, 1, -1, -1], [0, 0, 0, 1, -1]])
+    m.colour_by = m.balance_names[0]
+    values = m.balance_values(m.balance_names[0])
+    row = int(np.flatnonzero(m.index == "S00005")[0])
+    pos = int(np.flatnonzero(v._mark_rows == row)[0])
+    colour = np.asarray(v.scatter.color)
+    assert np.all(np.isfinite(colour))  # the browser draws NaN black
+    limit = float(np.nanmax(np.abs(values[v.rows])))
+    # evenly spaced colours from min to max: grey at -2L, then the balance scale -L, 0, +L
+    assert list(v.colour_scale.colors) == [_common.NO_GROUP_COLOUR, *_common.BALANCE_COLOURS]
+    assert v.colour_scale.min == pytest.approx(-2 * limit)
+    assert v.colour_scale.max == pytest.approx(limit)
+    assert colour[pos] == pytest.approx(-2 * limit)
+    others = np.delete(np.arange(colour.size), pos)
+    np.testing.assert_allclose(colour[others], values[v._mark_rows[others]], rtol=1e-6)
+    assert "(undefined)" in list(v._legend_text.text)
+
+
+def test_legend_text_is_shortened_to_the_room_it_has(frame):
+    long_name = "a catchment with a rather long name indeed"
+    frame["site"] = [long_name] * 150 + ["short"] * 150
+    m = CompositionModel(read_composition(frame, check_total=False), group_column="site")
+    v = TernaryView(m, ["A", "B", "C"])
+    text = list(v._legend_text.text)
+    budget = v._legend_max_chars()
+    assert 10 <= budget < len(long_name)
+    assert long_name not in text and long_name[: budget - 1] + "\u2026" in text
+    assert "short" in text
+    assert all(len(t) <= budget for t in text)
+    # the tooltip keeps the whole name
+    pos = int(np.flatnonzero(m.group_codes()[1][v._mark_rows] == 0)[0])
+    v._on_hover(v.scatter, {"event": "hover", "data": {"index": pos}})
+    assert v._tooltip_lines[1].value == f"site: {long_name}"
+
+
+def test_polygon_click_on_a_point_adds_a_vertex_there(model):
+    v = TernaryView(model, ["A", "B", "C"])
+    click = {"event": "element_click", "data": {"x": 0.31, "y": 0.22, "index": 4}}
+    v.scatter._handle_custom_msgs(None, click)
+    assert len(v.polygon_marker.x) == 0  # rectangle tool: a click on a point adds nothing
+    v.tool = "polygon"
+    v.scatter._handle_custom_msgs(None, click)
+    v.replaced_marker._handle_custom_msgs(
+        None, {"event": "element_click", "data": {"x": 0.6, "y": 0.1}}
+    )
+    np.testing.assert_allclose(v.polygon_marker.x, [0.31, 0.6])
+    np.testing.assert_allclose(v.polygon_marker.y, [0.22, 0.1])
+
+
+def test_tool_buttons_have_one_tooltip_per_button(model):
+    v = TernaryView(model, ["A", "B", "C"])
+    assert len(v._tool_buttons.tooltips) == len(v._tool_buttons.options) == 4
+    assert "hover" in v._tool_buttons.tooltips[-1]
+    v.mode = "density"
+    assert len(v._tool_buttons.tooltips) == len(v._tool_buttons.options) == 3
+
+
+def test_density_picture_is_a_new_image_widget_each_time(big_model):
+    # bqplot's Image mark redraws only when its image widget is replaced (seen in Chromium)
+    big_model.clear_selection()
+    view = TernaryView(big_model, ["A", "B", "C"], mode="density")
+    first = view.density.image
+    assert first is view._png
+    view.select_rectangle((0.0, 1.0), (0.0, 0.2))
+    assert view.density.image is view._png and view.density.image is not first
+    assert first.comm is None  # the replaced picture was closed
+    second = view.density.image
+    big_model.select(big_model.selection)  # the same selection: the same picture, nothing sent
+    assert view.density.image is second and second.comm is not None
+    view.close()
+    assert second.comm is None

@@ -8,7 +8,11 @@ import pytest
 import compwidgets as cw
 from compwidgets import core
 from compwidgets.core.ternary import ternary_to_xy
-from compwidgets.workbench import default_group_column, default_ternary_parts
+from compwidgets.workbench import (
+    default_group_column,
+    default_id_column,
+    default_ternary_parts,
+)
 
 
 @pytest.fixture(scope="module")
@@ -45,6 +49,13 @@ def test_grouping_column_defaults_to_a_categorical_metadata_column(table, bench)
     )
     assert default_group_column(meta) == "site"
     assert default_group_column(meta[["id", "depth"]]) == ""
+    assert default_id_column(meta) == "id"
+    assert default_id_column(meta[["depth", "site"]]) == ""
+
+
+def test_hover_names_samples_by_their_id_column(bench):
+    assert bench.model.metadata["sample_id"].is_unique
+    assert all(v.id_column == "sample_id" for v in (*bench.ternaries, bench.biplot))
 
 
 def test_default_ternaries_show_the_most_variable_pair_among_major_parts(bench):

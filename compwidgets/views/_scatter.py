@@ -46,9 +46,20 @@ __all__ = ["ScatterView"]
 _EMPTY_ROWS = np.zeros(0, dtype=np.uint32)
 
 _TOOL_LABELS = {"brush": "Rectangle", "lasso": "Lasso", "polygon": "Polygon", "none": "Off"}
+#: Tooltips of the tool buttons (the browser cannot hover points under a drag tool).
+_TOOL_TIPS = {
+    "brush": "Drag a rectangle to select the points inside",
+    "lasso": "Draw around points to select them",
+    "polygon": "Click vertices, then 'Close polygon' to select inside; points can be hovered",
+    "none": "No selection tool: hover a point to see its values",
+}
 _MODE_LABELS = {"replace": "new", "add": "add", "remove": "remove", "intersect": "intersect"}
 #: Legend titles start this share of the x range left of the swatches.
 _LEGEND_TITLE_INDENT = 0.0125
+#: Width of one character of legend text (bold, 12 px) allowed for, in pixels, and the
+#: pixels between a swatch and the start of its text (bqplot Label x_offset) plus a gap.
+_LEGEND_CHAR_PX = 7.0
+_LEGEND_TEXT_START_PX = 14
 
 
 def _same(a, b) -> bool:
@@ -89,7 +100,9 @@ class ScatterView(widgets.VBox):
     scatter : bqplot.Scatter
         The points (all rows in points mode, the subsample in density mode).
     density : bqplot.Image
-        The density image (visible in density mode).
+        The density image (visible in density mode). Each new picture is a new
+        ``ipywidgets.Image`` in its ``image`` trait: bqplot redraws the mark
+        when that widget is replaced, not when its value changes.
     brush : bqplot.interacts.BrushSelector
     lasso : bqplot.interacts.LassoSelector
     polygon_marker : bqplot.Scatter
@@ -122,14 +135,17 @@ class ScatterView(widgets.VBox):
     may override ``_density_extent``, ``_build_marks``, ``_refresh_extra``,
     ``_hover_lines``, ``_legend_anchor`` and ``_on_parts_source_changed``;
     may set the class attributes ``figure_margin`` (pixels around the plot
-    area, e.g. room for axes), ``density_pixels``, ``legend_max`` and
-    ``tooltip_max_lines``; and may use these protected members:
+    area, e.g. room for axes), ``density_pixels``, ``legend_max``,
+    ``legend_width_px`` and ``tooltip_max_lines``; and may use these
+    protected members:
 
     * ``_start()``: connect to the model and draw; called once at the end of
       the subclass's ``__init__``;
     * ``_guard(func)``: wrap a widget callback so its errors reach the view's
       ``messages`` output and it does nothing once the view is closed;
     * ``_set_note(key, text)``: one of the notes joined in the ``notes`` line;
+    * ``_plot_height_px()``: height of the plot area in pixels (to turn pixel
+      sizes, e.g. of text, into data units: the aspect is equal);
     * ``_ready`` (True once ``_start`` ran) and ``_closed`` (True once closed,
       or before the base was constructed): read only.
 
@@ -149,6 +165,9 @@ class ScatterView(widgets.VBox):
     legend_max = 12
     #: Text lines of the hover tooltip.
     tooltip_max_lines = 6
+    #: Pixels of legend text a subclass reserves on the right of its data (longer text
+    #: is shortened with an ellipsis to the room the legend really has).
+    legend_width_px = 160
     #: Pixels between the figure's edges and its plot area (room for axes, if any).
     figure_margin: dict = {"top": 10, "bottom": 10, "left": 10, "right": 10}
 
@@ -251,7 +270,10 @@ class ScatterView(widgets.VBox):
         )
         self.density.on_element_click(self._guard(self._on_image_click))
 
-        self._tooltip_lines = [widgets.Label() for _ in range(int(self.tooltip_max_lines))]
+        self._tooltip_lines = [
+            widgets.Label(layout=widgets.Layout(height="20px", margin="0px"))
+            for _ in range(int(self.tooltip_max_lines))
+        ]
         self.hover_box = widgets.VBox(
             self._tooltip_lines, layout=widgets.Layout(padding="2px 6px")
         )
@@ -266,6 +288,8 @@ class ScatterView(widgets.VBox):
             **cm.POINT_STYLE,
         )
         self.scatter.on_hover(self._guard(self._on_hover))
+        # points cover the background: a click on one adds a polygon vertex at the point
+        self.scatter.on_element_click(self._guard(self._on_point_click))
         self.replaced_marker = bq.Scatter(
             x=np.zeros(0, np.float32),
             y=np.zeros(0, np.float32),
@@ -274,6 +298,7 @@ class ScatterView(widgets.VBox):
             enable_hover=False,
             **cm.REPLACED_MARKER,
         )
+        self.replaced_marker.on_element_click(self._guard(self._on_point_click))
         self._legend_swatches = bq.Scatter(
             x=np.zeros(0), y=np.zeros(0), scales=xy, marker="square", default_size=60,
             interactions={}, enable_hover=False, colors=[cm.SINGLE_COLOUR],
@@ -322,12 +347,15 @@ class ScatterView(widgets.VBox):
         self.figure = bq.Figure(
             marks=marks, axes=[], scale_x=self.scale_x, scale_y=self.scale_y,
             fig_margin=dict(self.figure_margin), padding_x=0.0, padding_y=0.0,
-            animation_duration=0,
+            animation_duration=0, display_toolbar=False,
         )  # fmt: skip
         self._size_figure()
 
         self._tool_buttons = widgets.ToggleButtons(
-            options=self._tool_options("points"), value="brush", style={"button_width": "80px"}
+            options=self._tool_options("points"),
+            tooltips=self._tool_tips("points"),
+            value="brush",
+            style={"button_width": "92px"},
         )
         self._tool_buttons.observe(self._guard(self._on_tool_button), names=["value"])
         self._mode_dropdown = widgets.Dropdown(
@@ -362,7 +390,7 @@ class ScatterView(widgets.VBox):
         """Fix the figure's size so one data unit is as long in x as in y (equal aspect)."""
         (x0, x1), (y0, y1) = self._ranges
         m = self.figure.fig_margin
-        plot_h = self.height_px - m["top"] - m["bottom"]
+        plot_h = self._plot_height_px()
         plot_w = plot_h * (x1 - x0) / (y1 - y0)
         width = int(round(plot_w + m["left"] + m["right"]))
         ratio = width / self.height_px
@@ -467,13 +495,19 @@ class ScatterView(widgets.VBox):
         )
         return [(_TOOL_LABELS[k], k) for k in keys]
 
+    @classmethod
+    def _tool_tips(cls, mode: str) -> list[str]:
+        return [_TOOL_TIPS[k] for _, k in cls._tool_options(mode)]
+
     def _apply_tool(self) -> None:
         tool = self.tool
         options = self._tool_options(self.active_mode)
         self._syncing_buttons = True  # new options reset the buttons' value: not a user choice
         try:
             if [v for _, v in self._tool_buttons.options] != [v for _, v in options]:
-                self._tool_buttons.options = options
+                with self._tool_buttons.hold_sync():
+                    self._tool_buttons.options = options
+                    self._tool_buttons.tooltips = self._tool_tips(self.active_mode)
             if self._tool_buttons.value != tool:
                 self._tool_buttons.value = tool
         finally:
@@ -667,6 +701,13 @@ class ScatterView(widgets.VBox):
                 (cm.BALANCE_COLOURS[1], "0"),
                 (cm.BALANCE_COLOURS[0], f"-{cm.format_number(limit)}"),
             ]
+            undefined = ~np.isfinite(colour)
+            if undefined.any():
+                # the browser draws NaN black: such rows get a value below every balance
+                # value, where the scale (evenly spaced colours from lo) is grey
+                colours, lo = [cm.NO_GROUP_COLOUR, *colours], -2.0 * limit
+                colour = np.where(undefined, np.float32(lo), colour).astype(np.float32)
+                entries.append((cm.NO_GROUP_COLOUR, "(undefined)"))
         elif m.group_column:
             categories, codes = m.group_codes()
             palette = cm.group_colours(categories)
@@ -690,6 +731,11 @@ class ScatterView(widgets.VBox):
             entries += listed
         else:
             colours, lo, hi, colour = [cm.SINGLE_COLOUR, cm.SINGLE_COLOUR], 0, 1, None
+        # The values first, then the scale: bqplot recolours the points on a scale change in
+        # a transition scheduled for the next frame, which would repaint values sent after
+        # it with the old values (seen in Chromium: points kept their group colours).
+        if not _same(self.scatter.color, colour):
+            self.scatter.color = colour
         with self.colour_scale.hold_sync():
             if list(self.colour_scale.colors) != colours:
                 self.colour_scale.colors = colours
@@ -697,8 +743,6 @@ class ScatterView(widgets.VBox):
                 self.colour_scale.min = float(lo)
             if self.colour_scale.max != hi:
                 self.colour_scale.max = float(hi)
-        if not _same(self.scatter.color, colour):
-            self.scatter.color = colour
         self._draw_legend(entries)
 
     def _draw_legend(self, entries: list[tuple[str | None, str]]) -> None:
@@ -710,10 +754,25 @@ class ScatterView(widgets.VBox):
             self._legend_swatches.x = sx
             self._legend_swatches.y = sy
             self._legend_swatches.colors = colours
+        n = self._legend_max_chars()
+        text = [label if len(label) <= n else label[: n - 1] + "\u2026" for _, label in entries]
         with self._legend_text.hold_sync():
             self._legend_text.x = tx
             self._legend_text.y = ty
-            self._legend_text.text = np.array([label for _, label in entries], dtype=str)
+            self._legend_text.text = np.array(text, dtype=str)
+
+    def _plot_height_px(self) -> float:
+        """Height of the plot area in pixels (the figure's height less its margins)."""
+        fig = getattr(self, "figure", None)
+        m = fig.fig_margin if fig is not None else self.figure_margin
+        return float(self.height_px - m["top"] - m["bottom"])
+
+    def _legend_max_chars(self) -> int:
+        """Characters of legend text that fit between the legend's anchor and the right edge."""
+        x, _, _ = self._legend_anchor()
+        (x0, x1), (y0, y1) = self._ranges
+        room = (x1 - x) * self._plot_height_px() / (y1 - y0) - _LEGEND_TEXT_START_PX
+        return max(4, int(room // _LEGEND_CHAR_PX))
 
     def _legend_positions(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """(swatch x, swatch y, text x, text y) of the legend entries at the current anchor."""
@@ -746,7 +805,15 @@ class ScatterView(widgets.VBox):
         if mask is None:
             mask = self.model.selected_mask()
         in_view = mask[self.rows]
-        self._png.value = self._density_image.render(in_view if in_view.any() else None)
+        png = self._density_image.render(in_view if in_view.any() else None)
+        old = self._png
+        if png == old.value:
+            return
+        # bqplot's Image mark redraws when its ``image`` widget is replaced, not when the
+        # widget's value changes (seen in Chromium): each new picture is a new widget
+        self._png = widgets.Image(value=png, format="png")
+        self.density.image = self._png
+        old.close()
 
     def _set_mark_selected(self, pos) -> None:
         if _same(self.scatter.selected, pos):
@@ -880,6 +947,20 @@ class ScatterView(widgets.VBox):
             self._polygon_line.x = xs
             self._polygon_line.y = ys
 
+    def _on_point_click(self, mark, content) -> None:
+        """A click on a point with the polygon tool adds a vertex at that point."""
+        if self.tool != "polygon":
+            return
+        data = content.get("data") or {}
+        if "x" not in data or "y" not in data:
+            return
+        self._add_vertex(float(data["x"]), float(data["y"]))
+
+    def _add_vertex(self, x: float, y: float) -> None:
+        with self.polygon_marker.hold_sync():
+            self.polygon_marker.x = np.append(self.polygon_marker.x, x)
+            self.polygon_marker.y = np.append(self.polygon_marker.y, y)
+
     def _on_image_click(self, mark, content) -> None:
         """A click on the density image adds a polygon vertex (the image hides the background)."""
         if self.tool != "polygon":
@@ -887,9 +968,7 @@ class ScatterView(widgets.VBox):
         data = content.get("data") or {}
         if "click_x" not in data or "click_y" not in data:
             return
-        with self.polygon_marker.hold_sync():
-            self.polygon_marker.x = np.append(self.polygon_marker.x, float(data["click_x"]))
-            self.polygon_marker.y = np.append(self.polygon_marker.y, float(data["click_y"]))
+        self._add_vertex(float(data["click_x"]), float(data["click_y"]))
 
     def _on_hover(self, mark, content) -> None:
         point = content.get("point") or content.get("data") or {}

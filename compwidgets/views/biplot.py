@@ -42,10 +42,17 @@ RAY_COLOUR = "#4a4a4a"
 PICKED_COLOUR = "#c0561e"
 AXIS_CROSS_COLOUR = "#b4b4b4"
 
-#: Share of the x span added on the right for the legend.
-_LEGEND_ROOM = 0.32
-#: Distance of a part name beyond its ray tip, as a share of the larger span.
-_LABEL_OFFSET = 0.035
+#: Pixels between the data (and ray labels) and the legend on the right.
+_LEGEND_GAP_PX = 12
+#: Widest plot area, as a multiple of its height (legend included).
+_MAX_ASPECT = 1.6
+#: Pixels between a ray tip and the box of its part name, and the size of one character
+#: of a part name (bold, 12 px) allowed for.
+_LABEL_GAP_PX = 4.0
+_LABEL_CHAR_PX = 7.0
+_LABEL_HALF_HEIGHT_PX = 7.0
+#: Most component numbers written under the variance bars (every k-th beyond).
+_BAR_TICKS = 8
 #: Components offered in the plane menu (pairs among the first few).
 _MENU_COMPONENTS = 3
 #: Parts listed on each side of a ray's associations.
@@ -275,14 +282,15 @@ class BiplotView(ScatterView):
 
     def _legend_anchor(self):
         (x0, x1), (y0, y1) = self.view_ranges
-        w, h = x1 - x0, y1 - y0
-        return x1 - 0.95 * _LEGEND_ROOM / (1 + _LEGEND_ROOM) * w, y1 - 0.05 * h, 0.05 * h
+        h = y1 - y0
+        room = self.legend_width_px * h / self._plot_height_px()
+        return x1 - room, y1 - 0.05 * h, 0.05 * h
 
     def _coordinates(self):
         if self._fit_parts != list(self.model.active_parts):
             self._fit_model()
         rows, x, y, tips = self._plane_coords()
-        self.set_view_ranges(*_plane_ranges(x, y, tips))
+        self.set_view_ranges(*self._plane_ranges(x, y, tips))
         note = self._fit_error
         if not note and self._n_components() == 1:
             note = (
@@ -356,14 +364,15 @@ class BiplotView(ScatterView):
         )  # fmt: skip
         self.figure.axes = [self.axis_x, self.axis_y]
 
-        self._bar_x = bq.OrdinalScale()
+        # components 1..r at integer positions (a linear scale: its axis can skip numbers)
+        self._bar_x = bq.LinearScale(min=0.5, max=1.5, allow_padding=False)
         self._bar_y = bq.LinearScale(min=0.0)
         self.variance_bars = bq.Bars(
             x=np.zeros(0), y=np.zeros(0), scales={"x": self._bar_x, "y": self._bar_y},
             colors=[cm.GRID_COLOUR], padding=0.2, interactions={}, enable_hover=False,
         )  # fmt: skip
         self._bar_axes = [
-            bq.Axis(scale=self._bar_x, label="component", side="bottom"),
+            bq.Axis(scale=self._bar_x, label="component", side="bottom", tick_format="d"),
             bq.Axis(
                 scale=self._bar_y, side="left", label="% of total variance",
                 tick_format=".0f", label_offset="32px",
@@ -379,7 +388,9 @@ class BiplotView(ScatterView):
             options=[("covariance", "covariance"), ("form", "form")],
             value=self.scaling,
             description="scaling",
-            style={"button_width": "90px"},
+            style={"button_width": "104px"},
+            # a flex box keeps the description on the buttons' line
+            layout=widgets.Layout(display="flex", align_items="center"),
         )
         self._scaling_buttons.observe(self._guard(self._on_scaling_button), names=["value"])
         self._plane_menu = widgets.Dropdown(
@@ -413,12 +424,27 @@ class BiplotView(ScatterView):
         if rows.size != self.rows.size or not np.array_equal(rows, self.rows):
             self.refresh()  # other rows (a refit dropped or added rows): full redraw
             return
-        x_range, y_range = _plane_ranges(x, y, tips)
+        x_range, y_range = self._plane_ranges(x, y, tips)
         self.move_points(x, y, x_range=x_range, y_range=y_range)
         self._draw_rays(tips)
         self._draw_axes_labels()
         self._draw_bars()
         self._draw_picks()
+
+    def _plane_ranges(self, x: np.ndarray, y: np.ndarray, tips: np.ndarray):
+        """View ranges of a plane: every point, tip and the origin, then the legend's room.
+
+        The figure keeps an equal aspect at a fixed height, so a wide plane is given a
+        taller y range rather than a figure wider than ``_MAX_ASPECT`` times its height.
+        """
+        (x0, x1), (y0, y1) = core_biplot.plane_limits(np.column_stack([x, y]), tips)
+        legend = (self.legend_width_px + _LEGEND_GAP_PX) / self._plot_height_px()
+        # width / height = (x span + legend * y span) / y span <= _MAX_ASPECT
+        tall = (x1 - x0) / (_MAX_ASPECT - legend)
+        if tall > y1 - y0:
+            mid = (y0 + y1) / 2
+            y0, y1 = mid - tall / 2, mid + tall / 2
+        return (x0, x1 + legend * (y1 - y0)), (y0, y1)
 
     def _refresh_extra(self) -> None:
         _, _, _, tips = self._plane_coords()
@@ -437,8 +463,15 @@ class BiplotView(ScatterView):
     def _draw_rays(self, tips: np.ndarray) -> None:
         D = tips.shape[0]
         (x0, x1), (y0, y1) = self.view_ranges
-        offset = _LABEL_OFFSET * max(x1 - x0, y1 - y0)
-        labels = core_biplot.ray_label_positions(tips, offset)
+        # each name's box (centred on its position) just clears the tip, along the ray
+        unit = core_biplot.ray_label_positions(tips, 1.0) - tips
+        half_w = np.zeros(D)
+        for i, name in enumerate(list(self.ray_labels.text)[:D]):
+            half_w[i] = len(str(name)) * _LABEL_CHAR_PX / 2
+        reach_px = _LABEL_GAP_PX + half_w * np.abs(unit[:, 0])
+        reach_px += _LABEL_HALF_HEIGHT_PX * np.abs(unit[:, 1])
+        labels = tips + unit * (reach_px * (y1 - y0) / self._plot_height_px())[:, None]
+        legend_x = self._legend_anchor()[0] - 0.02 * (x1 - x0)
         zeros = np.zeros(D)
         cm.assign_arrays(
             self.rays,
@@ -451,7 +484,7 @@ class BiplotView(ScatterView):
         cm.assign_arrays(self.ray_labels, x=labels[:, 0], y=labels[:, 1])
         cm.assign_arrays(
             self.axis_cross,
-            x=np.array([[x0, x1], [0.0, 0.0]], dtype=np.float32),
+            x=np.array([[x0, legend_x], [0.0, 0.0]], dtype=np.float32),
             y=np.array([[0.0, 0.0], [y0, y1]], dtype=np.float32),
         )
 
@@ -470,14 +503,18 @@ class BiplotView(ScatterView):
         fit = self.biplot
         if fit is None:
             if new_fit:
-                cm.assign_arrays(self.variance_bars, x=np.zeros(0, dtype=str), y=np.zeros(0))
+                cm.assign_arrays(self.variance_bars, x=np.zeros(0), y=np.zeros(0))
                 self.variance_note.value = ""
             return
         r = fit.n_components
         if new_fit:
-            labels = np.array([str(c + 1) for c in range(r)], dtype=str)
+            numbers = np.arange(1, r + 1, dtype=float)
             percent = 100.0 * np.asarray(fit.explained_ratio, dtype=float)
-            cm.assign_arrays(self.variance_bars, x=labels, y=percent)
+            step = -(-r // _BAR_TICKS)  # ceil: at most _BAR_TICKS numbers under the bars
+            cm.assign_arrays(self._bar_axes[0], tick_values=numbers[::step])
+            with self._bar_x.hold_sync():
+                self._bar_x.min, self._bar_x.max = 0.5, r + 0.5
+            cm.assign_arrays(self.variance_bars, x=numbers, y=percent)
             top = float(percent.max()) * 1.1 if percent.size else 100.0
             if self._bar_y.max != top:
                 self._bar_y.max = top
@@ -686,8 +723,3 @@ class BiplotView(ScatterView):
         super().close()
         for w in owned:
             w.close()
-
-
-def _plane_ranges(x: np.ndarray, y: np.ndarray, tips: np.ndarray):
-    """View ranges of a plane: every point, tip and the origin, with room for the legend."""
-    return core_biplot.plane_limits(np.column_stack([x, y]), tips, right_margin=_LEGEND_ROOM)

@@ -34,7 +34,7 @@ H = core_ternary.HEIGHT
 #: Offset of tick labels from the frame, and of vertex labels from the vertices (data units).
 _TICK_OFFSET = 0.035
 #: Scale ranges: the triangle with room for labels, plus a legend strip on the right.
-_X_RANGE = (-0.13, 1.50)
+_X_RANGE = (-0.13, 1.55)
 _Y_RANGE = (-0.15, H + 0.09)
 
 
