@@ -133,7 +133,8 @@ class ScatterView(widgets.VBox):
       through :meth:`set_view_ranges`);
 
     may override ``_density_extent``, ``_build_marks``, ``_refresh_extra``,
-    ``_hover_lines``, ``_legend_anchor`` and ``_on_parts_source_changed``;
+    ``_hover_lines`` (starting from ``_hover_heading(row)``: sample id and
+    group), ``_legend_anchor`` and ``_on_parts_source_changed``;
     may set the class attributes ``figure_margin`` (pixels around the plot
     area, e.g. room for axes), ``density_pixels``, ``legend_max``,
     ``legend_width_px`` and ``tooltip_max_lines``; and may use these
@@ -158,6 +159,8 @@ class ScatterView(widgets.VBox):
     seed = t.Int(0)
     tool = t.Enum(("brush", "lasso", "polygon", "none"), default_value="brush")
     select_mode = t.Enum(("replace", "add", "remove", "intersect"), default_value="replace")
+    #: Metadata column naming the samples in tooltips ("" = the index label).
+    id_column = t.Unicode("")
 
     #: Pixels of the density image along x (y follows the aspect of the extent).
     density_pixels = 240
@@ -240,7 +243,30 @@ class ScatterView(widgets.VBox):
 
     def _hover_lines(self, row: int) -> list[str]:
         """Text lines of the tooltip of model row ``row`` (``tooltip_max_lines`` are shown)."""
-        return [str(self.model.index[row])]
+        return self._hover_heading(row)
+
+    def _hover_heading(self, row: int) -> list[str]:
+        """The first tooltip lines of a row: its sample id, then its group (if any)."""
+        m = self.model
+        if self.id_column:
+            lines = [str(m.metadata[self.id_column].iloc[row])]
+        else:
+            lines = [str(m.index[row])]
+        if m.group_column:
+            categories, codes = m.group_codes()
+            code = int(codes[row])
+            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
+        return lines
+
+    @t.validate("id_column")
+    def _check_id_column(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.model.metadata.columns:
+            raise t.TraitError(
+                f"unknown id column {name!r}; metadata columns: "
+                f"{', '.join(map(str, self.model.metadata.columns))}"
+            )
+        return name
 
     def _legend_anchor(self) -> tuple[float, float, float]:
         """(x, y of the first entry, step down) of the legend, in data coordinates."""

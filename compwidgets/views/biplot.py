@@ -117,7 +117,6 @@ class BiplotView(ScatterView):
     scaling = t.Enum(core_biplot.SCALINGS, default_value="covariance")
     components = t.Tuple(t.Int(), t.Int(), default_value=(0, 1))
     picked_parts = t.List(t.Unicode())
-    id_column = t.Unicode("")
 
     def __init__(
         self,
@@ -247,16 +246,6 @@ class BiplotView(ScatterView):
                 f"({', '.join(shown)})"
             )
         return parts
-
-    @t.validate("id_column")
-    def _check_id_column(self, proposal):
-        name = proposal["value"]
-        if name and name not in self.model.metadata.columns:
-            raise t.TraitError(
-                f"unknown id column {name!r}; metadata columns: "
-                f"{', '.join(map(str, self.model.metadata.columns))}"
-            )
-        return name
 
     @t.observe("scaling", "components")
     def _on_plane_traits(self, change):
@@ -675,15 +664,7 @@ class BiplotView(ScatterView):
     def _hover_lines(self, row: int) -> list[str]:
         m = self.model
         meta = m.metadata
-        if self.id_column:
-            ident = str(meta[self.id_column].iloc[row])
-        else:
-            ident = str(m.index[row])
-        lines = [ident]
-        if m.group_column:
-            categories, codes = m.group_codes()
-            code = int(codes[row])
-            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
+        lines = self._hover_heading(row)
         replaced = [
             p
             for p in self.shown_parts()

@@ -79,7 +79,6 @@ class TernaryView(ScatterView):
     probability_levels = t.List(t.Float())
     confidence_level = t.Float(None, allow_none=True)
     compositional_line = t.Any(None, allow_none=True)
-    id_column = t.Unicode("")
 
     def __init__(
         self,
@@ -156,16 +155,6 @@ class TernaryView(ScatterView):
         if value is not None and not 0.0 < value < 1.0:
             raise t.TraitError(f"confidence_level must be None or in (0, 1), got {value!r}")
         return value
-
-    @t.validate("id_column")
-    def _check_id_column(self, proposal):
-        name = proposal["value"]
-        if name and name not in self.model.metadata.columns:
-            raise t.TraitError(
-                f"unknown id column {name!r}; metadata columns: "
-                f"{', '.join(map(str, self.model.metadata.columns))}"
-            )
-        return name
 
     @t.validate("compositional_line")
     def _check_line(self, proposal):
@@ -458,15 +447,7 @@ class TernaryView(ScatterView):
     def _hover_lines(self, row: int) -> list[str]:
         m = self.model
         comp = m.composition
-        if self.id_column:
-            ident = str(m.metadata[self.id_column].iloc[row])
-        else:
-            ident = str(m.index[row])
-        lines = [ident]
-        if m.group_column:
-            categories, codes = m.group_codes()
-            code = int(codes[row])
-            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
+        lines = self._hover_heading(row)
         parts = list(self.parts)
         closed = np.asarray(m.closed(parts))[row]
         values = m.part_values(parts)[row]
