@@ -9,8 +9,10 @@ Run:  .venv/bin/python benchmarks/bench_selection.py [--rows 1000000] [--repeat 
    projected points on the same grid, measured in the same run.
 2. Bytes sent to the front end for one selection change, at 2,000 rows
    (points mode) and at the large size (density mode): every comm message is
-   recorded by wrapping ``ipywidgets.Widget._send`` (length of the JSON text
-   plus the binary buffers).
+   recorded by wrapping ``ipywidgets.Widget._send`` and ``comm.create_comm``
+   (a widget made during the change, such as a new density picture, sends
+   its whole state when its comm opens): length of the JSON text plus the
+   binary buffers.
 
 Data: the invented demo survey (``compwidgets.demo.stream_sediments_clean``),
 major oxides only, read with ``read_composition``.
@@ -23,6 +25,7 @@ import json
 import statistics
 import time
 
+import comm
 import ipywidgets as widgets
 import numpy as np
 
@@ -54,29 +57,40 @@ class Recorder:
 
     def __enter__(self):
         self._original = widgets.Widget._send
-        original = self._original
+        self._original_create = comm.create_comm
+        original, original_create = self._original, self._original_create
+
+        def create(**kwargs):
+            # a new widget (e.g. the density picture) opens a comm with its whole state
+            self._count(kwargs.get("data", {}), kwargs.get("buffers"))
+            return original_create(**kwargs)
 
         def send(widget, msg, buffers=None):
-            text = json.dumps(msg, default=str)
-            size = sum(memoryview(b).nbytes for b in (buffers or []))
-            self.messages += 1
-            self.json_bytes += len(text.encode())
-            self.buffer_bytes += size
-            paths = msg.get("buffer_paths", [])
-            for key in {*msg.get("state", {}), *(p[0] for p in paths)}:
-                share = sum(
-                    memoryview(buf).nbytes
-                    for p, buf in zip(paths, buffers or [], strict=False)
-                    if p[0] == key
-                )
-                self.by_trait[key] = self.by_trait.get(key, 0) + share
+            self._count(msg, buffers)
             return original(widget, msg, buffers)
 
+        comm.create_comm = create
         widgets.Widget._send = send
         return self
 
+    def _count(self, msg, buffers) -> None:
+        text = json.dumps(msg, default=str)
+        size = sum(memoryview(b).nbytes for b in (buffers or []))
+        self.messages += 1
+        self.json_bytes += len(text.encode())
+        self.buffer_bytes += size
+        paths = msg.get("buffer_paths", [])
+        for key in {*msg.get("state", {}), *(p[0] for p in paths)}:
+            share = sum(
+                memoryview(buf).nbytes
+                for p, buf in zip(paths, buffers or [], strict=False)
+                if p[0] == key
+            )
+            self.by_trait[key] = self.by_trait.get(key, 0) + share
+
     def __exit__(self, *exc):
         widgets.Widget._send = self._original
+        comm.create_comm = self._original_create
 
     @property
     def total(self) -> int:
@@ -149,7 +163,7 @@ def bench_bytes(n: int) -> None:
         with Recorder() as rec:
             model.select(a)
         coords = sum(2 * 4 * v.scatter.x.size for v in views)  # what resending x/y would cost
-        traits = ", ".join(f"{k} {v:,}" for k, v in sorted(rec.by_trait.items()))
+        traits = ", ".join(f"{k} {v:,}" for k, v in sorted(rec.by_trait.items()) if v)
         print(
             f"   {rows:>9,} rows ({label:7s}): {rec.messages} messages, {rec.total:,} bytes "
             f"(JSON {rec.json_bytes:,}, buffers {rec.buffer_bytes:,}); buffers by trait: {traits}"

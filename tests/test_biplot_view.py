@@ -191,7 +191,8 @@ def test_model_selection_highlights_here(model, view):
 
 
 #: What a change of scaling or plane may send: positions, scales and figure size, the
-#: axis labels and bar colours of the new plane, the controls, and the pick's text.
+#: axis labels and bar colours of the new plane, the controls, the pick's text, and the
+#: note on the rays' display factor of the new plane (one text, "value" only).
 _POSITIONS = {"x", "y"}
 MOVE_ALLOWED = {
     **{
@@ -210,6 +211,7 @@ MOVE_ALLOWED = {
     "_plane_menu": {"index"},
     "_scaling_buttons": {"index"},
     "info": {"value"},
+    "ray_note": {"value"},
 }  # fmt: skip
 
 

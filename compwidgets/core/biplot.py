@@ -407,6 +407,129 @@ def logratio_sd(biplot: Biplot, i: str | int, j: str | int) -> float:
     return float(np.sqrt(np.sum(diff * diff)))
 
 
+#: Share of the largest row-point distance the longest drawn ray reaches (display scale).
+RAY_SHARE = 0.8
+
+#: Longest true ray / largest row-point distance kept as drawn in a covariance biplot.
+TRUE_LENGTH_RANGE = (0.2, 2.0)
+
+#: Most pushes of a ray label along and across its ray (bounds the positions tried).
+_MAX_PUSH_STEPS = 40
+
+#: Readable display factors: these mantissas times a power of ten.
+_NICE_MANTISSAS = (1.0, 2.0, 2.5, 5.0)
+
+
+def ray_display_factor(
+    biplot: Biplot,
+    components: Sequence[int] | None = (0, 1),
+    *,
+    share: float = RAY_SHARE,
+    keep_true_length: bool | None = None,
+    true_length_range: tuple[float, float] = TRUE_LENGTH_RANGE,
+    rounded: bool = True,
+) -> float:
+    """Factor by which to draw the rays so they compare in size with the row points.
+
+    In a form biplot the ray tips (columns of ``V``, at most 1 long) are tiny
+    next to the row points (``U S``). Drawing every ray multiplied by one
+    factor keeps their relative lengths and their angles, so what the rays say
+    about each other is unchanged; only a comparison of ray lengths with point
+    distances is lost. The factor makes the longest ray in the plane reach
+    ``share`` of the largest distance of a row point from the origin in that
+    plane.
+
+    Parameters
+    ----------
+    biplot : Biplot
+    components : sequence of int, default (0, 1)
+        0-based components of the plane (``None``: all components). They must
+        be among the row coordinates kept (``biplot.row_coords.shape[1]``).
+    share : float, default 0.8
+        Longest drawn ray / largest row-point distance, before rounding (> 0).
+    keep_true_length : bool, optional
+        Return 1 (rays at their true length) while the longest true ray is
+        between ``true_length_range[0]`` and ``true_length_range[1]`` times the
+        largest row-point distance; outside that range (rays invisibly short,
+        or so long they crowd the points into a corner) the factor applies.
+        Default: ``True`` for a covariance biplot, whose true ray lengths are
+        standard deviations worth showing, ``False`` for a form biplot.
+    true_length_range : (float, float), default (0.2, 2.0)
+        See ``keep_true_length``.
+    rounded : bool, default True
+        Round the factor down to a readable number ``m * 10**k`` with ``m`` in
+        1, 2, 2.5, 5: the longest drawn ray then reaches between ``share / 2``
+        and ``share`` of the largest row-point distance. ``False``: exactly
+        ``share``.
+
+    Returns
+    -------
+    float
+        The factor, > 0; 1.0 when there is nothing to compare (no finite row
+        point away from the origin, or every ray of zero length in the plane).
+
+    Raises
+    ------
+    CompositionError
+        Bad components or options.
+    """
+    cols = _components(biplot, components)
+    kept = biplot.row_coords.shape[1]
+    if max(cols) >= kept:
+        raise CompositionError(
+            f"ray_display_factor: component {max(cols)} is beyond the {kept} row-coordinate "
+            "components kept; fit with a larger n_components"
+        )
+    share = float(share)
+    if not (np.isfinite(share) and share > 0):
+        raise CompositionError(f"ray_display_factor: share must be positive, got {share!r}")
+    lo, hi = (float(v) for v in true_length_range)
+    if not 0 <= lo <= hi:
+        raise CompositionError(
+            f"ray_display_factor: true_length_range must be 0 <= low <= high, got {(lo, hi)}"
+        )
+    R = biplot.row_coords[:, cols]
+    R = R[np.all(np.isfinite(R), axis=1)]
+    C = biplot.column_coords[:, cols]
+    row_max = float(np.sqrt(np.max(np.sum(R * R, axis=1)))) if R.size else 0.0
+    ray_max = float(np.sqrt(np.max(np.sum(C * C, axis=1))))
+    if not (row_max > 0 and ray_max > 0):
+        return 1.0
+    ratio = ray_max / row_max
+    if keep_true_length is None:
+        keep_true_length = biplot.scaling == "covariance"
+    if keep_true_length and lo <= ratio <= hi:
+        return 1.0
+    factor = share / ratio
+    return nice_factor(factor) if rounded else factor
+
+
+def nice_factor(value: float) -> float:
+    """The largest readable number ``m * 10**k`` (``m`` in 1, 2, 2.5, 5) not above ``value``.
+
+    Parameters
+    ----------
+    value : float
+        Positive and finite.
+
+    Returns
+    -------
+    float
+        Between ``value / 2`` and ``value``; ``value`` itself when it is readable.
+    """
+    value = float(value)
+    if not (np.isfinite(value) and value > 0):
+        raise CompositionError(f"nice_factor: needs a positive finite value, got {value!r}")
+    k = int(np.floor(np.log10(value)))
+    best = 0.0
+    for exp in (k - 1, k, k + 1):  # log10 may round either way at a power of ten
+        for m in _NICE_MANTISSAS:
+            candidate = float(f"{m}e{exp}")  # exact decimal, e.g. 2.5e-3
+            if candidate <= value * (1 + 1e-12) and candidate > best:
+                best = candidate
+    return best
+
+
 def plane_limits(
     points,
     tips,
@@ -463,16 +586,110 @@ def plane_limits(
     return (float(lo[0]), float(hi[0])), (float(lo[1]), float(hi[1]))
 
 
-def ray_label_positions(tips, offset: float) -> np.ndarray:
-    """Positions (D, 2) a distance ``offset`` beyond each ray tip, along its ray.
+def ray_label_positions(
+    tips,
+    offset: float,
+    *,
+    box_sizes=None,
+    step: float | None = None,
+    max_shift: float | None = None,
+    tip_radius: float = 0.0,
+) -> np.ndarray:
+    """Centres (D, 2) of the part names of a biplot, just beyond the ray tips.
 
-    A ray of zero length gets its label at the origin.
+    Without ``box_sizes`` each position is a distance ``offset`` beyond its tip
+    along the ray (a ray of zero length gets its label at the origin).
+
+    With ``box_sizes`` (the width and height of each name's box, in data units,
+    boxes centred on the returned positions) each box first just clears its
+    tip: its edge is ``offset`` beyond the tip's dot (of radius ``tip_radius``)
+    along the ray. Then the names are placed one at a time, from the longest
+    ray to the shortest (ties in part order), each at the first of a fixed
+    list of nearby positions where its box neither intersects a box placed
+    before nor comes within ``tip_radius`` of a ray tip (in x or y): pushed
+    outward along its ray by ``a`` steps and sideways by ``b`` steps (``a >=
+    0``), nearest first, within ``max_shift``. A name that finds no such place
+    stays where it cleared its tip. The result is deterministic and takes one
+    pass (no iteration to convergence).
+
+    Parameters
+    ----------
+    tips : array-like of shape (D, 2)
+        Ray tips as drawn.
+    offset : float
+        Gap between a tip and its label (the label's centre without
+        ``box_sizes``, its box's edge with them), in data units.
+    box_sizes : array-like of shape (D, 2) or (2,), optional
+        Width and height of each label's box in data units (>= 0), e.g. the
+        number of characters times a character width.
+    step : float, optional
+        Length of one push (default: half the tallest box; at least
+        ``max_shift / 40``).
+    max_shift : float, optional
+        Longest push from the first position (default: 8 times the tallest box).
+    tip_radius : float, default 0.0
+        Radius of the dots drawn at the tips, in data units (>= 0).
+
+    Returns
+    -------
+    ndarray of shape (D, 2)
+        Label centres. Every label ends within ``max_shift`` of the position
+        where its box clears its tip, so within ``offset + tip_radius +
+        max_shift +`` half the box's diagonal (plus ``tip_radius``) of its tip.
     """
     T = np.asarray(tips, dtype=float).reshape(-1, 2)
+    D = T.shape[0]
     length = np.sqrt(np.sum(T * T, axis=1, keepdims=True))
     with np.errstate(invalid="ignore", divide="ignore"):
         unit = np.where(length > 0, T / length, 0.0)
-    return T + float(offset) * unit
+    if box_sizes is None:
+        return T + float(offset) * unit
+
+    B = np.broadcast_to(np.asarray(box_sizes, dtype=float), (D, 2))
+    if not np.all(np.isfinite(B)) or np.any(B < 0):
+        raise CompositionError("ray_label_positions: box sizes must be finite and >= 0")
+    half = B / 2
+    r = float(tip_radius)
+    if not (np.isfinite(r) and r >= 0):
+        raise CompositionError(f"ray_label_positions: tip_radius must be >= 0, got {r!r}")
+    # a ray of zero length has no direction: its name goes above its tip
+    along = np.where(length > 0, unit, np.array([0.0, 1.0]))
+    side = np.column_stack([-along[:, 1], along[:, 0]])
+    reach = float(offset) + (half[:, 0] + r) * np.abs(along[:, 0])
+    reach += (half[:, 1] + r) * np.abs(along[:, 1])
+    start = T + along * reach[:, None]
+    tallest = float(B[:, 1].max()) if D else 0.0
+    step = tallest / 2 if step is None else float(step)
+    max_shift = 8 * tallest if max_shift is None else float(max_shift)
+    if D == 0 or not (step > 0 and max_shift > 0):
+        return start
+
+    # pushes (along a, sideways b) in steps, nearest first; ties: smaller |b|, outward, left
+    k = int(np.floor(max_shift / step + 1e-9))
+    if k > _MAX_PUSH_STEPS:  # a step tiny next to max_shift: coarser steps, bounded work
+        k, step = _MAX_PUSH_STEPS, max_shift / _MAX_PUSH_STEPS
+    a, b = np.meshgrid(np.arange(k + 1), np.arange(-k, k + 1), indexing="ij")
+    a, b = a.ravel(), b.ravel()
+    dist = np.hypot(a, b)
+    keep = dist * step <= max_shift * (1 + 1e-9)
+    a, b, dist = a[keep], b[keep], dist[keep]
+    order = np.lexsort((-b, a, np.abs(b), dist))
+    a, b = a[order] * step, b[order] * step
+
+    placed = np.zeros((D, 2))
+    placed_half = np.zeros((D, 2))
+    positions = start.copy()
+    for n, i in enumerate(np.argsort(-length[:, 0], kind="stable")):
+        cand = start[i] + a[:, None] * along[i] + b[:, None] * side[i]  # (M, 2)
+        gap = np.abs(cand[:, None, :] - placed[None, :n, :])  # (M, n, 2)
+        hits = np.all(gap < half[i] + placed_half[:n], axis=2).any(axis=1)
+        near = np.abs(cand[:, None, :] - T[None]) < half[i] + r
+        covers_tip = np.all(near, axis=2).any(axis=1)
+        free = np.flatnonzero(~(hits | covers_tip))
+        if free.size:
+            positions[i] = cand[free[0]]
+        placed[n], placed_half[n] = positions[i], half[i]
+    return positions
 
 
 # ----------------------------------------------------------------------------- helpers

@@ -14,6 +14,14 @@ log-ratio. ``picked_parts`` holds the clicked parts and can be set directly.
 Switching ``scaling`` or ``components`` moves the points and rays only: the
 selection, the colours and the legend text are not sent again.
 
+Rays are drawn at their true length in the covariance biplot. In the form
+biplot (and in a covariance biplot whose rays would be invisibly short or
+would crowd the points) they are drawn multiplied by one readable factor
+(:func:`compwidgets.core.biplot.ray_display_factor`), said in ``ray_note``;
+the numbers in the text (link lengths, log-ratio sds, cosines) always come from
+the unscaled biplot. Part names sit beyond their tips, moved apart where they
+would overlap (:func:`compwidgets.core.biplot.ray_label_positions`).
+
 Example
 -------
 >>> view = BiplotView(model, components=(0, 2), scaling="form")
@@ -46,11 +54,16 @@ AXIS_CROSS_COLOUR = "#b4b4b4"
 _LEGEND_GAP_PX = 12
 #: Widest plot area, as a multiple of its height (legend included).
 _MAX_ASPECT = 1.6
-#: Pixels between a ray tip and the box of its part name, and the size of one character
+#: Pixels between a ray tip's dot and the box of its part name, and the size of one character
 #: of a part name (bold, 12 px) allowed for.
-_LABEL_GAP_PX = 4.0
+_LABEL_GAP_PX = 2.0
 _LABEL_CHAR_PX = 7.0
 _LABEL_HALF_HEIGHT_PX = 7.0
+#: Radius (pixels) of the dot at a ray tip: a Scatter marker of ``default_size`` 40 px².
+_TIP_SIZE_PX2 = 40
+_TIP_RADIUS_PX = float(np.sqrt(_TIP_SIZE_PX2 / np.pi))
+#: Extra pixels on each side of a part name's box, so that two placed names do not touch.
+_LABEL_PAD_PX = 1.5
 #: Most component numbers written under the variance bars (every k-th beyond).
 _BAR_TICKS = 8
 #: Components offered in the plane menu (pairs among the first few).
@@ -109,6 +122,10 @@ class BiplotView(ScatterView):
         Bar chart of the share of total variance per component.
     info : ipywidgets.Textarea
         Associations or link of the picked parts (text only).
+    ray_note : ipywidgets.Label
+        Says by what factor the rays are drawn, when it is not 1 ("" otherwise).
+    ray_factor : float
+        That factor (rays on the plot = ``ray_factor`` times the biplot's columns).
     """
 
     #: Room for the axes around the plot area (pixels).
@@ -132,6 +149,7 @@ class BiplotView(ScatterView):
         self._fits: dict[str, core_biplot.Biplot] = {}
         self._fit_error = ""
         self._fit_parts: list[str] = []
+        self.ray_factor = 1.0
         super().__init__(model, **kwargs)
         self._build_side()
         self._internal = True
@@ -191,9 +209,10 @@ class BiplotView(ScatterView):
         return cx, (cy if cy < self._n_components() else None)
 
     def _plane_coords(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """(rows, x, y, tips (D, 2)) in the current plane."""
+        """(rows, x, y, drawn tips (D, 2)) in the current plane; sets ``ray_factor``."""
         fit = self.biplot
         if fit is None:
+            self.ray_factor = 1.0
             return np.zeros(0, np.uint32), np.zeros(0), np.zeros(0), np.zeros((0, 2))
         cx, cy = self._plane()
         if max(cx, cy or 0) >= fit.row_coords.shape[1]:
@@ -208,7 +227,8 @@ class BiplotView(ScatterView):
                 fit.column_coords[:, cy] if cy is not None else np.zeros(len(fit.parts)),
             ]
         )
-        return rows, x, y, tips
+        self.ray_factor = core_biplot.ray_display_factor(fit, self._plane_list())
+        return rows, x, y, tips * self.ray_factor
 
     # ------------------------------------------------------------- validation
     @t.validate("components")
@@ -323,7 +343,7 @@ class BiplotView(ScatterView):
         )  # fmt: skip
         self.ray_tips = bq.Scatter(
             x=np.zeros(0, np.float32), y=np.zeros(0, np.float32), scales=xy, marker="circle",
-            default_size=40, colors=[RAY_COLOUR], stroke=None, interactions={},
+            default_size=_TIP_SIZE_PX2, colors=[RAY_COLOUR], stroke=None, interactions={},
             enable_hover=False,
         )  # fmt: skip
         self.ray_tips.on_element_click(self._guard(self._on_tip_click))
@@ -392,7 +412,8 @@ class BiplotView(ScatterView):
         self.info = widgets.Textarea(
             value=_HINT, disabled=True, layout=widgets.Layout(width="260px", height="170px")
         )
-        self.controls = widgets.HBox([self._scaling_buttons, self._plane_menu])
+        self.ray_note = widgets.Label(layout=widgets.Layout(margin="0 0 0 12px"))
+        self.controls = widgets.HBox([self._scaling_buttons, self._plane_menu, self.ray_note])
         self.side = widgets.VBox([self.variance_figure, self.variance_note, self.info])
         self.body = widgets.HBox([self.figure, self.side])
         self.children = [
@@ -426,7 +447,18 @@ class BiplotView(ScatterView):
         The figure keeps an equal aspect at a fixed height, so a wide plane is given a
         taller y range rather than a figure wider than ``_MAX_ASPECT`` times its height.
         """
-        (x0, x1), (y0, y1) = core_biplot.plane_limits(np.column_stack([x, y]), tips)
+        points = np.column_stack([x, y])
+        ranges = self._fit_ranges(points, tips)
+        if tips.shape[0]:
+            # the part names, laid out at that scale, must fit too (their boxes grow the
+            # ranges a little; the margin of plane_limits absorbs the change of scale)
+            labels, half = self._label_layout(tips, ranges[1][1] - ranges[1][0])
+            corners = np.concatenate([labels - half, labels + half])
+            ranges = self._fit_ranges(np.concatenate([points, corners]), tips)
+        return ranges
+
+    def _fit_ranges(self, points: np.ndarray, tips: np.ndarray):
+        (x0, x1), (y0, y1) = core_biplot.plane_limits(points, tips)
         legend = (self.legend_width_px + _LEGEND_GAP_PX) / self._plot_height_px()
         # width / height = (x span + legend * y span) / y span <= _MAX_ASPECT
         tall = (x1 - x0) / (_MAX_ASPECT - legend)
@@ -434,6 +466,25 @@ class BiplotView(ScatterView):
             mid = (y0 + y1) / 2
             y0, y1 = mid - tall / 2, mid + tall / 2
         return (x0, x1 + legend * (y1 - y0)), (y0, y1)
+
+    def _label_layout(self, tips: np.ndarray, y_span: float) -> tuple[np.ndarray, np.ndarray]:
+        """(centres, half sizes) of the part names' boxes, in data units, for a y span."""
+        fit = self.biplot
+        names = [str(p) for p in fit.parts] if fit is not None else []
+        names = (names + [""] * tips.shape[0])[: tips.shape[0]]
+        per_px = y_span / self._plot_height_px()  # equal aspect: the same along x
+        boxes = np.array(
+            [
+                [len(name) * _LABEL_CHAR_PX + 2 * _LABEL_PAD_PX, 2 * _LABEL_HALF_HEIGHT_PX]
+                for name in names
+            ],
+            dtype=float,
+        ).reshape(-1, 2)
+        boxes *= per_px
+        centres = core_biplot.ray_label_positions(
+            tips, _LABEL_GAP_PX * per_px, box_sizes=boxes, tip_radius=_TIP_RADIUS_PX * per_px
+        )
+        return centres, boxes / 2
 
     def _refresh_extra(self) -> None:
         _, _, _, tips = self._plane_coords()
@@ -452,14 +503,9 @@ class BiplotView(ScatterView):
     def _draw_rays(self, tips: np.ndarray) -> None:
         D = tips.shape[0]
         (x0, x1), (y0, y1) = self.view_ranges
-        # each name's box (centred on its position) just clears the tip, along the ray
-        unit = core_biplot.ray_label_positions(tips, 1.0) - tips
-        half_w = np.zeros(D)
-        for i, name in enumerate(list(self.ray_labels.text)[:D]):
-            half_w[i] = len(str(name)) * _LABEL_CHAR_PX / 2
-        reach_px = _LABEL_GAP_PX + half_w * np.abs(unit[:, 0])
-        reach_px += _LABEL_HALF_HEIGHT_PX * np.abs(unit[:, 1])
-        labels = tips + unit * (reach_px * (y1 - y0) / self._plot_height_px())[:, None]
+        # each name's box (centred on its position) clears its tip along the ray, and
+        # names that would overlap are moved apart (outward or sideways)
+        labels, _ = self._label_layout(tips, y1 - y0)
         legend_x = self._legend_anchor()[0] - 0.02 * (x1 - x0)
         zeros = np.zeros(D)
         cm.assign_arrays(
@@ -476,6 +522,14 @@ class BiplotView(ScatterView):
             x=np.array([[x0, legend_x], [0.0, 0.0]], dtype=np.float32),
             y=np.array([[0.0, 0.0], [y0, y1]], dtype=np.float32),
         )
+        note = ""
+        if self.ray_factor != 1.0 and D:
+            note = (
+                f"rays drawn \u00d7 {self.ray_factor:g} "
+                "(lengths compare between rays, not with points)"
+            )
+        if self.ray_note.value != note:
+            self.ray_note.value = note
 
     def _draw_axes_labels(self) -> None:
         fit = self.biplot
@@ -615,9 +669,12 @@ class BiplotView(ScatterView):
             f"(all components, {fit.n_rows_used} rows, ddof 1)",
             approx,
         ]
+        if self.ray_factor != 1.0:
+            lines.append(f"(rays and link drawn \u00d7 {self.ray_factor:g})")
+        # the drawn link joins the drawn tips
         cx, cy = self._plane()
         ia, ib = fit.parts.index(a), fit.parts.index(b)
-        col = fit.column_coords
+        col = fit.column_coords * self.ray_factor
         xs = [col[ia, cx], col[ib, cx]]
         ys = [col[ia, cy], col[ib, cy]] if cy is not None else [0.0, 0.0]
         mark = (xs, ys, [sum(xs) / 2], [sum(ys) / 2], [f"sd {cm.format_number(sd)}"])
@@ -696,8 +753,8 @@ class BiplotView(ScatterView):
             return  # closed already, or the constructor failed before the view existed
         names = (
             "axis_x", "axis_y", "variance_bars", "_bar_x", "_bar_y", "variance_figure",
-            "variance_note", "_scaling_buttons", "_plane_menu", "info", "controls", "side",
-            "body",
+            "variance_note", "_scaling_buttons", "_plane_menu", "ray_note", "info", "controls",
+            "side", "body",
         )  # fmt: skip
         owned = [getattr(self, n) for n in names if hasattr(self, n)]
         owned += list(getattr(self, "_bar_axes", []))
