@@ -453,3 +453,46 @@ class CompositionModel(t.HasTraits):
             frame = pd.DataFrame(self.part_values(parts)[ok], columns=parts)
             self._store(key, core.variation_matrix(frame))
         return self._cache[key]
+
+    # ---------------------------------------------------------------- exports
+    def ilr_frame(self, **options) -> pd.DataFrame:
+        """Balances of the SBP as a DataFrame (see :func:`compwidgets.export.ilr_frame`)."""
+        from .export import ilr_frame
+
+        return ilr_frame(self, **options)
+
+    def sbp_frame(self) -> pd.DataFrame:
+        """The SBP as a signed matrix, balances as rows (:func:`compwidgets.export.sbp_frame`)."""
+        from .export import sbp_frame
+
+        return sbp_frame(self)
+
+    def contrast_frame(self) -> pd.DataFrame:
+        """Orthonormal contrast matrix of the SBP (:func:`compwidgets.export.contrast_frame`)."""
+        from .export import contrast_frame
+
+        return contrast_frame(self)
+
+    def save_sbp(self, path):
+        """Write the SBP as a JSON document (:func:`compwidgets.export.save_sbp`)."""
+        from .export import save_sbp
+
+        return save_sbp(self, path)
+
+    def load_sbp(self, path_or_document):
+        """Rebuild an SBP from a JSON document (:func:`compwidgets.export.load_sbp`)."""
+        from .export import load_sbp
+
+        return load_sbp(self, path_or_document)
+
+    def save_ilr_csv(self, path, **options):
+        """Write the balances to CSV (:func:`compwidgets.export.save_ilr_csv`)."""
+        from .export import save_ilr_csv
+
+        return save_ilr_csv(self, path, **options)
+
+    def save_selected_csv(self, path, **options):
+        """Write the selected rows to CSV (:func:`compwidgets.export.save_selected_csv`)."""
+        from .export import save_selected_csv
+
+        return save_selected_csv(self, path, **options)

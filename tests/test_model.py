@@ -195,3 +195,28 @@ def test_unknown_group_column_is_refused(model):
     with pytest.raises(traitlets.TraitError, match="unknown grouping column 'nope'"):
         model.group_column = "nope"
     assert model.group_column == "site"
+
+
+def test_every_export_has_a_method_on_the_model(model, tmp_path):
+    from compwidgets import export
+
+    model.active_parts = ["SiO2", "Al2O3", "FeO", "CaO"]
+    model.set_sbp([[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
+    pd.testing.assert_frame_equal(model.ilr_frame(), export.ilr_frame(model))
+    pd.testing.assert_frame_equal(model.sbp_frame(), export.sbp_frame(model))
+    pd.testing.assert_frame_equal(model.contrast_frame(), export.contrast_frame(model))
+    # the balances are the core's balances of the same SBP (complete rows)
+    ok = model.complete_rows()
+    np.testing.assert_allclose(
+        model.ilr_frame().to_numpy()[ok], core.balances(model.part_values()[ok], model.sbp)
+    )
+    doc = model.save_sbp(tmp_path / "sbp.json")
+    model.set_sbp([[1, -1, 1, -1], [1, 0, -1, 0], [0, 1, 0, -1]])
+    model.load_sbp(doc)
+    np.testing.assert_array_equal(model.sbp, [[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
+    csv = model.save_ilr_csv(tmp_path / "ilr.csv")
+    back = pd.read_csv(csv, index_col=0)
+    np.testing.assert_allclose(back.to_numpy(), model.ilr_frame().to_numpy(), equal_nan=True)
+    model.select([0, 1])
+    model.save_selected_csv(tmp_path / "selected.csv")
+    assert pd.read_csv(tmp_path / "selected.csv", index_col=0).index.tolist() == ["R-000", "R-001"]
