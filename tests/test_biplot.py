@@ -28,8 +28,10 @@ from compwidgets.core.biplot import (
     clr_biplot,
     link_length,
     logratio_sd,
+    nice_factor,
     plane_limits,
     ray_associations,
+    ray_display_factor,
     ray_label_positions,
 )
 
@@ -407,3 +409,179 @@ def test_ray_label_positions_along_rays():
     tips = np.array([[3.0, 4.0], [0.0, 0.0], [-1.0, 0.0]])
     pos = ray_label_positions(tips, 0.5)
     np.testing.assert_allclose(pos, [[3.3, 4.4], [0.0, 0.0], [-1.5, 0.0]])
+
+
+def test_ray_label_positions_zero_ray_without_boxes_stays_at_origin():
+    # Unchanged behaviour without box sizes, by hand: the offset along each unit ray.
+    pos = ray_label_positions(np.array([[0.0, -2.0], [0.0, 0.0]]), 0.25)
+    np.testing.assert_allclose(pos, [[0.0, -2.25], [0.0, 0.0]])
+
+
+# ---------------------------------------------------------- display scale of the rays
+
+
+def _norms(a: np.ndarray) -> np.ndarray:
+    return np.sqrt(np.sum(np.asarray(a, dtype=float) ** 2, axis=1))
+
+
+@pytest.mark.parametrize(("components", "share"), [((0, 1), 0.8), ((0, 2), 0.5), ((1, 3), 1.0)])
+def test_form_ray_factor_reaches_the_share_of_the_row_cloud(components, share):
+    X = random_composition(n=60, D=6, seed=3)
+    b = clr_biplot(core.clr(X), "form")
+    f = ray_display_factor(b, components, share=share, rounded=False)
+    # Source: sklearn PCA on the clr: form rows are the scores U S, form columns the
+    # loadings V (components_.T), up to a sign per axis that does not change a norm.
+    pca = PCA().fit(core.clr(X))
+    rows = pca.transform(core.clr(X))[:, list(components)]
+    cols = pca.components_.T[:, list(components)]
+    drawn = f * b.column_coords[:, list(components)]
+    assert _norms(drawn).max() == pytest.approx(share * _norms(rows).max(), rel=1e-9)
+    assert f == pytest.approx(share * _norms(rows).max() / _norms(cols).max(), rel=1e-9)
+    assert f > 1  # unit-length loadings are short next to the scores of this cloud
+
+
+def test_form_ray_factor_is_readable_and_at_most_the_exact_one():
+    X = random_composition(n=60, D=6, seed=3)
+    b = clr_biplot(core.clr(X), "form")
+    exact = ray_display_factor(b, rounded=False)
+    f = ray_display_factor(b)
+    assert exact / 2 < f <= exact
+    mantissa = f / 10 ** np.floor(np.log10(f))
+    assert min(abs(mantissa - m) for m in (1.0, 2.0, 2.5, 5.0)) < 1e-9
+    # the longest drawn ray: between half the share and the share of the row cloud
+    rows, cols = b.row_coords[:, :2], b.column_coords[:, :2]
+    longest = _norms(f * cols).max() / _norms(rows).max()
+    assert 0.4 < longest <= 0.8 + 1e-12
+
+
+@pytest.mark.parametrize(
+    ("value", "expected"),
+    [(10.2, 10.0), (7.0, 5.0), (2.4999, 2.0), (2.5, 2.5), (1000.0, 1000.0), (0.3, 0.25),
+     (0.049, 0.025), (0.0051, 0.005), (19.99, 10.0), (4.2e-7, 2.5e-7)],
+)  # fmt: skip
+def test_nice_factor_by_hand(value, expected):
+    assert nice_factor(value) == pytest.approx(expected, rel=1e-12)
+
+
+def test_nice_factor_rejects_non_positive():
+    for bad in (0.0, -1.0, np.nan, np.inf):
+        with pytest.raises(CompositionError, match="positive finite"):
+            nice_factor(bad)
+
+
+def test_covariance_rays_keep_true_length_unless_unreadable():
+    X = random_composition(n=60, D=6, seed=3)
+    b = clr_biplot(core.clr(X), "covariance")
+    # numpy: longest ray / largest row distance in the plane (rows: sqrt(n-1) U)
+    ratio = _norms(b.column_coords[:, :2]).max() / _norms(b.row_coords[:, :2]).max()
+    assert 0.2 <= ratio <= 2.0  # a readable case: the precondition of the next line
+    assert ray_display_factor(b) == 1.0
+    # The same compositions to the power 0.01 (clr times 0.01): the rows (unit variance)
+    # do not move, the rays are 100 times shorter, invisibly short: the factor applies.
+    small = clr_biplot(core.clr(X**0.01), "covariance")
+    np.testing.assert_allclose(small.column_coords, b.column_coords / 100, rtol=1e-6, atol=1e-12)
+    f = ray_display_factor(small)
+    assert f == nice_factor(0.8 / (ratio / 100))
+    assert f > 10
+    # and to the power 30: rays 30 times longer, they would crowd the points; factor < 1
+    big = clr_biplot(core.clr(X**30), "covariance")
+    f_big = ray_display_factor(big)
+    assert f_big < 1
+    assert f_big == nice_factor(0.8 / (ratio * 30))
+    # forcing the fit: the share holds in covariance scaling too
+    exact = ray_display_factor(b, keep_true_length=False, rounded=False)
+    assert exact * _norms(b.column_coords[:, :2]).max() == pytest.approx(
+        0.8 * _norms(b.row_coords[:, :2]).max(), rel=1e-12
+    )
+
+
+def test_ray_factor_bad_options():
+    b = clr_biplot(core.clr(random_composition(n=30, D=5, seed=2)), "form", n_components=2)
+    with pytest.raises(CompositionError, match="share must be positive"):
+        ray_display_factor(b, share=0.0)
+    with pytest.raises(CompositionError, match="beyond the 2 row-coordinate components"):
+        ray_display_factor(b, (0, 3))
+    with pytest.raises(CompositionError, match="true_length_range"):
+        ray_display_factor(b, true_length_range=(2.0, 1.0))
+    with pytest.raises(CompositionError, match="component 9 is not one of"):
+        ray_display_factor(b, (0, 9))
+
+
+# ------------------------------------------------------------------ ray label placement
+
+
+def _boxes_intersect(centres: np.ndarray, half: np.ndarray) -> list[tuple[int, int]]:
+    """Pairs of axis-aligned boxes whose interiors intersect (numpy, by definition)."""
+    gap = np.abs(centres[:, None, :] - centres[None, :, :])
+    touch = np.all(gap < half[:, None, :] + half[None, :, :] - 1e-12, axis=2)
+    return [(i, j) for i, j in zip(*np.nonzero(np.triu(touch, 1)), strict=True)]
+
+
+def _fan(n: int = 8):
+    """n rays within 7 degrees and 8 % in length of each other: their names pile up."""
+    angle = np.deg2rad(30.0 + np.arange(n))
+    length = 1.0 + 0.01 * np.arange(n)[::-1]
+    tips = np.column_stack([length * np.cos(angle), length * np.sin(angle)])
+    names = [f"part{i}" for i in range(n)]
+    sizes = np.array([[0.05 * len(name), 0.12] for name in names])
+    return tips, sizes
+
+
+def test_ray_labels_of_a_fan_do_not_overlap():
+    tips, sizes = _fan(8)
+    half = sizes / 2
+    offset, radius = 0.02, 0.03
+    # control: just beyond each tip (no moves allowed) the boxes do overlap
+    first = ray_label_positions(tips, offset, box_sizes=sizes, max_shift=1e-9, tip_radius=radius)
+    assert len(_boxes_intersect(first, half)) >= 10
+    pos = ray_label_positions(tips, offset, box_sizes=sizes, tip_radius=radius)
+    assert _boxes_intersect(pos, half) == []
+    # no box comes within the dot radius of any tip (its own included)
+    near = np.all(np.abs(pos[:, None, :] - tips[None]) < half[:, None, :] + radius, axis=2)
+    assert not near.any()
+    # every label stays near its tip: within the documented bound (default max_shift = 8
+    # times the tallest box), and on the far side of its tip along its ray
+    bound = offset + radius + 8 * sizes[:, 1].max() + np.hypot(*(half + radius).T)
+    assert np.all(_norms(pos - tips) <= bound)
+    unit = tips / _norms(tips)[:, None]
+    assert np.all(np.sum((pos - tips) * unit, axis=1) >= offset)
+    # deterministic: the same call gives the same positions, bit for bit
+    again = ray_label_positions(tips, offset, box_sizes=sizes, tip_radius=radius)
+    np.testing.assert_array_equal(pos, again)
+
+
+def test_ray_label_clears_its_tip_when_nothing_is_in_the_way():
+    # By hand: four rays along the axes, far apart. Each box edge is `offset` beyond the dot.
+    tips = np.array([[2.0, 0.0], [0.0, -3.0], [-1.0, 0.0], [0.0, 0.5]])
+    sizes = np.array([0.4, 0.2])  # one size for every label
+    pos = ray_label_positions(tips, 0.1, box_sizes=sizes, tip_radius=0.05)
+    np.testing.assert_allclose(
+        pos, [[2.35, 0.0], [0.0, -3.25], [-1.35, 0.0], [0.0, 0.75]], atol=1e-12
+    )
+    # a ray of zero length has its name above its tip
+    pos0 = ray_label_positions(np.zeros((1, 2)), 0.1, box_sizes=sizes)
+    np.testing.assert_allclose(pos0, [[0.0, 0.2]], atol=1e-12)
+
+
+def test_ray_labels_that_cannot_be_placed_stay_just_beyond_their_tip():
+    # 60 names on one tip, at most 2 box heights of moves: most cannot be placed. The call
+    # ends (one pass) and those stay where they clear the tip.
+    tips = np.tile([[1.0, 1.0]], (60, 1))
+    sizes = np.array([0.3, 0.1])
+    start = ray_label_positions(tips, 0.05, box_sizes=sizes, max_shift=1e-12)
+    np.testing.assert_allclose(start, np.tile(start[0], (60, 1)))
+    pos = ray_label_positions(tips, 0.05, box_sizes=sizes, max_shift=0.2)
+    assert np.all(np.isfinite(pos))
+    stayed = np.all(np.isclose(pos, start[0]), axis=1)
+    assert 30 < stayed.sum() < 60  # some were placed, most stayed
+    assert np.all(_norms(pos - start) <= 0.2 + 1e-12)
+    moved = pos[~stayed]
+    assert _boxes_intersect(moved, np.tile(sizes / 2, (len(moved), 1))) == []
+
+
+def test_ray_label_positions_rejects_bad_boxes():
+    tips = np.array([[1.0, 0.0]])
+    with pytest.raises(CompositionError, match="box sizes"):
+        ray_label_positions(tips, 0.1, box_sizes=[-1.0, 0.2])
+    with pytest.raises(CompositionError, match="tip_radius"):
+        ray_label_positions(tips, 0.1, box_sizes=[1.0, 0.2], tip_radius=-1.0)

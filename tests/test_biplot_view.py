@@ -650,3 +650,152 @@ def test_every_plane_fits_its_points_and_keeps_the_figure_narrow(model, scaling)
             assert width <= 1.6 * v.height_px
     finally:
         v.close()
+
+
+# ------------------------------------------------------ display scale of the rays
+
+
+def _plane_norms(xs, ys) -> np.ndarray:
+    return np.hypot(np.asarray(xs, dtype=float), np.asarray(ys, dtype=float))
+
+
+def test_form_rays_drawn_scaled_with_a_note(model):
+    view = BiplotView(model, scaling="form")
+    try:
+        fit = view.biplot
+        f = view.ray_factor
+        assert f == core.biplot.ray_display_factor(fit, (0, 1))
+        assert f > 1  # form rays (unit loadings) are short next to the scores
+        # drawn tips = f * the biplot's columns
+        drawn = np.column_stack([view.ray_tips.x, view.ray_tips.y]).astype(float)
+        np.testing.assert_allclose(drawn, f * fit.column_coords[:, :2], rtol=1e-6, atol=1e-6)
+        np.testing.assert_allclose(view.rays.x[:, 1], drawn[:, 0], rtol=1e-6)
+        # Source: sklearn PCA loadings V (components_.T) on the clr of the complete rows:
+        # relative ray lengths and angles between rays are those of the unscaled loadings.
+        _, Z = complete_clr(model, PARTS5)
+        V = PCA().fit(Z).components_.T[:, :2]
+        lengths = _plane_norms(drawn[:, 0], drawn[:, 1])
+        np.testing.assert_allclose(
+            lengths / lengths.max(), _plane_norms(*V.T) / _plane_norms(*V.T).max(), rtol=1e-5
+        )
+        cos_drawn = (drawn @ drawn.T) / np.outer(lengths, lengths)
+        cos_v = np.abs(V @ V.T) / np.outer(_plane_norms(*V.T), _plane_norms(*V.T))
+        np.testing.assert_allclose(np.abs(cos_drawn), cos_v, atol=1e-5)  # sign per axis
+        # the longest drawn ray reaches 0.4 .. 0.8 of the farthest point (rounded factor)
+        share = lengths.max() / _plane_norms(view.scatter.x, view.scatter.y).max()
+        assert 0.4 < share <= 0.8 + 1e-6
+        # the note says so, with the factor
+        assert view.ray_note.value == (
+            f"rays drawn \u00d7 {f:g} (lengths compare between rays, not with points)"
+        )
+        # back to covariance: true lengths (factor 1), no note
+        view.scaling = "covariance"
+        assert view.ray_factor == 1.0 and view.ray_note.value == ""
+        np.testing.assert_allclose(
+            np.column_stack([view.ray_tips.x, view.ray_tips.y]).astype(float),
+            view.biplot.column_coords[:, :2], rtol=1e-6, atol=1e-7,
+        )  # fmt: skip
+    finally:
+        view.close()
+
+
+def test_form_link_numbers_unscaled_drawn_link_scaled(model):
+    view = BiplotView(model, scaling="form")
+    try:
+        a, b = "SiO2", "CaO"
+        view.picked_parts = [a, b]
+        f = view.ray_factor
+        text = view.info.value
+        # Source: sklearn PCA loadings V: the in-plane form link is |V_a - V_b| (unscaled)
+        _, Z = complete_clr(model, PARTS5)
+        V = PCA().fit(Z).components_.T[:, :2]
+        ia, ib = PARTS5.index(a), PARTS5.index(b)
+        in_plane = _number_after(text, "link length in this plane (components 1 and 2):")
+        assert in_plane == pytest.approx(np.linalg.norm(V[ia] - V[ib]), rel=5e-4)
+        assert f"(rays and link drawn \u00d7 {f:g})" in text
+        # the drawn link joins the drawn tips: f times as long
+        lx, ly = np.asarray(view.link.x, float), np.asarray(view.link.y, float)
+        assert np.hypot(np.diff(lx), np.diff(ly))[0] == pytest.approx(
+            f * np.linalg.norm(V[ia] - V[ib]), rel=1e-5
+        )
+        tips = np.column_stack([view.ray_tips.x, view.ray_tips.y]).astype(float)
+        np.testing.assert_allclose(np.column_stack([lx, ly]), tips[[ia, ib]], rtol=1e-6)
+    finally:
+        view.close()
+
+
+def test_covariance_rays_too_short_are_scaled_but_links_stay_exact():
+    # Compositions to the power 0.02: the clr shrinks 50 times, the covariance rows
+    # (unit variance) do not: rays would be invisibly short, so they are drawn scaled.
+    rng = np.random.default_rng(8)
+    X = np.exp(rng.normal(0.0, [0.3, 0.8, 1.2, 0.5], size=(70, 4))) ** 0.02
+    df = pd.DataFrame(X, columns=["A", "B", "C", "D"])
+    m = CompositionModel(read_composition(df, check_total=False))
+    v = BiplotView(m)
+    try:
+        f = v.ray_factor
+        assert f > 5
+        assert v.ray_note.value.startswith(f"rays drawn \u00d7 {f:g} ")
+        drawn = np.column_stack([v.ray_tips.x, v.ray_tips.y]).astype(float)
+        np.testing.assert_allclose(drawn, f * v.biplot.column_coords[:, :2], rtol=1e-6)
+        v.picked_parts = ["A", "C"]
+        sd_text = _number_after(v.info.value, "sd of ln(A/C):")
+        # Source: core.variation_matrix, and numpy std (ddof=1) of the log-ratio
+        T = m.variation_matrix(["A", "B", "C", "D"])
+        assert sd_text == pytest.approx(np.sqrt(T.loc["A", "C"]), rel=5e-4)
+        assert sd_text == pytest.approx(np.std(np.log(X[:, 0] / X[:, 2]), ddof=1), rel=5e-4)
+        # the in-plane covariance link in the text is unscaled: |G_a - G_c| from sklearn
+        # loadings components_ * sqrt(explained_variance_)
+        pca = PCA().fit(np.asarray(core.clr(X)))
+        G = (pca.components_.T * np.sqrt(pca.explained_variance_))[:, :2]
+        in_plane = _number_after(v.info.value, "link length in this plane (components 1 and 2):")
+        assert in_plane == pytest.approx(np.linalg.norm(G[0] - G[2]), rel=5e-4)
+    finally:
+        v.close()
+
+
+# -------------------------------------------------------------- ray label placement
+
+
+def _label_boxes_px(view):
+    """(centres, half sizes) of the ray names' boxes in pixels, from the marks' positions.
+
+    Box size from the view's own character widths (the same estimate that places them);
+    a fixed 7 px per character would be a rougher, independent bound.
+    """
+    from compwidgets.views import biplot as vb
+
+    (x0, x1), (y0, y1) = view.view_ranges
+    px = view._plot_height_px() / (y1 - y0)
+    centres = np.column_stack([view.ray_labels.x, view.ray_labels.y]).astype(float) * px
+    half = np.array([[vb._text_width_px(str(n)) / 2, 7.0] for n in view.ray_labels.text])
+    return centres, half, px
+
+
+@pytest.mark.parametrize("scaling", ["covariance", "form"])
+def test_ray_names_do_not_overlap_on_the_demo(composition, scaling):
+    # All 17 parts of the demo: many short rays near the origin.
+    m = CompositionModel(composition, group_column="catchment")
+    v = BiplotView(m, scaling=scaling)
+    try:
+        assert len(v.ray_labels.text) == 17
+        for components in [(0, 1), (0, 2), (1, 2)]:
+            v.components = components
+            centres, half, px = _label_boxes_px(v)
+            gap = np.abs(centres[:, None, :] - centres[None, :, :])
+            touch = np.all(gap < half[:, None, :] + half[None, :, :], axis=2)
+            np.fill_diagonal(touch, False)
+            names = list(v.ray_labels.text)
+            assert not touch.any(), [(names[i], names[j]) for i, j in np.argwhere(touch)]
+            # and no name covers a ray tip (the dot's centre)
+            tips = np.column_stack([v.ray_tips.x, v.ray_tips.y]).astype(float) * px
+            covers = np.all(np.abs(centres[:, None, :] - tips[None]) < half[:, None, :], axis=2)
+            assert not covers.any()
+            # every name is inside the plot, left of the legend
+            (x0, x1), (y0, y1) = v.view_ranges
+            assert np.all(centres[:, 0] - half[:, 0] >= x0 * px)
+            assert np.all(centres[:, 0] + half[:, 0] < v._legend_anchor()[0] * px)
+            assert np.all(centres[:, 1] - half[:, 1] >= y0 * px)
+            assert np.all(centres[:, 1] + half[:, 1] <= y1 * px)
+    finally:
+        v.close()

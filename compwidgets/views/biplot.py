@@ -54,11 +54,20 @@ AXIS_CROSS_COLOUR = "#b4b4b4"
 _LEGEND_GAP_PX = 12
 #: Widest plot area, as a multiple of its height (legend included).
 _MAX_ASPECT = 1.6
-#: Pixels between a ray tip's dot and the box of its part name, and the size of one character
-#: of a part name (bold, 12 px) allowed for.
+#: Pixels between a ray tip's dot and the box of its part name, and the size of a part
+#: name's box (12 px text): half its height, and the width of one character by kind
+#: (measured on the text boxes of the ray names in headless Chromium; other fonts differ a
+#: little, which the padding below absorbs).
 _LABEL_GAP_PX = 2.0
 _LABEL_CHAR_PX = 7.0
 _LABEL_HALF_HEIGHT_PX = 7.0
+_CHAR_PX_NARROW = 3.5  # i l I . , : ; ' ! |
+_CHAR_PX_SLIM = 4.5  # r t f j ( ) - space
+_CHAR_PX_UPPER = 8.5
+_CHAR_PX_WIDE = 10.5  # M W m w
+_NARROW_CHARS = frozenset("ilI.,:;'!|")
+_SLIM_CHARS = frozenset("rtfj()- ")
+_WIDE_CHARS = frozenset("MWmw")
 #: Radius (pixels) of the dot at a ray tip: a Scatter marker of ``default_size`` 40 px².
 _TIP_SIZE_PX2 = 40
 _TIP_RADIUS_PX = float(np.sqrt(_TIP_SIZE_PX2 / np.pi))
@@ -83,6 +92,23 @@ def axis_label(component: int, ratio: float | None) -> str:
     """Axis text of a component (0-based) with its share of the total variance."""
     share = "n/a" if ratio is None or not np.isfinite(ratio) else f"{100 * ratio:.1f} %"
     return f"clr comp. {component + 1} \u00b7 {share}"
+
+
+def _text_width_px(text: str) -> float:
+    """Approximate width in pixels of a part name drawn as a ray label."""
+    width = 0.0
+    for ch in text:
+        if ch in _NARROW_CHARS:
+            width += _CHAR_PX_NARROW
+        elif ch in _SLIM_CHARS:
+            width += _CHAR_PX_SLIM
+        elif ch in _WIDE_CHARS:
+            width += _CHAR_PX_WIDE
+        elif ch.isupper():
+            width += _CHAR_PX_UPPER
+        else:
+            width += _LABEL_CHAR_PX
+    return width
 
 
 def _plane_label(pair: tuple[int, int]) -> str:
@@ -347,10 +373,12 @@ class BiplotView(ScatterView):
             enable_hover=False,
         )  # fmt: skip
         self.ray_tips.on_element_click(self._guard(self._on_tip_click))
+        # a name's text is centred on its position both ways (seen in Chromium, y_offset 0),
+        # as the layout of the names in _label_layout assumes
         self.ray_labels = bq.Label(
             x=np.zeros(0), y=np.zeros(0), text=np.array([], dtype=str), scales=xy,
             colors=[RAY_COLOUR], default_size=12, font_unit="px", align="middle",
-            y_offset=4, interactions={}, enable_hover=False,
+            y_offset=0, interactions={}, enable_hover=False,
         )  # fmt: skip
         self.ray_labels.on_element_click(self._guard(self._on_tip_click))
         self.link_label = bq.Label(
@@ -475,7 +503,7 @@ class BiplotView(ScatterView):
         per_px = y_span / self._plot_height_px()  # equal aspect: the same along x
         boxes = np.array(
             [
-                [len(name) * _LABEL_CHAR_PX + 2 * _LABEL_PAD_PX, 2 * _LABEL_HALF_HEIGHT_PX]
+                [_text_width_px(name) + 2 * _LABEL_PAD_PX, 2 * _LABEL_HALF_HEIGHT_PX]
                 for name in names
             ],
             dtype=float,
