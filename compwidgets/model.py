@@ -31,6 +31,25 @@ class ModelError(ValueError):
     """An invalid change to the model (the model is left unchanged)."""
 
 
+class _RowPositions(t.Instance):
+    """An ndarray trait that does not notify when an equal array is assigned.
+
+    traitlets compares old and new values with ``==``, which for arrays is
+    element-wise and so always counts as a change.
+    """
+
+    def __init__(self, **kwargs):
+        super().__init__(np.ndarray, **kwargs)
+
+    def set(self, obj, value):
+        new = self._validate(obj, value)
+        old = obj._trait_values.get(self.name, self.default_value)
+        if isinstance(old, np.ndarray) and np.array_equal(old, new):
+            return
+        obj._trait_values[self.name] = new
+        obj._notify_trait(self.name, old, new)
+
+
 class CompositionModel(t.HasTraits):
     """Shared state of a compwidgets workbench.
 
@@ -65,7 +84,7 @@ class CompositionModel(t.HasTraits):
 
     active_parts = t.List(t.Unicode())
     amalgamations = t.Dict()
-    selection = t.Instance(np.ndarray)
+    selection = _RowPositions()
     group_column = t.Unicode("")
     sbp = t.Instance(np.ndarray, allow_none=True, default_value=None)
     balance_names = t.List(t.Unicode())
@@ -159,6 +178,15 @@ class CompositionModel(t.HasTraits):
         clash = [g for g in groups if g in self.parts]
         if clash:
             raise t.TraitError(f"amalgamation name(s) {clash} already name a part")
+        # redefining an active amalgamation must not count a part twice
+        active = [p for p in self.active_parts if p in self.parts or p in groups]
+        members = [m for p in active for m in (groups[p] if p in groups else [p])]
+        twice = sorted({m for m in members if members.count(m) > 1})
+        if twice:
+            raise t.TraitError(
+                f"with these amalgamations the active parts {active} would count "
+                f"{', '.join(twice)} twice; change the active parts first"
+            )
         return groups
 
     @t.validate("selection")
@@ -196,6 +224,8 @@ class CompositionModel(t.HasTraits):
 
     @t.observe("amalgamations")
     def _on_amalgamations(self, change):
+        # A redefined active amalgamation keeps its place and the SBP over it (the
+        # derived data are cached by members, so they follow); one that is gone drops out.
         gone = [p for p in self.active_parts if p not in self.available_parts]
         if gone:
             kept = [p for p in self.active_parts if p in self.available_parts]
@@ -269,6 +299,7 @@ class CompositionModel(t.HasTraits):
         if self._selected_mask is None:
             mask = np.zeros(self.n_rows, dtype=bool)
             mask[self.selection] = True
+            mask.flags.writeable = False
             self._selected_mask = mask
         return self._selected_mask
 
@@ -355,7 +386,9 @@ class CompositionModel(t.HasTraits):
             return self._cache[key]
         frame = self.composition.values
         columns = [frame[self.members(p)].to_numpy(dtype=float).sum(axis=1) for p in parts]
-        return self._store(key, np.column_stack(columns))
+        values = np.column_stack(columns)
+        values.flags.writeable = False
+        return self._store(key, values)
 
     def complete_rows(self, parts: Sequence[str] | None = None) -> np.ndarray:
         """Boolean mask of rows with a finite positive value in every one of ``parts``."""
@@ -363,7 +396,9 @@ class CompositionModel(t.HasTraits):
         key = self._key("complete", parts)
         if key not in self._cache:
             v = self.part_values(parts)
-            self._store(key, np.all(np.isfinite(v) & (v > 0), axis=1))
+            complete = np.all(np.isfinite(v) & (v > 0), axis=1)
+            complete.flags.writeable = False
+            self._store(key, complete)
         return self._cache[key]
 
     def _derived(self, kind: str, parts: Sequence[str] | None, func, width_offset: int = 0):

@@ -220,3 +220,37 @@ def test_every_export_has_a_method_on_the_model(model, tmp_path):
     model.select([0, 1])
     model.save_selected_csv(tmp_path / "selected.csv")
     assert pd.read_csv(tmp_path / "selected.csv", index_col=0).index.tolist() == ["R-000", "R-001"]
+
+
+def test_assigning_an_equal_selection_array_does_not_notify(model):
+    seen = count(model, "selection")
+    model.selection = np.array([5, 7], dtype=np.uint32)
+    model.selection = np.array([5, 7], dtype=np.int64)  # equal set of rows
+    model.selection = np.array([7, 5])  # unsorted: validated to the same rows
+    assert len(seen) == 1
+    model.selection = np.zeros(0, dtype=np.uint32)
+    model.selection = np.zeros(0, dtype=np.uint32)
+    assert len(seen) == 2
+
+
+def test_redefining_an_active_amalgamation_cannot_count_a_part_twice(model):
+    model.amalgamations = {"FM": ["FeO", "MgO"]}
+    model.active_parts = ["FM", "CaO", "SiO2"]
+    model.set_sbp([[1, -1, -1], [0, 1, -1]])
+    with pytest.raises(traitlets.TraitError, match="CaO twice"):
+        model.amalgamations = {"FM": ["FeO", "CaO"]}
+    assert model.amalgamations == {"FM": ["FeO", "MgO"]}
+    assert model.sbp is not None
+    # a valid redefinition keeps the partition; the balances follow the new members
+    model.amalgamations = {"FM": ["FeO", "MgO", "Al2O3"]}
+    assert model.sbp is not None
+    fm = model.part_values(["FM"])[:, 0]
+    parts = model.composition.values
+    np.testing.assert_allclose(fm, (parts["FeO"] + parts["MgO"] + parts["Al2O3"]).to_numpy())
+
+
+def test_cached_arrays_are_read_only(model):
+    model.select([1, 2])
+    for array in (model.selected_mask(), model.part_values(), model.complete_rows()):
+        with pytest.raises(ValueError):
+            array[0] = array[0]
