@@ -71,6 +71,19 @@ export function selectedCountText(n) {
 }
 
 /**
+ * Which rows the statistics use, when some rows are left out ("" when none is).
+ * @param {number} nUsed rows complete in the active parts
+ * @param {number} nRows rows of the table
+ * @returns {string}
+ */
+export function rowsUsedText(nUsed, nRows) {
+  const used = Math.max(0, Math.trunc(Number(nUsed) || 0));
+  const rows = Math.max(0, Math.trunc(Number(nRows) || 0));
+  if (rows === 0 || used >= rows) return "";
+  return `statistics on ${used} of ${rows} rows (${rows - used} missing or zero in an active part)`;
+}
+
+/**
  * The total variance line.
  * @param {number | null | undefined} total
  * @returns {string}

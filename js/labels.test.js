@@ -11,6 +11,7 @@ import {
   formatShare,
   leafTitle,
   partsLabel,
+  rowsUsedText,
   selectedCountText,
   totalVarianceText,
   truncate,
@@ -56,4 +57,13 @@ test("truncate keeps short text and cuts long text with an ellipsis", () => {
   assert.equal(truncate("abc", 5), "abc");
   assert.equal(truncate("abcdefgh", 5), "abcd\u2026");
   assert.equal(truncate("abcdefgh", 5).length, 5);
+});
+
+test("the rows the statistics leave out are said, and nothing is said when none is", () => {
+  assert.equal(
+    rowsUsedText(1920, 2000),
+    "statistics on 1920 of 2000 rows (80 missing or zero in an active part)",
+  );
+  assert.equal(rowsUsedText(2000, 2000), "");
+  assert.equal(rowsUsedText(0, 0), "");
 });

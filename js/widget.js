@@ -6,13 +6,13 @@
 // snapshots of the trees here. All text from the data is set with textContent.
 //
 // Synced traits read here: parts, tree, stats, selection_stats, total_variance,
-// n_selected, n_samples, groups, error, busy, progress, colour_balance.
+// n_selected, n_samples, n_rows, groups, error, busy, progress, colour_balance.
 // Written here: tree, colour_balance. Custom message sent: {type: "suggest", method}.
 
 import { canRedo, canUndo, createHistory, dropPresent, pushState, redo, undo } from "./history.js";
 import { closestRole, findByAttr, html } from "./dom.js";
 import { drawDendrogram } from "./dendrogram.js";
-import { defaultBalanceName, selectedCountText, totalVarianceText } from "./labels.js";
+import { defaultBalanceName, rowsUsedText, selectedCountText, totalVarianceText } from "./labels.js";
 import { labelMargin, layoutDendrogram } from "./layout.js";
 import { drawSplitter } from "./splitter.js";
 import { drawTable } from "./table.js";
@@ -43,6 +43,7 @@ const WATCHED = [
   "total_variance",
   "n_selected",
   "n_samples",
+  "n_rows",
   "groups",
   "error",
   "busy",
@@ -126,7 +127,8 @@ export function render({ model, el }) {
   });
   const totalLine = html(doc, "span", { class: "cw-info", "data-role": "total-variance" });
   const countLine = html(doc, "span", { class: "cw-info", "data-role": "n-selected" });
-  for (const b of [undoButton, redoButton, principalButton, wardButton, totalLine, countLine]) toolbar.appendChild(b);
+  const rowsLine = html(doc, "span", { class: "cw-info", "data-role": "rows-used" });
+  for (const b of [undoButton, redoButton, principalButton, wardButton, totalLine, countLine, rowsLine]) toolbar.appendChild(b);
   const progressLine = html(doc, "div", { class: "cw-progress", "data-role": "progress", "aria-live": "polite" });
   const errorLine = html(doc, "div", { class: "cw-error", "data-role": "error", role: "alert" });
   const main = html(doc, "div", { class: "cw-main" });
@@ -260,6 +262,8 @@ export function render({ model, el }) {
     wardButton.toggleAttribute("disabled", busy);
     totalLine.textContent = totalVarianceText(model.get("total_variance"));
     countLine.textContent = selectedCountText(model.get("n_selected") || 0);
+    rowsLine.textContent = rowsUsedText(model.get("n_samples"), model.get("n_rows"));
+    rowsLine.toggleAttribute("hidden", !rowsLine.textContent);
     progressLine.textContent = busy ? String(model.get("progress") || "computing\u2026") : "";
     progressLine.toggleAttribute("hidden", !busy);
     const message = String(model.get("error") || state.localError || "");

@@ -82,6 +82,7 @@ test("first render: count, total variance, one leaf, part names as text only", (
   const { doc, el, one, byRole } = setup();
   assert.equal(one("n-selected").textContent, "n selected: 7");
   assert.equal(one("total-variance").textContent, "total variance: 2.5");
+  assert.equal(one("rows-used").textContent, "", "no n_rows given: nothing is said");
   const leaf = one("leaf");
   assert.equal(leaf.getAttribute("data-node-id"), "n0");
   const labels = byRole("part-label").map((n) => n.textContent);
@@ -286,4 +287,10 @@ test("cleanup removes every listener and the view", () => {
   assert.equal(model.handlerCount(), 0);
   assert.equal(root.listenerCount(), 0);
   assert.equal(el.childNodes.length, 0);
+});
+
+test("the toolbar says how many rows the statistics leave out", () => {
+  const { one } = setup({ n_samples: 37, n_rows: 40 });
+  assert.equal(one("rows-used").textContent, "statistics on 37 of 40 rows (3 missing or zero in an active part)");
+  assert.equal(one("rows-used").getAttribute("hidden"), null);
 });

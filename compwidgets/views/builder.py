@@ -113,6 +113,8 @@ class BalanceBuilder(anywidget.AnyWidget):
         Total variance of the active parts (complete rows, ddof = 1).
     n_samples : int
         Rows complete in the active parts (the rows of every statistic).
+    n_rows : int
+        Rows of the table; the widget says how many the statistics leave out.
     n_selected : int
         Selected rows (``model.selection.size``).
     groups : list of dict
@@ -141,6 +143,7 @@ class BalanceBuilder(anywidget.AnyWidget):
     selection_stats = t.List(t.Dict()).tag(sync=True)
     total_variance = t.Float(None, allow_none=True).tag(sync=True)
     n_samples = t.Int(0).tag(sync=True)
+    n_rows = t.Int(0).tag(sync=True)
     n_selected = t.Int(0).tag(sync=True)
     groups = t.List(t.Dict()).tag(sync=True)
     error = t.Unicode("").tag(sync=True)
@@ -168,7 +171,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         self._summary: list[dict] = []
         self._total: float | None = None
         self._n_ok = 0
-        super().__init__(**kwargs)
+        super().__init__(n_rows=model.n_rows, **kwargs)
         self.observe(self._on_tree, names=["tree"])
         self.observe(self._on_parts, names=["parts"])
         self.observe(self._on_colour_balance, names=["colour_balance"])
