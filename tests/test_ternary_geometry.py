@@ -292,3 +292,26 @@ def test_regions_refuse_bad_data(X, message):
 def test_region_level_must_be_a_probability():
     with pytest.raises(CompositionError, match="level"):
         rg.probability_region(simulate(20, 5), 1.0)
+
+
+def test_chi_square_regions_from_small_samples_hold_fewer_new_samples():
+    # Why the ternary view warns about small groups. Multivariate normal theory (common
+    # practice, from memory): with mean and covariance estimated from n samples, a new
+    # sample y satisfies n/(n+1) (y - ybar)' S^-1 (y - ybar) ~ p (n-1)/(n-p) F(p, n-p), so
+    # the chi-square radius with estimated parameters covers less than its level.
+    from scipy import stats
+
+    rng = np.random.default_rng(20261202)
+    n, p, level, trials = 10, 2, 0.95, 4000
+    samples = rng.standard_normal((trials, n + 1, p))
+    fit, new = samples[:, :n], samples[:, n]
+    mean = fit.mean(axis=1)
+    cov = np.einsum("tni,tnj->tij", fit - mean[:, None], fit - mean[:, None]) / (n - 1)
+    d = new - mean
+    m2 = np.einsum("ti,tij,tj->t", d, np.linalg.inv(cov), d)
+    chi2_cover = np.mean(m2 <= rg.probability_radius2(level))
+    exact = p * (n + 1) * (n - 1) / (n * (n - p)) * stats.f.ppf(level, p, n - p)
+    exact_cover = np.mean(m2 <= exact)
+    tol = 4 * np.sqrt(level * (1 - level) / trials)  # 4 binomial standard deviations
+    assert abs(exact_cover - level) < tol  # the F-based radius is right ...
+    assert chi2_cover < level - 5 * tol  # ... and the chi-square one clearly short

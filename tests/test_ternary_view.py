@@ -631,3 +631,14 @@ def test_density_picture_is_a_new_image_widget_each_time(big_model):
     assert view.density.image is second and second.comm is not None
     view.close()
     assert second.comm is None
+
+
+def test_the_view_warns_that_small_group_regions_under_cover():
+    df = make_frame(200, seed=4)
+    df["site"] = ["few"] * 12 + ["many"] * 188
+    m = CompositionModel(read_composition(df, check_total=False), group_column="site")
+    v = TernaryView(m, parts=PARTS[:3], probability_levels=[0.95], confidence_level=0.9)
+    assert "fewer than 30 rows: group 'few' (12)" in v.notes.value
+    assert "many" not in v.notes.value.split("fewer than 30 rows:")[1].split(";")[0]
+    assert "probability regions (normal model on ilr) at 95 %" in v.notes.value
+    assert "confidence region of the centre at 90 %" in v.notes.value

@@ -43,6 +43,11 @@ def _format_level(level: float) -> str:
     return f"{pct:.0f}" if abs(pct - round(pct)) < 1e-9 else f"{pct:.3g}"
 
 
+#: Below this many rows a group's probability region, drawn from estimated
+#: parameters with chi-square quantiles, clearly under-covers: the view says so.
+SMALL_GROUP = 30
+
+
 class TernaryView(ScatterView):
     """Ternary diagram of three parts of the model, with selection tools.
 
@@ -345,9 +350,12 @@ class TernaryView(ScatterView):
         curves, colours, opacities = [], [], []
         centre_curves, centre_colours = [], []
         levels = list(self.probability_levels)
+        small = []
         for name, colour, X in groups:
             if not levels and self.confidence_level is None:
                 break
+            if levels and len(X) < SMALL_GROUP:
+                small.append(f"{name} ({len(X)})")
             try:
                 if levels:
                     for k, curve in enumerate(core_regions.probability_regions(X, levels)):
@@ -368,8 +376,22 @@ class TernaryView(ScatterView):
                 self.line.x, self.line.y = np.zeros(0), np.zeros(0)
             else:
                 self.line.x, self.line.y = line[0].astype(np.float32), line[1].astype(np.float32)
+        if small:
+            notes.insert(
+                0,
+                f"groups of fewer than {SMALL_GROUP} rows: {', '.join(small)}; their regions "
+                "use estimated parameters and hold fewer new samples than their level",
+            )
+        if self.confidence_level is not None:
+            notes.insert(
+                0, f"confidence region of the centre at {_format_level(self.confidence_level)} %"
+            )
         if levels:
-            notes.insert(0, "regions at " + ", ".join(_format_level(v) + " %" for v in levels))
+            notes.insert(
+                0,
+                "probability regions (normal model on ilr) at "
+                + ", ".join(_format_level(v) + " %" for v in levels),
+            )
         if self._notice:
             notes.insert(0, self._notice)
         self._set_note("overlays", "; ".join(notes))
