@@ -166,12 +166,25 @@ def save_ilr_csv(
     return path
 
 
+#: Column of the selected-rows CSV naming the parts whose value replaces one below detection.
+REPLACED_COLUMN = "replaced below detection"
+
+
 def save_selected_csv(model, path, include_balances: bool = True, **csv_options) -> int:
     """Write the selected rows (metadata, parts, and balances when an SBP is set) to CSV.
+
+    A column :data:`REPLACED_COLUMN` lists, per row, the parts whose value is a
+    replacement of a value below detection (empty when none), so imputed
+    values are never taken for measured ones.
 
     Returns the number of rows written (0 writes the header only).
     """
     frame = model.selected_frame()
+    if REPLACED_COLUMN in frame.columns:
+        raise ExportError(f"the table has a column named {REPLACED_COLUMN!r} already")
+    replaced = model.composition.replaced.iloc[model.selection]
+    names = np.asarray(replaced.columns, dtype=object)
+    frame[REPLACED_COLUMN] = [", ".join(names[row]) for row in replaced.to_numpy(dtype=bool)]
     if include_balances and model.sbp is not None:
         B = pd.DataFrame(
             np.array(model.balances())[model.selection],

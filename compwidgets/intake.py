@@ -1140,8 +1140,9 @@ def _one(column, action, original, value, detail) -> pd.DataFrame:
 
 
 def _text(x) -> np.ndarray:
-    """Numbers as short text ('5.0', '0.0005'), vectorised in numpy."""
-    return np.asarray(x, dtype=float).astype(str).astype(object)
+    """Numbers as short text with 6 significant digits ('5', '0.0003', '1.5e-07')."""
+    values = np.asarray(x, dtype=float)
+    return np.char.mod("%.6g", values).astype(object) if values.size else values.astype(object)
 
 
 def _report(

@@ -10,12 +10,19 @@ range, so every part is strictly positive and ratios stay well conditioned
 from __future__ import annotations
 
 import numpy as np
-from hypothesis import settings
+from hypothesis import HealthCheck, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
 #: Log-values are drawn in [-LOG_BOUND, LOG_BOUND].
 LOG_BOUND = 5.0
+
+# Every property test of the suite: no deadline and no "too slow" health check, as CI
+# shares two cores; example counts stay modest in each test instead.
+settings.register_profile(
+    "compwidgets", deadline=None, suppress_health_check=[HealthCheck.too_slow]
+)
+settings.load_profile("compwidgets")
 
 #: Settings for property tests: modest example counts, no deadline (shared CPU).
 PROPERTY_SETTINGS = settings(max_examples=60, deadline=None)

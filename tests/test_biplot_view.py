@@ -367,8 +367,9 @@ def test_association_text_against_sklearn_loadings(model, view):
         if j != i
     }
     order = sorted(cos, key=cos.get, reverse=True)
-    most = text.split("most associated:")[1].split("least associated:")[0]
-    least = text.split("least associated:")[1]
+    most = text.split("most associated (rays pointing the same way):")[1]
+    most = most.split("least associated")[0]
+    least = text.split("least associated (rays pointing the opposite way):")[1]
     listed_most = re.findall(r"^\s+(\S+)\s+([-+][0-9.]+)$", most, flags=re.M)
     listed_least = re.findall(r"^\s+(\S+)\s+([-+][0-9.]+)$", least, flags=re.M)
     assert [p for p, _ in listed_most] == order[:2]

@@ -490,3 +490,19 @@ def test_transformer_errors_name_rows_and_parts():
     before = X.copy()
     BalanceTransformer().fit_transform(X)
     pd.testing.assert_frame_equal(X, before)  # input not mutated
+
+
+def test_selected_rows_csv_says_which_values_were_replaced(tmp_path):
+    from compwidgets.export import REPLACED_COLUMN
+
+    df = pd.DataFrame(
+        {"A": [10.0, 20.0, 30.0], "B": ["<0.5", "2.0", "<0.5"], "C": [5.0, 6.0, 7.0]},
+        index=["r1", "r2", "r3"],
+    )
+    m = CompositionModel(read_composition(df, check_total=False))
+    m.select([0, 1, 2])
+    save_selected_csv(m, tmp_path / "sel.csv")
+    back = pd.read_csv(tmp_path / "sel.csv", index_col=0, keep_default_na=False)
+    # the cells written as "<0.5" in the caller's table are the replaced ones
+    assert back[REPLACED_COLUMN].tolist() == ["B", "", "B"]
+    assert (df["B"].astype(str).str.startswith("<")).tolist() == [True, False, True]

@@ -479,7 +479,7 @@ def test_hover_shows_values_units_and_replacement(model):
     closed = model.composition.values.loc["S00010", ["A", "B", "C"]].to_numpy()
     closed = 100 * closed / closed.sum()
     for line, part, pct in zip(lines[2:], "ABC", closed, strict=True):
-        assert line.startswith(f"{part}: {pct:.2f} % | ") and "wt%" in line
+        assert line.startswith(f"{part}: {pct:.2f} % of the 3 shown | ") and "wt%" in line
     assert "replaced" in lines[4] and "below detection" in lines[4]
 
 

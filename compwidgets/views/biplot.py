@@ -720,13 +720,18 @@ class BiplotView(ScatterView):
         least = valid.iloc[::-1].iloc[: min(_ASSOC_LISTED, len(valid) - k)]
         comps = " and ".join(str(c + 1) for c in plane)
         meaning = (
-            "cosine of the rays ~ correlation of the clr coordinates"
+            "cosine of the rays ~ correlation of the clr coordinates, which depends on the "
+            "parts included; the log-ratio sd of two tips (click a second one) does not"
             if fit.scaling == "covariance"
             else "cosine of the rays in this plane"
         )
-        lines = [f"{part}: rays in components {comps}", f"({meaning})", "most associated:"]
+        lines = [
+            f"{part}: rays in components {comps}",
+            f"({meaning})",
+            "most associated (rays pointing the same way):",
+        ]
         lines += [f"  {name}  {cos:+.2f}" for name, cos in most.items()]
-        lines.append("least associated:")
+        lines.append("least associated (rays pointing the opposite way):")
         lines += [f"  {name}  {cos:+.2f}" for name, cos in least.items()]
         undefined = [str(p) for p in assoc.index[assoc.isna()]]
         if undefined:

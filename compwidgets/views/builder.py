@@ -2,7 +2,9 @@
 
 :class:`BalanceBuilder` shows the partition as a balance dendrogram (bar
 length = variance of each balance, with the distribution of each balance on
-its axis) and a table of the balances. The user splits groups of parts, undoes
+its axis; Egozcue & Pawlowsky-Glahn 2005, and Pawlowsky-Glahn & Egozcue 2011,
+Exploring compositional data with the CoDa-dendrogram, Austrian Journal of
+Statistics 40, from memory) and a table of the balances. The user splits groups of parts, undoes
 splits, merges leaves back, renames balances and asks for suggestions
 (principal balances, Ward clustering). The front end (``js/``) draws and edits;
 every proposed tree is validated here with :mod:`compwidgets.core.tree`, every

@@ -478,7 +478,10 @@ class TernaryView(ScatterView):
             members = cm.part_members(m, part)
             replaced = bool(comp.replaced[members].iloc[row].any())
             raw = comp.raw[members].iloc[row].to_numpy(dtype=float)
-            text = f"{part}: {100 * closed[j]:.2f} % | {cm.format_number(values[j])} {unit}"
+            text = (
+                f"{part}: {100 * closed[j]:.2f} % of the 3 shown | "
+                f"{cm.format_number(values[j])} {unit}"
+            )
             if replaced:
                 known = raw[np.isfinite(raw)]
                 observed = (
