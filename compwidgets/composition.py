@@ -107,6 +107,19 @@ class Composition:
         """Cells that were below detection and now hold a replacement value."""
         return (self.status == BELOW_DL) & self.values.notna()
 
+    def in_reported_unit(self, part: str, values) -> tuple[np.ndarray, str]:
+        """Values of ``part`` (given in :attr:`unit`) in the unit the table reported it in.
+
+        Traces reported in ppm read back in ppm even when the common unit is wt%.
+        """
+        from .units import unit_factor
+
+        values = np.asarray(values, dtype=float)
+        reported = self.units.get(part, self.unit)
+        if reported == self.unit or self.unit == "count" or reported == "count":
+            return values, self.unit
+        return values * unit_factor(self.unit, reported), reported
+
     def complete_rows(self, parts: Sequence[str] | None = None) -> np.ndarray:
         """Rows with a finite, positive value in every part of ``parts`` (default: all)."""
         if parts is None:

@@ -642,3 +642,22 @@ def test_the_view_warns_that_small_group_regions_under_cover():
     assert "many" not in v.notes.value.split("fewer than 30 rows:")[1].split(";")[0]
     assert "probability regions (normal model on ilr) at 95 %" in v.notes.value
     assert "confidence region of the centre at 90 %" in v.notes.value
+
+
+def test_hover_reads_traces_back_in_the_unit_they_were_reported_in():
+    df = pd.DataFrame(
+        {
+            "SiO2 (wt%)": [60.0, 55.0, 70.0],
+            "CaO (wt%)": [8.0, 9.0, 5.0],
+            "Cu (ppm)": [45.0, 30, 12],
+        },
+        index=["q1", "q2", "q3"],
+    )
+    m = CompositionModel(read_composition(df, check_total=False))
+    assert m.composition.unit == "wt%"
+    v = TernaryView(m, ["SiO2", "CaO", "Cu"])
+    pos = int(np.flatnonzero(v._mark_rows == 0)[0])
+    v._on_hover(v.scatter, {"event": "hover", "point": {"index": pos}})
+    lines = [label.value for label in v._tooltip_lines if label.value]
+    # the caller's own numbers, in the caller's own units
+    assert lines[1].endswith("| 60 wt%") and lines[3].endswith("| 45 ppm")

@@ -154,10 +154,11 @@ def test_replaced_values_match_the_report(panel, model):
     assert sorted(replaced["row"]) == ["S10", "S11"] and set(replaced["column"]) == {"Cu"}
     label, pos = item(panel, "Cu: replaced")
     assert pos.tolist() == positions(model, replaced["row"])
-    # by how much: the limit (5 ppm = 0.0005 wt%) and the value put in its place
-    assert "detection limit 0.0005 wt%" in label
+    # by how much, in the unit Cu was reported in: the limit 5 ppm and the value put in
+    # its place (the report holds wt%: 1 wt% = 10,000 ppm, common practice)
+    assert "detection limit 5 ppm" in label
     values = replaced["value"].to_numpy(dtype=float)
-    assert f"now {values.min():.3g} wt%" in label  # one value: both rows had the same limit
+    assert f"now {values.min() * 1e4:.3g} ppm" in label  # both rows had the same limit
     # intake's default fraction 0.65 of the limit (Martin-Fernandez et al. 2003 style)
     np.testing.assert_allclose(values, 0.65 * 0.0005, rtol=1e-9)
 

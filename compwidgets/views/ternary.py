@@ -473,14 +473,18 @@ class TernaryView(ScatterView):
         parts = list(self.parts)
         closed = np.asarray(m.closed(parts))[row]
         values = m.part_values(parts)[row]
-        unit = comp.unit
         for j, part in enumerate(parts):
             members = cm.part_members(m, part)
             replaced = bool(comp.replaced[members].iloc[row].any())
             raw = comp.raw[members].iloc[row].to_numpy(dtype=float)
+            if part in comp.units:  # a part of the table: in the unit it was reported in
+                (value,), unit = comp.in_reported_unit(part, [values[j]])
+                raw, _ = comp.in_reported_unit(part, raw)
+            else:  # an amalgamation: members may differ in unit, show the common one
+                value, unit = values[j], comp.unit
             text = (
                 f"{part}: {100 * closed[j]:.2f} % of the 3 shown | "
-                f"{cm.format_number(values[j])} {unit}"
+                f"{cm.format_number(value)} {unit}"
             )
             if replaced:
                 known = raw[np.isfinite(raw)]
@@ -488,7 +492,7 @@ class TernaryView(ScatterView):
                     f"{cm.format_number(known.sum())} {unit} observed, " if known.size else ""
                 )
                 text += f" (replaced; {observed}below detection)"
-            elif np.all(np.isfinite(raw)) and not np.isclose(raw.sum(), values[j]):
+            elif np.all(np.isfinite(raw)) and not np.isclose(raw.sum(), value):
                 text += f" (raw {cm.format_number(raw.sum())} {unit})"
             lines.append(text)
         return lines

@@ -123,7 +123,6 @@ def intake_items(composition) -> list[TriageItem]:
     """
     c = composition
     index = c.values.index
-    unit = c.unit
     items: list[TriageItem] = []
 
     flags = c.flags
@@ -173,8 +172,11 @@ def intake_items(composition) -> list[TriageItem]:
         dl, new = limits[pos, j], values[pos, j]
         with np.errstate(divide="ignore", invalid="ignore"):
             share = new / dl
+        dl, shown_unit = c.in_reported_unit(part, dl)  # traces read back in ppm
+        new, _ = c.in_reported_unit(part, new)
         label = (
-            f"{part}: replaced; detection limit {_span(dl)} {unit}, now {_span(new)} {unit}"
+            f"{part}: replaced; detection limit {_span(dl)} {shown_unit}, "
+            f"now {_span(new)} {shown_unit}"
             + (f" ({_span(share)} x limit)" if np.isfinite(share).any() else "")
         )
         items.append(TriageItem("Replaced values", label, pos))
