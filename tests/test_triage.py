@@ -336,3 +336,11 @@ def test_part_named_like_markup_shows_verbatim(model):
     assert (
         "No outlier screening" in panel.outlier_label.value
     )  # 3 rows, 2 coordinates: too few, said so
+
+
+def test_a_grouped_table_is_screened_group_by_group_by_default(model):
+    model.group_column = "site"
+    assert TriagePanel(model).by_group.value
+    assert not TriagePanel(model, by_group=False).by_group.value
+    model.group_column = ""
+    assert not TriagePanel(model).by_group.value

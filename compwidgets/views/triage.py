@@ -199,6 +199,10 @@ class TriagePanel(w.VBox):
         Fit the MCD on a seeded random sample of at most this many complete
         rows (the fit time grows with the rows); distances are computed for
         every complete row. None fits on all rows.
+    by_group : bool, optional
+        Screen each group of the grouping column on its own. Default: True
+        when the model has a grouping column (rows of another population
+        also lie far from a single centre), else False.
 
     Attributes
     ----------
@@ -224,6 +228,7 @@ class TriagePanel(w.VBox):
         support_fraction: float | None = None,
         random_state: int | None = 0,
         max_fit_rows: int | None = 5000,
+        by_group: bool | None = None,
         **kwargs,
     ):
         self.model = model
@@ -261,7 +266,9 @@ class TriagePanel(w.VBox):
         )
         self.quantile.observe(capture(self._quantile_changed), names=["value"])
         self.by_group = w.Checkbox(
-            value=False,
+            # a table of several populations (catchments, rock types) is screened group by
+            # group by default: one robust centre would flag whole minority groups
+            value=bool(model.group_column) if by_group is None else bool(by_group),
             description="screen each group of the grouping column on its own",
             disabled=not model.group_column,
             style={"description_width": "initial"},
