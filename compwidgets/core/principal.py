@@ -46,23 +46,29 @@ CHUNK = 1 << 15
 ProgressCallback = Callable[[float, int], None]
 
 
+def _complete(t, skip_incomplete: bool, what: str):
+    """The rows of ``t`` without NaN or inf; raises naming them unless ``skip_incomplete``."""
+    incomplete = ~np.all(np.isfinite(t.values), axis=1)
+    if not incomplete.any():
+        return t
+    if not skip_incomplete:
+        rows = t.row_labels(np.flatnonzero(incomplete))
+        raise CompositionError(
+            f"{what}: NaN or inf in {len(rows)} row(s) (first: {rows[:5]}); "
+            "pass the complete rows only, or skip_incomplete=True"
+        )
+    keep = ~incomplete
+    return type(t)(t.values[keep], None if t.index is None else t.index[keep], t.columns, False)
+
+
 def _clr_input(X, kind: str, skip_incomplete: bool) -> tuple[np.ndarray, list[str]]:
     """clr matrix (n, D) and part names from compositions or clr coordinates."""
     if kind not in ("auto", "composition", "clr"):
         raise CompositionError(f"kind must be 'auto', 'composition' or 'clr', got {kind!r}")
     t = as_table(X, min_parts=2)
     names = [n[4:-1] if n.startswith("clr(") and n.endswith(")") else n for n in t.part_names()]
+    t = _complete(t, skip_incomplete, t.name)
     values = t.values
-    incomplete = ~np.all(np.isfinite(values), axis=1)
-    if incomplete.any():
-        if not skip_incomplete:
-            rows = t.row_labels(np.flatnonzero(incomplete))
-            raise CompositionError(
-                f"{t.name}: {len(rows)} row(s) with NaN or inf (first: {rows[:5]}); "
-                "pass the complete rows only, or skip_incomplete=True"
-            )
-        values = values[~incomplete]
-        t = type(t)(values, None if t.index is None else t.index[~incomplete], t.columns, False)
     if values.shape[0] <= DDOF:
         raise CompositionError(
             f"{t.name}: {values.shape[0]} complete row(s); a variance needs at least {DDOF + 1}"
@@ -326,16 +332,7 @@ def ward_sbp(
     names = list(parts) if parts is not None else t.part_names()
     if len(names) != D:
         raise SBPError(f"ward_sbp: {len(names)} part names for {D} clr columns")
-    values = t.values
-    incomplete = ~np.all(np.isfinite(values), axis=1)
-    if incomplete.any():
-        if not skip_incomplete:
-            rows = t.row_labels(np.flatnonzero(incomplete))
-            raise CompositionError(
-                f"ward_sbp: NaN or inf in {len(rows)} row(s) (first: {rows[:5]}); pass the "
-                "complete rows only, or skip_incomplete=True"
-            )
-        values = values[~incomplete]
+    values = _complete(t, skip_incomplete, "ward_sbp").values
     if values.shape[0] < 2:
         raise CompositionError(f"ward_sbp: {values.shape[0]} complete row(s); needs at least 2")
     Z = values - values.mean(axis=0) if centred else values
