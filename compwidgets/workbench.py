@@ -137,7 +137,8 @@ class Workbench(w.AppLayout):
         self.views = [*self.ternaries, self.biplot]
         self.selection_bar = SelectionBar(model, views=self.views)
 
-        sidebar = w.Tab(children=[self.picker, self.triage])
+        # the variation heat table of many parts is wider than the column: scroll it there
+        sidebar = w.Tab(children=[self.picker, self.triage], layout=w.Layout(overflow="auto"))
         sidebar.titles = ("parts", "triage")
         # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
         plots = w.Box(
@@ -149,7 +150,7 @@ class Workbench(w.AppLayout):
             left_sidebar=sidebar,
             center=plots,
             footer=self.builder,
-            pane_widths=["360px", 1, 0],
+            pane_widths=["420px", 1, 0],
             grid_gap="8px",
         )
         # every row as tall as its content (AppLayout's own sizes are fixed or fractions)

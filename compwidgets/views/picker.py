@@ -128,7 +128,8 @@ class SubcompositionPicker(w.VBox):
             view_handler = capture(lambda change, i=i: self._sync_ternary(i))
             view.observe(view_handler, names=["parts"])
             self._view_handlers.append(view_handler)
-            rows.append(w.HBox([w.Label(value=f"Ternary {i + 1}"), *dds]))
+            label = w.Label(value=f"Ternary {i + 1}", layout=w.Layout(min_width="5.5em"))
+            rows.append(w.HBox([label, *dds]))
 
         # variation heat table
         self.heat_table = w.GridBox(layout=w.Layout(grid_gap="1px"))

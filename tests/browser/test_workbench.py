@@ -175,6 +175,7 @@ def test_quick_start_renders_every_view(quick_start):
         "biplot": ".cwtest-biplot",
         "builder": ".cw-builder",
         "selection-bar": ".cwtest-selection-bar",
+        "workbench": ".cw-workbench",
     }
     for name, selector in shots.items():
         path = nb.screenshot(nb.page.locator(selector), f"quick-start-{name}")
