@@ -275,8 +275,7 @@ class CompositionModel(t.HasTraits):
             raise ModelError(
                 f"unknown selection mode {mode!r}; use replace, add, remove or intersect"
             )
-        if not np.array_equal(new, self.selection):
-            self.selection = new
+        self.selection = new  # the trait itself ignores an equal array
 
     def select_labels(self, labels, mode: str = "replace") -> None:
         """Select rows by their original index labels (unknown labels raise)."""
