@@ -275,8 +275,9 @@ def test_multiplicative_replacement_in_percent_with_explicit_total():
 
 
 def test_multiplicative_replacement_with_below_mask():
-    # Cells flagged "below" are replaced even when they hold a number (here a
-    # reported value under the limit); observed total c = 0.7 + 0.2 = 0.9 by default.
+    # Martin-Fernandez, Barcelo-Vidal & Pawlowsky-Glahn (2003), worked by hand: cells
+    # flagged "below" are replaced even when they hold a number (here a reported value
+    # under the limit); observed total c = 0.7 + 0.2 = 0.9 by default, delta = 0.65 * 0.01.
     X = np.array([[0.7, 0.2, 0.001]])
     below = np.array([[False, False, True]])
     got = core.multiplicative_replacement(X, 0.01, below=below)
