@@ -25,6 +25,31 @@ from . import core
 from .composition import Composition
 
 _EMPTY = np.zeros(0, dtype=np.uint32)
+_MISSING = object()
+
+
+def _nbytes(value) -> int:
+    """Approximate bytes held by a cached value (arrays, frames, tuples, dataclasses)."""
+    if isinstance(value, np.ndarray):
+        return int(value.nbytes)
+    if isinstance(value, (pd.DataFrame, pd.Series)):
+        return int(np.sum(value.memory_usage(index=False)))
+    if isinstance(value, (tuple, list)):
+        return sum(_nbytes(v) for v in value)
+    if isinstance(value, dict):
+        return sum(_nbytes(v) for v in value.values())
+    if hasattr(value, "__dict__"):
+        return sum(_nbytes(v) for v in vars(value).values())
+    return 64
+
+
+def _freeze(value) -> None:
+    """Make the arrays of a cached value read-only (a tuple's, a list's, its own)."""
+    if isinstance(value, np.ndarray):
+        value.flags.writeable = False
+    elif isinstance(value, (tuple, list)):
+        for v in value:
+            _freeze(v)
 
 
 class ModelError(ValueError):
@@ -91,8 +116,11 @@ class CompositionModel(t.HasTraits):
     colour_by = t.Unicode("")
     metadata_version = t.Int(0)
 
-    #: How many derived matrices the cache keeps (closed, clr, ilr per set of parts).
-    cache_size = 24
+    #: Most entries the cache of derived data keeps (closed, clr, ilr, the views'
+    #: projections and density bins, per set of parts); the least recently used go first.
+    cache_size = 256
+    #: Most bytes that cache keeps (the arrays of a million rows are large).
+    cache_bytes = 512 * 2**20
 
     def __init__(
         self,
@@ -109,6 +137,8 @@ class CompositionModel(t.HasTraits):
         self.composition = composition
         self._extra_metadata = pd.DataFrame(index=composition.values.index)
         self._cache: OrderedDict = OrderedDict()
+        self._cache_sizes: dict = {}
+        self._cache_used = 0
         self._selected_mask: np.ndarray | None = None
         super().__init__(selection=_EMPTY.copy(), **kwargs)
         self.active_parts = list(active_parts) if active_parts is not None else composition.parts
@@ -363,15 +393,72 @@ class CompositionModel(t.HasTraits):
         return (kind, tuple((p, tuple(self.members(p))) for p in parts))
 
     def _store(self, key, value):
+        """Keep ``value`` under ``key``; drop the least recently used beyond the budget."""
+        old = self._cache.pop(key, None)
+        if old is not None:
+            self._cache_used -= self._cache_sizes.pop(key, 0)
+        size = _nbytes(value)
         self._cache[key] = value
-        self._cache.move_to_end(key)
-        while len(self._cache) > self.cache_size:
-            self._cache.popitem(last=False)
+        self._cache_sizes[key] = size
+        self._cache_used += size
+        while len(self._cache) > 1 and (
+            len(self._cache) > self.cache_size or self._cache_used > self.cache_bytes
+        ):
+            oldest = next(iter(self._cache))
+            if oldest == key:
+                break
+            del self._cache[oldest]
+            self._cache_used -= self._cache_sizes.pop(oldest, 0)
+        return value
+
+    def _cached(self, key):
+        """The cached value of ``key`` (marked as just used), or :data:`_MISSING`."""
+        value = self._cache.get(key, _MISSING)
+        if value is not _MISSING:
+            self._cache.move_to_end(key)
+        return value
+
+    @property
+    def cache_used(self) -> int:
+        """Bytes of derived data held in the cache now (see :attr:`cache_bytes`)."""
+        return self._cache_used
+
+    def derived(self, kind, parts: Sequence[str] | None, compute):
+        """A value derived from ``parts``, computed once per set of parts and kept.
+
+        The cache that holds the model's own derived arrays also keeps what a
+        view derives from them (a projection, density bin numbers, a fitted
+        biplot), so that switching back to a set of parts shown before is a
+        lookup. Keys name the members of amalgamations, so a redefined
+        amalgamation is a new key.
+
+        Parameters
+        ----------
+        kind : hashable
+            What is derived, with every option that changes it (e.g.
+            ``("ternary-xy", centred)``).
+        parts : sequence of str or None
+            The parts it is derived from (None: the active parts).
+        compute : callable
+            Called without arguments when the value is not cached. Arrays in
+            the result are made read-only.
+
+        Returns
+        -------
+        The cached or newly computed value.
+        """
+        key = self._key(kind, self._resolve(parts))
+        value = self._cached(key)
+        if value is _MISSING:
+            value = compute()
+            _freeze(value)
+            self._store(key, value)
         return value
 
     def _resolve(self, parts: Sequence[str] | None) -> list[str]:
         parts = list(self.active_parts if parts is None else parts)
-        unknown = [p for p in parts if p not in self.available_parts]
+        known = set(self.parts).union(self.amalgamations)
+        unknown = [p for p in parts if p not in known]
         if unknown:
             raise ModelError(f"unknown part(s) {unknown}; available: {self.available_parts}")
         return parts
@@ -380,12 +467,17 @@ class CompositionModel(t.HasTraits):
         """Values (common unit) of ``parts``, amalgamations summed; NaN where missing."""
         parts = self._resolve(parts)
         key = self._key("values", parts)
-        if key in self._cache:
-            self._cache.move_to_end(key)
-            return self._cache[key]
+        values = self._cached(key)
+        if values is not _MISSING:
+            return values
         frame = self.composition.values
-        columns = [frame[self.members(p)].to_numpy(dtype=float).sum(axis=1) for p in parts]
-        values = np.column_stack(columns)
+        values = np.empty((self.n_rows, len(parts)))
+        for j, p in enumerate(parts):
+            members = self.members(p)
+            if len(members) == 1:
+                values[:, j] = frame[members[0]].to_numpy(dtype=float)
+            else:
+                values[:, j] = frame[members].to_numpy(dtype=float).sum(axis=1)
         values.flags.writeable = False
         return self._store(key, values)
 
@@ -393,26 +485,52 @@ class CompositionModel(t.HasTraits):
         """Boolean mask of rows with a finite positive value in every one of ``parts``."""
         parts = self._resolve(parts)
         key = self._key("complete", parts)
-        if key not in self._cache:
+        complete = self._cached(key)
+        if complete is _MISSING:
             v = self.part_values(parts)
-            complete = np.all(np.isfinite(v) & (v > 0), axis=1)
+            with np.errstate(invalid="ignore"):
+                complete = np.all(v > 0, axis=1) & np.all(np.isfinite(v), axis=1)
             complete.flags.writeable = False
             self._store(key, complete)
-        return self._cache[key]
+        return complete
 
     def _derived(self, kind: str, parts: Sequence[str] | None, func, width_offset: int = 0):
         parts = self._resolve(parts)
         key = self._key(kind, parts)
-        if key in self._cache:
-            self._cache.move_to_end(key)
-            return self._cache[key]
+        out = self._cached(key)
+        if out is not _MISSING:
+            return out
         ok = self.complete_rows(parts)
-        width = len(parts) + width_offset
-        out = np.full((self.n_rows, width), np.nan)
-        if ok.any():
-            out[ok] = np.asarray(func(self.part_values(parts)[ok]), dtype=float)
+        values = self.part_values(parts)
+        if ok.all():  # no copy of the values and no filling: the common case
+            out = np.asarray(func(values), dtype=float)
+        else:
+            out = np.full((self.n_rows, len(parts) + width_offset), np.nan)
+            if ok.any():
+                out[ok] = np.asarray(func(values[ok]), dtype=float)
+        if not out.flags.owndata or out.base is not None:
+            out = np.array(out)  # never a view of something else the caller could change
         out.flags.writeable = False
         return self._store(key, out)
+
+    def replaced(self) -> np.ndarray:
+        """Boolean (n_rows, n_parts): the value was below detection and has been replaced."""
+        key = ("replaced",)
+        mask = self._cached(key)
+        if mask is _MISSING:
+            mask = np.ascontiguousarray(self.composition.replaced.to_numpy(dtype=bool))
+            mask.flags.writeable = False
+            self._store(key, mask)
+        return mask
+
+    def replaced_rows(self, parts: Sequence[str] | None = None) -> np.ndarray:
+        """Boolean mask (n_rows,): a value of one of ``parts`` (or of a member) was replaced."""
+        parts = self._resolve(parts)
+        position = {name: j for j, name in enumerate(self.parts)}
+        columns = [position[m] for p in parts for m in self.members(p)]
+        return self.derived(
+            "replaced-rows", parts, lambda: self.replaced()[:, columns].any(axis=1)
+        )
 
     def closed(self, parts: Sequence[str] | None = None) -> np.ndarray:
         """Closed subcomposition of ``parts`` (default: active parts); NaN rows are incomplete."""
@@ -482,11 +600,13 @@ class CompositionModel(t.HasTraits):
         """Variation matrix of ``parts`` over the complete rows (ddof = 1)."""
         parts = self._resolve(parts)
         key = self._key("variation", parts)
-        if key not in self._cache:
+        T = self._cached(key)
+        if T is _MISSING:
             ok = self.complete_rows(parts)
-            frame = pd.DataFrame(self.part_values(parts)[ok], columns=parts)
-            self._store(key, core.variation_matrix(frame))
-        return self._cache[key]
+            values = self.part_values(parts)
+            frame = pd.DataFrame(values if ok.all() else values[ok], columns=parts, copy=False)
+            T = self._store(key, core.variation_matrix(frame))
+        return T
 
     # ---------------------------------------------------------------- exports
     def ilr_frame(self, **options) -> pd.DataFrame:

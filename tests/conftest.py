@@ -10,6 +10,7 @@ range, so every part is strictly positive and ratios stay well conditioned
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from hypothesis import HealthCheck, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
@@ -69,3 +70,19 @@ def valid_sbps(draw, n_parts: int) -> np.ndarray:
         rows.append(row)
         open_groups.extend(side for side in (plus, minus) if len(side) > 1)
     return np.array(rows, dtype=int).reshape(n_parts - 1, n_parts)
+
+
+@pytest.fixture
+def opened_comms(monkeypatch) -> list:
+    """Target names of the comms opened from now on (a new widget opens one)."""
+    import comm
+
+    opened: list = []
+    original = comm.create_comm
+
+    def counting(**kwargs):
+        opened.append(kwargs.get("target_name"))
+        return original(**kwargs)
+
+    monkeypatch.setattr(comm, "create_comm", counting)
+    return opened

@@ -133,8 +133,7 @@ def check_view_parts(model, parts: Sequence[str], count: int) -> list[str]:
 
 def replaced_rows(model, parts: Sequence[str]) -> np.ndarray:
     """Boolean mask (n_rows,): a value below detection was replaced in one of ``parts``."""
-    members = [m for p in parts for m in part_members(model, p)]
-    return model.composition.replaced[members].to_numpy(dtype=bool).any(axis=1)
+    return model.replaced_rows(parts)
 
 
 def left_out_message(n: int, parts: Sequence[str]) -> str:

@@ -1,56 +1,41 @@
 """Density images for large views: all rows (muted) plus the selection, as one PNG.
 
 The counts come from :mod:`compwidgets.core.geometry`; this module only turns
-them into colours and encodes a PNG with numpy and zlib (no imaging library).
-The bin of every point is computed once per set of coordinates, so a new
-selection costs one ``bincount`` of the selected points and one small image.
+them into colours and encodes the PNG with Pillow. The bin of every point is
+computed once per set of coordinates, and kept by model row too, so a new
+selection costs one look-up of the selected rows' bins, one ``bincount`` and
+one small image (the cost follows the size of the selection, not of the table).
 """
 
 from __future__ import annotations
 
-import struct
-import zlib
+import io
 
 import numpy as np
+from PIL import Image
 
 from ..core import geometry
 from ._common import DENSITY_ALL_COLOUR, DENSITY_SELECTION_COLOUR, hex_to_rgb
 
 __all__ = ["DensityImage", "encode_png", "compose_rgba"]
 
-_PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
-
-
-def _chunk(kind: bytes, data: bytes) -> bytes:
-    return (
-        struct.pack(">I", len(data))
-        + kind
-        + data
-        + struct.pack(">I", zlib.crc32(kind + data) & 0xFFFFFFFF)
-    )
-
 
 def encode_png(rgba: np.ndarray, level: int = 3) -> bytes:
-    """PNG bytes of an RGBA image (8 bits per channel, no filtering, zlib ``level``).
+    """PNG bytes of an RGBA image (8 bits per channel), encoded by Pillow.
 
     Parameters
     ----------
     rgba : ndarray of uint8, shape (height, width, 4)
         Row 0 is the top of the image.
+    level : int, default 3
+        zlib compression level (0-9).
     """
     img = np.ascontiguousarray(rgba, dtype=np.uint8)
     if img.ndim != 3 or img.shape[2] != 4:
         raise ValueError(f"encode_png needs an (height, width, 4) array, got {img.shape}")
-    h, w, _ = img.shape
-    raw = np.zeros((h, 1 + 4 * w), dtype=np.uint8)  # filter byte 0 ("none") per row
-    raw[:, 1:] = img.reshape(h, 4 * w)
-    header = struct.pack(">IIBBBBB", w, h, 8, 6, 0, 0, 0)  # 8-bit RGBA
-    return (
-        _PNG_SIGNATURE
-        + _chunk(b"IHDR", header)
-        + _chunk(b"IDAT", zlib.compress(raw.tobytes(), level))
-        + _chunk(b"IEND", b"")
-    )
+    out = io.BytesIO()
+    Image.fromarray(img, mode="RGBA").save(out, format="PNG", compress_level=int(level))
+    return out.getvalue()
 
 
 def _intensity(counts: np.ndarray) -> np.ndarray:
@@ -103,16 +88,45 @@ class DensityImage:
         self.extent = tuple(float(v) for v in extent)
         self.bins = (int(bins[0]), int(bins[1]))
         self._index = np.zeros(0, dtype=np.int32)
+        self._by_row: np.ndarray | None = None
         self._all = np.zeros(self.bins[::-1], dtype=np.int64)
 
-    def set_points(self, x: np.ndarray, y: np.ndarray) -> None:
-        """New coordinates: bins and the all-rows layer are recomputed."""
-        self._index = geometry.bin_index(x, y, self.extent, self.bins)
-        self._all = geometry.counts_from_bins(self._index, self.bins)
+    def set_points(
+        self,
+        x: np.ndarray,
+        y: np.ndarray,
+        rows: np.ndarray | None = None,
+        n_rows: int | None = None,
+        index: np.ndarray | None = None,
+    ) -> None:
+        """New coordinates: bins and the all-rows layer are recomputed.
+
+        Parameters
+        ----------
+        x, y : ndarray, shape (n,)
+        rows, n_rows : optional
+            Model row of each point and the model's row count: the bins are then
+            also kept by model row, for :meth:`counts_of_rows`.
+        index : ndarray of int, shape (n,), optional
+            Bin numbers of these points on this grid computed before
+            (:func:`compwidgets.core.geometry.bin_index`), instead of computing them.
+        """
+        if index is None:
+            index = geometry.bin_index(x, y, self.extent, self.bins)
+        self._index = index
+        self._all = geometry.counts_from_bins(index, self.bins)
+        self._by_row = None
+        if rows is not None and n_rows is not None:
+            self._by_row = _bins_by_row(index, rows, n_rows)
 
     @property
     def all_counts(self) -> np.ndarray:
         return self._all
+
+    @property
+    def index(self) -> np.ndarray:
+        """Bin number of each point (-1 outside the grid)."""
+        return self._index
 
     def selection_counts(self, mask: np.ndarray | None) -> np.ndarray | None:
         """Counts of the points where ``mask`` is True (None for no selection)."""
@@ -120,6 +134,31 @@ class DensityImage:
             return None
         return geometry.counts_from_bins(self._index, self.bins, mask)
 
+    def counts_of_rows(self, rows: np.ndarray) -> np.ndarray | None:
+        """Counts of the points of model rows ``rows`` (None when none of them is shown)."""
+        if self._by_row is None:
+            raise ValueError("counts_of_rows needs set_points(..., rows=, n_rows=)")
+        if rows.size == 0:
+            return None
+        picked = self._by_row[rows]
+        picked = picked[picked >= 0]
+        if picked.size == 0:
+            return None
+        nx, ny = self.bins
+        return np.bincount(picked, minlength=nx * ny).reshape(ny, nx)
+
     def render(self, mask: np.ndarray | None = None) -> bytes:
         """PNG of all points plus the points of ``mask`` (bool, one per point)."""
         return encode_png(compose_rgba(self._all, self.selection_counts(mask)))
+
+    def render_rows(self, rows: np.ndarray) -> bytes:
+        """PNG of all points plus the points of the model rows ``rows``."""
+        return encode_png(compose_rgba(self._all, self.counts_of_rows(rows)))
+
+
+def _bins_by_row(index: np.ndarray, rows: np.ndarray, n_rows: int) -> np.ndarray:
+    """Bin number per model row (-1 for rows not shown or outside the grid)."""
+    dtype = np.int32 if index.dtype == np.int32 else np.int64
+    out = np.full(int(n_rows), -1, dtype=dtype)
+    out[np.asarray(rows, dtype=np.intp)] = index
+    return out

@@ -229,6 +229,14 @@ class ScatterView(widgets.VBox):
         """((x0, x1), (y0, y1)) of the figure's scales."""
         raise NotImplementedError
 
+    def _coordinates_key(self):
+        """What ``_coordinates()`` depends on besides ``shown_parts()`` (hashable), or None.
+
+        When a subclass names it, results derived from the coordinates (the
+        density bins) are kept in the model's cache per set of parts.
+        """
+        return None
+
     def _density_extent(self) -> tuple[float, float, float, float]:
         """Data rectangle covered by the density image (default: the current view ranges)."""
         (x0, x1), (y0, y1) = self.view_ranges
@@ -290,7 +298,16 @@ class ScatterView(widgets.VBox):
 
         self._density_image = self._new_density_image()
         ex = self._density_image.extent
-        self._png = widgets.Image(value=self._density_image.render(), format="png")
+        # Two picture widgets made once: a new picture goes into the one not shown, which
+        # then becomes the mark's image (bqplot's Image mark redraws when its ``image``
+        # changes, not when the shown widget's value does; seen in Chromium). Messages
+        # reach the front end in order, so the value is there before the switch.
+        blank = self._density_image.render()
+        self._pictures = (
+            widgets.Image(value=blank, format="png"),
+            widgets.Image(value=blank, format="png"),
+        )
+        self._png = self._pictures[0]
         self.density = bq.Image(
             image=self._png, x=[ex[0], ex[1]], y=[ex[2], ex[3]], scales=xy, visible=False
         )
@@ -627,7 +644,7 @@ class ScatterView(widgets.VBox):
         finally:
             self._updating = False
         if self.active_mode == "density":
-            self._density_image.set_points(self._x, self._y)
+            self._set_density_points()
             self._render_density()
 
     def _apply_ranges(self, ranges, redraw_density: bool) -> None:
@@ -645,7 +662,7 @@ class ScatterView(widgets.VBox):
                 self.density.x = [extent[0], extent[1]]
                 self.density.y = [extent[2], extent[3]]
             if redraw_density and not self._refreshing and self.active_mode == "density":
-                self._density_image.set_points(self._x, self._y)
+                self._set_density_points()
                 self._render_density()
         self._size_figure()
         if not self._refreshing:  # refresh() draws the whole legend afterwards
@@ -680,7 +697,7 @@ class ScatterView(widgets.VBox):
             k = min(self.subsample_size, n)
             rng = np.random.default_rng(self.seed)
             pick = np.sort(rng.choice(n, size=k, replace=False)) if k < n else np.arange(n)
-            self._density_image.set_points(self._x, self._y)
+            self._set_density_points(cached=True)
         else:
             pick = np.arange(n)
         self._mark_pos = pick
@@ -704,6 +721,25 @@ class ScatterView(widgets.VBox):
         self._apply_tool()
         self._apply_colours()
         self._apply_selection()
+
+    def _set_density_points(self, cached: bool = False) -> None:
+        """Bin the points shown on the density grid (kept by model row for selections).
+
+        With ``cached`` (coordinates straight from ``_coordinates()``) and a
+        ``_coordinates_key()``, the bin numbers are kept in the model's cache
+        per set of parts, so that showing these parts again does not bin again.
+        """
+        image = self._density_image
+        key = self._coordinates_key() if cached else None
+        index = None
+        if key is not None:
+            x, y = self._x, self._y
+            index = self.model.derived(
+                ("density-bins", type(self).__name__, key, image.extent, image.bins),
+                self.shown_parts(),
+                lambda: geometry.bin_index(x, y, image.extent, image.bins),
+            )
+        image.set_points(self._x, self._y, self.rows, self.model.n_rows, index=index)
 
     def _draw_replaced(self) -> None:
         mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
@@ -742,9 +778,7 @@ class ScatterView(widgets.VBox):
                 colours = colours * 2
             lo, hi = 0, max(1, len(categories))
             colour = (codes[self._mark_rows] + 1).astype(np.float32)
-            shown = codes[self.rows]
-            present = np.zeros(len(categories) + 1, dtype=bool)
-            present[np.unique(shown) + 1] = True
+            present = np.bincount(codes[self.rows] + 1, minlength=len(categories) + 1) > 0
             entries = [(None, str(m.group_column))]
             listed = [(palette[i], str(c)) for i, c in enumerate(categories) if present[i + 1]]
             if present[0]:
@@ -824,22 +858,25 @@ class ScatterView(widgets.VBox):
         pos = np.flatnonzero(mask[self._mark_rows]).astype(np.uint32)
         self._set_mark_selected(pos if pos.size else None)
         if self.active_mode == "density":
-            self._render_density(mask)
+            self._render_density()
 
     def _render_density(self, mask: np.ndarray | None = None) -> None:
-        """Send the density image of the rows shown, with the selection (model mask) on top."""
-        if mask is None:
-            mask = self.model.selected_mask()
-        in_view = mask[self.rows]
-        png = self._density_image.render(in_view if in_view.any() else None)
-        old = self._png
-        if png == old.value:
+        """Show the density image of the rows shown, with the selection on top.
+
+        ``mask`` (model rows) is used when given; otherwise the model's selection
+        is looked up in the bins kept by row (the cost follows the selection's size).
+        """
+        if mask is not None:
+            in_view = mask[self.rows]
+            png = self._density_image.render(in_view if in_view.any() else None)
+        else:
+            png = self._density_image.render_rows(self.model.selection)
+        if png == self._png.value:
             return
-        # bqplot's Image mark redraws when its ``image`` widget is replaced, not when the
-        # widget's value changes (seen in Chromium): each new picture is a new widget
-        self._png = widgets.Image(value=png, format="png")
-        self.density.image = self._png
-        old.close()
+        spare = self._pictures[1] if self._png is self._pictures[0] else self._pictures[0]
+        spare.value = png
+        self._png = spare
+        self.density.image = spare
 
     def _set_mark_selected(self, pos) -> None:
         if _same(self.scatter.selected, pos):
@@ -1043,11 +1080,12 @@ class ScatterView(widgets.VBox):
         names = (
             "toolbar", "_tool_buttons", "_mode_dropdown", "_clear_button", "_close_button",
             "status", "notes", "messages", "hover_box", "brush", "lasso", "figure", "scatter",
-            "replaced_marker", "density", "_png", "_legend_swatches", "_legend_text",
+            "replaced_marker", "density", "_legend_swatches", "_legend_text",
             "polygon_marker", "_polygon_line", "colour_scale", "scale_x", "scale_y",
         )  # fmt: skip
         owned = [getattr(self, n, None) for n in names]
         owned += list(getattr(self, "_tooltip_lines", []))
+        owned += list(getattr(self, "_pictures", []))
         owned += list(getattr(self, "_extra_marks", []))
         for w in owned:
             if w is not None:

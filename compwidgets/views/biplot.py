@@ -212,16 +212,25 @@ class BiplotView(ScatterView):
         self._fit_parts = parts
         n_ok = int(self.model.complete_rows(parts).sum())
         r = min(n_ok - 1, len(parts) - 1)
-        try:
-            fit = core_biplot.clr_biplot(
-                self.model.clr(parts),
-                self.scaling,
-                parts=parts,
-                n_components=max(1, min(self._rows_needed(), r)) if r >= 1 else None,
-                missing="omit",
-            )
-        except CompositionError as err:
-            self._fit_error = f"no biplot: {err}"
+        n_components = max(1, min(self._rows_needed(), r)) if r >= 1 else None
+        scaling = self.scaling
+
+        def fit_now():
+            try:
+                return core_biplot.clr_biplot(
+                    self.model.clr(parts),
+                    scaling,
+                    parts=parts,
+                    n_components=n_components,
+                    missing="omit",
+                )
+            except CompositionError as err:
+                return f"no biplot: {err}"
+
+        # kept in the model's cache: showing these parts again does not fit again
+        fit = self.model.derived(("clr-biplot", scaling, n_components), parts, fit_now)
+        if isinstance(fit, str):
+            self._fit_error = fit
             return
         self._fits[self.scaling] = fit
 
@@ -314,6 +323,9 @@ class BiplotView(ScatterView):
 
     def _view_ranges(self):
         return (-1.0, 1.0), (-1.0, 1.0)  # until the first fit: see _coordinates
+
+    def _coordinates_key(self):
+        return ("clr-biplot", self.scaling, tuple(self.components), self._n_components())
 
     def _legend_anchor(self):
         (x0, x1), (y0, y1) = self.view_ranges

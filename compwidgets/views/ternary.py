@@ -102,7 +102,6 @@ class TernaryView(ScatterView):
         self._internal = False
         self._notice = ""  # a lasting note about the parts shown (kept across redraws)
         self._centring: np.ndarray | None = None
-        self._closed_shown = np.zeros((0, 3))
         super().__init__(model, **kwargs)
         self._internal = True
         try:
@@ -258,19 +257,38 @@ class TernaryView(ScatterView):
     def _legend_anchor(self):
         return 1.12, H + 0.02, 0.055
 
+    def _coordinates_key(self):
+        return ("ternary", bool(self.centred))
+
     def _coordinates(self):
         parts = list(self.parts)
-        rows = np.flatnonzero(self.model.complete_rows(parts)).astype(np.uint32)
-        closed = np.asarray(self.model.closed(parts))[rows]
-        self._closed_shown = closed
-        self._centring = None
-        if self.centred and rows.size:
-            self._centring = core_ternary.centring_perturbation(data=closed)
-            closed = core_ternary.perturb_closed(closed, self._centring)
-        if rows.size == 0:
-            return rows, np.zeros(0), np.zeros(0)
-        x, y = core_ternary.ternary_to_xy(closed)
+        model = self.model
+        centred = bool(self.centred)
+
+        def project():
+            rows = np.flatnonzero(model.complete_rows(parts)).astype(np.uint32)
+            if rows.size == 0:
+                return rows, np.zeros(0), np.zeros(0), None
+            closed = np.asarray(model.closed(parts))[rows]
+            centring = None
+            if centred:
+                centring = core_ternary.centring_perturbation(data=closed)
+                closed = core_ternary.perturb_closed(closed, centring)
+            x, y = core_ternary.ternary_to_xy(closed)
+            return rows, x, y, centring
+
+        # kept in the model's cache: showing these parts again does not project again
+        rows, x, y, self._centring = model.derived(("ternary-xy", centred), parts, project)
         return rows, x, y
+
+    @property
+    def _closed_shown(self) -> np.ndarray:
+        """Closed compositions (3 parts) of the rows shown, in the order of ``rows``."""
+        parts = list(self.parts)
+        rows = self.rows
+        return self.model.derived(
+            ("ternary-closed-shown", rows.size), parts, lambda: self.model.closed(parts)[rows]
+        )
 
     def _build_marks(self):
         xy = {"x": self.scale_x, "y": self.scale_y}
@@ -346,10 +364,10 @@ class TernaryView(ScatterView):
 
     def _draw_overlays(self) -> None:
         notes: list[str] = []
-        groups = self._groups()
+        levels = list(self.probability_levels)
+        groups = self._groups() if levels or self.confidence_level is not None else []
         curves, colours, opacities = [], [], []
         centre_curves, centre_colours = [], []
-        levels = list(self.probability_levels)
         small = []
         for name, colour, X in groups:
             if not levels and self.confidence_level is None:
