@@ -5,8 +5,17 @@ intake (and why), analytical totals outside the window, missing and
 below-detection values per part, the values replaced (the detection limit and
 the value put in its place), and the outlier candidates by robust Mahalanobis
 distance of the ilr coordinates of the active parts
-(:func:`compwidgets.core.outliers.robust_distances`, recomputed when the active
-parts change). Clicking an item selects its rows in every view.
+(:func:`compwidgets.core.outliers.robust_distances`). Clicking an item selects
+its rows in every view.
+
+The outlier screening is the one costly item, so it runs only when needed:
+when the panel is first shown (the workbench tells it when its tab opens; a
+panel displayed on its own starts once the kernel is idle), when its results
+are asked for in code (``fits``, ``outliers``, ``items``, ...), or, once shown,
+after the active parts change. A progress bar shows its stages. Its cost is
+bounded: the MCD is fitted on at most ``max_fit_rows`` rows and on at most
+``max_coordinates`` coordinates (see :mod:`compwidgets.core.outliers`), and the
+panel says when either limit applied.
 
 A caution is shown above the panel: these are exploratory screening results;
 they do not replace accredited laboratory QA/QC or local regulations.
@@ -25,12 +34,15 @@ import pandas as pd
 from ..composition import BELOW_DL, MISSING
 from ..core import CompositionError
 from ..core.outliers import (
+    DEFAULT_MAX_COORDINATES,
+    DEFAULT_MAX_FIT_ROWS,
     DEFAULT_QUANTILE,
     RobustDistances,
-    chi2_cutoff,
     robust_distances,
     robust_distances_by_group,
 )
+from ._later import run_when_idle
+from ._progress import ProgressLine
 
 __all__ = ["CAUTION", "TriageItem", "TriagePanel", "intake_items"]
 
@@ -198,7 +210,12 @@ class TriagePanel(w.VBox):
     max_fit_rows : int or None, default 5000
         Fit the MCD on a seeded random sample of at most this many complete
         rows (the fit time grows with the rows); distances are computed for
-        every complete row. None fits on all rows.
+        every complete row. When screening by group, the groups share this
+        many rows (none is sampled below 500 rows). None fits on all rows.
+    max_coordinates : int or None, default 20
+        With more ilr coordinates than this (more than 21 active parts), fit
+        the MCD on this many leading spherical principal components and flag
+        rows far from them too (the orthogonal distance). None never reduces.
     by_group : bool, optional
         Screen each group of the grouping column on its own. Default: True
         when the model has a grouping column (rows of another population
@@ -219,6 +236,17 @@ class TriagePanel(w.VBox):
     distances : ndarray or None
         Robust distance per row (NaN for rows not screened).
     message : ipywidgets.Label
+    progress : ProgressLine
+        Stage and progress bar of a running screening (hidden when none runs).
+    limits_label : ipywidgets.Label
+        The method and its limits.
+
+    Methods
+    -------
+    ensure_screened()
+        Screen now if the results are not those of the current parts.
+    show()
+        The panel is on screen: screen now, and again after each change.
     """
 
     def __init__(
@@ -227,18 +255,23 @@ class TriagePanel(w.VBox):
         quantile: float = DEFAULT_QUANTILE,
         support_fraction: float | None = None,
         random_state: int | None = 0,
-        max_fit_rows: int | None = 5000,
+        max_fit_rows: int | None = DEFAULT_MAX_FIT_ROWS,
         by_group: bool | None = None,
+        max_coordinates: int | None = DEFAULT_MAX_COORDINATES,
         **kwargs,
     ):
         self.model = model
         self.support_fraction = support_fraction
         self.random_state = random_state
         self.max_fit_rows = max_fit_rows
-        self.fits: dict = {}
-        self.distances: np.ndarray | None = None
+        self.max_coordinates = max_coordinates
+        self._fits: dict = {}
+        self._distances: np.ndarray | None = None
         self._outlier_key: tuple | None = None
         self._not_screened = ""
+        self._shown = False  # on screen once: screen after each change
+        self._pending = False  # a screening is scheduled for when the kernel is idle
+        self._screening = False
         self.output = w.Output()
         capture = self.output.capture()
 
@@ -274,13 +307,15 @@ class TriagePanel(w.VBox):
             style={"description_width": "initial"},
             layout=w.Layout(width="auto"),
         )
-        self.by_group.observe(capture(lambda _c: self.refresh_outliers()), names=["value"])
+        self.by_group.observe(capture(lambda _c: self.show()), names=["value"])
         self.mixture_note = w.Label(
             value="Rows of a different population (e.g. another catchment or rock type) also "
             "lie far from a single centre: screen by group before reading a distant row as an "
             "error."
         )
         self.outlier_label = w.Label(value="")
+        self.limits_label = w.Label(value=self._limits_text())
+        self.progress = ProgressLine()
 
         self._click = capture(self._clicked)
         self._intake_items = intake_items(model.composition)
@@ -327,9 +362,11 @@ class TriagePanel(w.VBox):
                 value=SECTIONS[-1] + " (robust Mahalanobis distance, ilr of the active parts)",
                 style={"font_weight": "bold"},
             ),
+            self.limits_label,
             self.quantile,
             self.by_group,
             self.mixture_note,
+            self.progress,
             self.outlier_label,
             self.outlier_box,
             self.message,
@@ -337,13 +374,15 @@ class TriagePanel(w.VBox):
         ]
         super().__init__(children=children, **kwargs)
         self._on_model = capture(self._model_changed)
+        self._capture = capture
         model.observe(self._on_model, names=_FOLLOWED)
-        self.refresh_outliers()
+        self._say_not_screened()
 
     # ------------------------------------------------------------ public
     @property
     def items(self) -> list[tuple[str, np.ndarray]]:
         """``(button text, row positions)`` of every item, in panel order."""
+        self.ensure_screened()
         return [
             (b.description, item.positions)
             for item, b in zip(
@@ -355,6 +394,7 @@ class TriagePanel(w.VBox):
 
     @property
     def buttons(self) -> list[w.Button]:
+        self.ensure_screened()
         return self._intake_buttons + self._outlier_buttons
 
     def select_item(self, k: int) -> None:
@@ -363,34 +403,101 @@ class TriagePanel(w.VBox):
         self.model.select(items[k].positions, mode=self.mode.value)
 
     @property
+    def fits(self) -> dict:
+        """The robust fits of the current screening (screens first when needed)."""
+        self.ensure_screened()
+        return self._fits
+
+    @property
+    def distances(self) -> np.ndarray | None:
+        """Robust distance per row of the current screening (screens first when needed)."""
+        self.ensure_screened()
+        return self._distances
+
+    @property
     def outliers(self) -> RobustDistances | None:
         """The robust fit of all complete rows (None when screening by group or not possible)."""
         fit = self.fits.get(None)
         return fit[1] if fit is not None else None
 
+    @property
+    def screened(self) -> bool:
+        """True when the results shown are those of the current parts and options."""
+        return self._outlier_key == self._screening_key()
+
+    def show(self) -> None:
+        """The panel is on screen: screen now if needed, and again after each change."""
+        self._shown = True
+        self.ensure_screened()
+
+    def _repr_mimebundle_(self, **kwargs):
+        # displayed on its own: screen once the kernel is idle (the panel shows its progress)
+        if not self._shown:
+            self._shown = True
+            if not self.screened and not self._pending:
+                self._pending = run_when_idle(self._capture(self._run_pending))
+        return super()._repr_mimebundle_(**kwargs)
+
+    def ensure_screened(self) -> None:
+        """Screen for outliers now, unless the results are those of the current parts."""
+        if not self._screening:
+            self.refresh_outliers()
+
+    def _screening_key(self) -> tuple:
+        model = self.model
+        by_group = bool(self.by_group.value and model.group_column)
+        return (
+            tuple((p, tuple(model.members(p))) for p in model.active_parts),
+            (model.group_column, model.metadata_version) if by_group else None,
+        )
+
+    def _limits_text(self) -> str:
+        rows = (
+            "all complete rows"
+            if self.max_fit_rows is None
+            else f"at most {self.max_fit_rows:,} rows (a seeded random sample beyond)"
+        )
+        coords = (
+            ""
+            if self.max_coordinates is None
+            else f"; beyond {self.max_coordinates} ilr coordinates, on the "
+            f"{self.max_coordinates} leading spherical principal components, with rows far "
+            "from them flagged too"
+        )
+        return f"Method: MCD of the ilr coordinates, fitted on {rows}{coords}."
+
+    def _say_not_screened(self) -> None:
+        text = "Not screened yet for these parts: the screening runs when this panel is shown."
+        if self.outlier_label.value != text:
+            self.outlier_label.value = text
+        if self._outlier_buttons:
+            self._set_outlier_items([], text)
+
     def refresh_outliers(self) -> None:
         """Recompute the robust distances for the current active parts (if anything changed)."""
+        if self._outlier_key == self._screening_key():
+            return
+        self._screening = True
+        try:
+            self._screen()
+        finally:
+            self._screening = False
+            self.progress.hide()
+
+    def _screen(self) -> None:
         model = self.model
         parts = list(model.active_parts)
         by_group = bool(self.by_group.value and model.group_column)
-        key = (
-            tuple(
-                (p, tuple(model.amalgamations.get(p, [p])) if p not in model.parts else (p,))
-                for p in parts
-            ),
-            (model.group_column, model.metadata_version) if by_group else None,
-        )
-        if key == self._outlier_key:
-            return
-        self._outlier_key = key
+        self._outlier_key = self._screening_key()
         ok = model.complete_rows(parts)
         rows = np.flatnonzero(ok)
-        self.fits, self.distances = {}, None
+        self._fits, self._distances = {}, None
         options = dict(
             quantile=self.quantile.value,
             support_fraction=self.support_fraction,
             random_state=self.random_state,
             max_fit_rows=self.max_fit_rows,
+            max_coordinates=self.max_coordinates,
         )
         notes = []
         if rows.size < model.n_rows:
@@ -399,12 +506,21 @@ class TriagePanel(w.VBox):
                 "parts not screened"
             )
         try:
+            self.progress.show(0, 2, f"ilr coordinates of {rows.size:,} complete rows")
             coords = np.asarray(model.ilr(parts))[ok]
             if by_group:
                 categories, codes = model.group_codes()
                 codes = codes[ok]
-                labels = np.array([categories[c] if c >= 0 else None for c in codes], object)
-                fits, skipped = robust_distances_by_group(coords, labels, **options)
+                labels = np.array(categories + [None], dtype=object)[codes]
+
+                def step(done: int, total: int, label) -> None:
+                    self.progress.show(
+                        1 + done, total + 1, f"robust fit of group {label} ({done + 1} of {total})"
+                    )
+
+                fits, skipped = robust_distances_by_group(
+                    coords, labels, shared_fit_rows=True, progress=step, **options
+                )
                 no_value = int((codes < 0).sum())
                 if no_value:
                     notes.append(f"{no_value:,} row(s) without a {model.group_column} value")
@@ -412,27 +528,43 @@ class TriagePanel(w.VBox):
                     notes.append(f"group {label} not screened: {reason}")
                 if not fits:
                     raise CompositionError("no group has enough complete rows")
-                self.fits = {label: (rows[pos], fit) for label, (pos, fit) in fits.items()}
+                self._fits = {label: (rows[pos], fit) for label, (pos, fit) in fits.items()}
             else:
-                self.fits = {None: (rows, robust_distances(coords, **options))}
+                n_fit = min(rows.size, self.max_fit_rows or rows.size)
+                self.progress.show(1, 2, f"robust fit (MCD) on {n_fit:,} rows")
+                self._fits = {None: (rows, robust_distances(coords, **options))}
         except (CompositionError, ValueError) as err:
             self._not_screened = ""
             self._set_outlier_items([], "; ".join([f"No outlier screening: {err}", *notes]))
             return
         distances = np.full(model.n_rows, np.nan)
-        for pos, fit in self.fits.values():
+        for pos, fit in self._fits.values():
             distances[pos] = fit.distances
-        self.distances = distances
+        self._distances = distances
         sampled = [
             f"{label if label is not None else 'all rows'}: MCD fitted on a random "
             f"{int(fit.fitted.sum()):,} of {fit.fitted.size:,} rows"
-            for label, (_, fit) in self.fits.items()
+            for label, (_, fit) in self._fits.items()
             if not fit.fitted.all()
         ]
-        p = int(next(iter(self.fits.values()))[1].location.size)
+        first = next(iter(self._fits.values()))[1]
+        p = int(first.location.size)
+        if first.reduced:
+            shares = [fit.explained for _, fit in self._fits.values()]
+            share = (
+                f"{100 * shares[0]:.0f} %"
+                if len(shares) == 1
+                else f"{100 * min(shares):.0f}-{100 * max(shares):.0f} %"
+            )
+            sampled.insert(
+                0,
+                f"{first.n_input_coordinates} ilr coordinates reduced to their {p} leading "
+                f"spherical principal components ({share} of the robust spread); rows far "
+                "from those components are flagged by their orthogonal distance",
+            )
         small = [
             "all rows" if label is None else str(label)
-            for label, (_, fit) in self.fits.items()
+            for label, (_, fit) in self._fits.items()
             if fit.fitted.sum() < SMALL_FIT_ROWS_PER_COORDINATE * p
         ]
         if small:
@@ -481,32 +613,51 @@ class TriagePanel(w.VBox):
         self.model.select([int(change["new"])], mode=self.mode.value)
 
     def _quantile_changed(self, change) -> None:
-        if self.fits:
+        if self.screened and self._fits:
             self._update_cutoff()
 
     def _model_changed(self, change) -> None:
         if change["name"] == "group_column":
             self.by_group.disabled = not self.model.group_column
-        self.refresh_outliers()
+        if self.screened:
+            return
+        self._say_not_screened()
+        if self._shown and not self._pending:
+            # after the change has reached every view: screen once the kernel is idle
+            self._pending = run_when_idle(self._capture(self._run_pending))
+
+    def _run_pending(self) -> None:
+        self._pending = False
+        self.ensure_screened()
 
     def _update_cutoff(self) -> None:
         q = float(self.quantile.value)
-        p = int(next(iter(self.fits.values()))[1].location.size)
-        cut = chi2_cutoff(p, q)
-        found = {label: pos[fit.distances > cut] for label, (pos, fit) in self.fits.items()}
+        fits = self._fits
+        first = next(iter(fits.values()))[1]
+        p = int(first.location.size)
+        cut, _ = first.cutoffs(q)
+        found = {label: pos[fit.outliers_at(q)] for label, (pos, fit) in fits.items()}
         positions = np.sort(np.concatenate(list(found.values()))).astype(np.uint32)
-        n_screened = sum(pos.size for pos, _ in self.fits.values())
+        n_screened = sum(pos.size for pos, _ in fits.values())
+        orthogonal = ""
+        if first.reduced:
+            if len(fits) == 1:
+                orthogonal = f" or orthogonal distance {first.cutoffs(q)[1]:.2f}"
+            else:
+                orthogonal = " or their group's orthogonal-distance cut-off"
         text = (
-            f"{positions.size:,} of {n_screened:,} complete rows beyond distance {cut:.2f} "
-            f"(square root of the chi-square {q:g} quantile, {p} degrees of freedom"
-            + (", each group on its own)" if None not in self.fits else ")")
+            f"{positions.size:,} of {n_screened:,} complete rows beyond distance {cut:.2f}"
+            f"{orthogonal} (square root of the chi-square {q:g} quantile, {p} degrees of "
+            "freedom" + (", each group on its own)" if None not in fits else ")")
         )
         if self._not_screened:
             text += "; " + self._not_screened
         items = []
         if positions.size:
-            items.append(TriageItem("Outliers", f"outliers, distance > {cut:.2f}", positions))
-        if None not in self.fits:
+            items.append(
+                TriageItem("Outliers", f"outliers, distance > {cut:.2f}{orthogonal}", positions)
+            )
+        if None not in fits:
             items += [
                 TriageItem("Outliers", f"outliers in {label}", pos.astype(np.uint32))
                 for label, pos in found.items()
