@@ -64,6 +64,8 @@ export class FakeNode {
     /** @type {Map<string, Function[]>} */
     this.listeners = new Map();
     this._text = "";
+    /** inline style properties set by a view (plain values, never parsed) */
+    this.style = {};
     this.value = "";
     this.placeholder = "";
     this.selectionStart = 0;

@@ -88,10 +88,11 @@ def walk(widget):
 
 
 def heat_numbers(picker) -> tuple[list[str], np.ndarray]:
-    rows = picker.heat_labels
-    names = [lab.value for lab in rows[0][1:]]
-    assert [row[0].value for row in rows[1:]] == names
-    return names, np.array([[float(lab.value) for lab in row[1:]] for row in rows[1:]])
+    """Names and values as sent to the browser (the float32 buffer of the heat map)."""
+    heat = picker.heatmap
+    D = len(heat.names)
+    assert len(heat.values) == 4 * D * D and len(heat.colours) == 3 * D * D
+    return list(heat.names), heat.matrix()
 
 
 def variation_by_definition(frame, parts):
@@ -244,7 +245,7 @@ def test_heat_table_equals_the_variation_matrix_by_definition(picker, model, fra
     assert names == PARTS
     T, n_complete = variation_by_definition(frame, PARTS)
     assert n_complete == 39  # one row has a missing part
-    np.testing.assert_allclose(shown, np.round(T, 2), atol=0.0051)
+    np.testing.assert_allclose(shown, T, rtol=1e-6)  # float32 on the wire
     np.testing.assert_allclose(picker.variation.to_numpy(), T, rtol=1e-10)
     # total variance = sum_ij T_ij / (2 D) (Aitchison 1986)
     assert picker.total_variance == pytest.approx(T.sum() / (2 * len(PARTS)), rel=1e-10)
@@ -257,7 +258,7 @@ def test_heat_table_follows_the_active_parts(picker, model, frame):
     names, shown = heat_numbers(picker)
     assert names == ["Mica", "Qz", "Fsp"]
     T, n_complete = variation_by_definition(frame, names)
-    np.testing.assert_allclose(shown, np.round(T, 2), atol=0.0051)
+    np.testing.assert_allclose(shown, T, rtol=1e-6)
     assert n_complete == 40 and "40 of 40 rows" in picker.rows_label.value
     # the largest log-ratio variance is named under the table
     i, j = np.unravel_index(np.argmax(T), T.shape)
@@ -266,23 +267,88 @@ def test_heat_table_follows_the_active_parts(picker, model, frame):
 
 def test_heat_colours_grow_with_the_value(picker):
     _, shown = heat_numbers(picker)
-    cells = [row[1:] for row in picker.heat_labels[1:]]
+    colours = picker.heatmap.colour_grid().astype(int)
     i, j = np.unravel_index(np.argmax(shown), shown.shape)
-    darkest = cells[i][j].style.background
-    assert cells[0][0].style.background != darkest  # the diagonal (0) is the light end
+    lightness = colours.sum(axis=2)
+    assert lightness[0, 0] > lightness[i, j]  # the diagonal (0) is the light end
+    # darker with the value along the off-diagonal cells (a monotone colour scale)
+    off = ~np.eye(len(shown), dtype=bool)
+    order = np.argsort(shown[off])
+    assert np.all(np.diff(lightness[off][order]) <= 0)
 
-    def lightness(hex_colour):
-        return sum(int(hex_colour[k : k + 2], 16) for k in (1, 3, 5))
 
-    assert lightness(cells[0][0].style.background) > lightness(darkest)
+def test_heat_map_is_one_widget_whatever_the_number_of_parts(picker, model, opened_comms):
+    # one picture (not a widget per cell): changing parts creates no widget at all
+    model.active_parts = ["Qz", "Fsp", "Mica"]
+    assert picker.heatmap.names == ["Qz", "Fsp", "Mica"]
+    model.active_parts = PARTS
+    assert len(picker.heatmap.names) == len(PARTS)
+    assert opened_comms == []
+
+
+def test_a_clicked_cell_picks_its_pair_and_shows_it_in_a_ternary(picker, model, ternary, frame):
+    names = list(picker.heatmap.names)
+    i, j = names.index("Fsp"), names.index("Mica")
+    picker.heatmap.picked = [i, j]  # what a click on the cell sends
+    assert picker.picked_pair == ("Fsp", "Mica")
+    T, _ = variation_by_definition(frame, names)
+    assert f"{T[i, j]:.3f}" in picker.pair_label.value
+    assert picker.use_pair(0)
+    parts = list(ternary.parts)
+    assert parts[:2] == ["Fsp", "Mica"]
+    # the third part adds most log-ratio variance to both (numpy, by definition)
+    others = [k for k in range(len(names)) if k not in (i, j)]
+    best = max(others, key=lambda k: T[i, k] + T[j, k])
+    assert parts[2] == names[best]
+    with pytest.raises(ValueError, match="two different active parts"):
+        picker.pick_pair("Fsp", "Fsp")
+
+
+def test_filter_shows_matching_parts_and_keeps_the_hidden_ones(picker, model):
+    picker.part_filter.value = "q"  # matches Qz only (any case)
+    assert list(picker.parts_select.options) == ["Qz"]
+    assert picker.parts_select.value == ("Qz",)
+    picker.parts_select.value = ()  # deselect Qz: the hidden parts stay active
+    assert model.active_parts == ["Fsp", "Lith", EVIL, "Mica"]
+    picker.parts_select.value = ("Qz",)  # back: added at the end
+    assert model.active_parts == ["Fsp", "Lith", EVIL, "Mica", "Qz"]
+    picker.part_filter.value = ""
+    assert list(picker.parts_select.options) == PARTS
+
+
+def test_bulk_choices_by_unit_majors_and_traces():
+    # invented table: three majors in wt% and two traces in ppm (units in the headers)
+    rng = np.random.default_rng(5)
+    df = pd.DataFrame(
+        np.exp(rng.normal(size=(30, 5)) * 0.2 + [4, 2.5, 1, 3, 5]),
+        columns=["SiO2 (wt%)", "Al2O3 (wt%)", "CaO (wt%)", "Zr (ppm)", "Ba (ppm)"],
+    )
+    model = CompositionModel(read_composition(df, check_total=False))
+    picker = SubcompositionPicker(model)
+    groups = {value for _, value in picker.bulk_group.options}
+    assert {"all", "majors", "traces", "unit:wt%", "unit:ppm", "filter"} <= groups
+    assert picker.choose("traces")
+    assert model.active_parts == ["Zr", "Ba"]
+    assert picker.choose("majors", "add")
+    assert model.active_parts == ["Zr", "Ba", "SiO2", "Al2O3", "CaO"]
+    assert picker.choose("unit:ppm", "remove")
+    assert model.active_parts == ["SiO2", "Al2O3", "CaO"]
+    assert not picker.choose("majors", "remove")  # nothing would be left: refused, said so
+    assert model.active_parts == ["SiO2", "Al2O3", "CaO"] and "not changed" in picker.message.value
+    picker.part_filter.value = "ppm"  # the filter matches units too
+    assert list(picker.parts_select.options) == ["Zr", "Ba"]
+    assert picker.choose("filter")
+    assert model.active_parts == ["Zr", "Ba"]
+    picker.bulk_group.value = "all"
+    picker.bulk_buttons[0].click()
+    assert model.active_parts == model.parts
 
 
 # --------------------------------------------------------------- text only
 
 
 def test_part_names_reach_the_browser_as_plain_text(picker):
-    header = [lab.value for lab in picker.heat_labels[0]]
-    assert EVIL in header  # verbatim, not escaped or interpreted
+    assert EVIL in picker.heatmap.names  # verbatim, not escaped or interpreted
     assert EVIL in picker.parts_select.options
     for widget in walk(picker):
         assert not isinstance(widget, (widgets.HTML, widgets.HTMLMath))

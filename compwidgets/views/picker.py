@@ -2,13 +2,18 @@
 
 :class:`SubcompositionPicker` writes the model's ``active_parts`` and
 ``amalgamations`` (every view follows through the model) and the ``parts`` of
-the ternary views it is given. For the active parts it shows the variation
-matrix ``T_ij = var ln(x_i / x_j)`` as a small heat table and the total
-variance, so the user sees which log-ratios carry the variability. Every number
-comes from :mod:`compwidgets.core` (through the model's cache).
+the ternary views it is given. The parts list has a filter box (by name or
+unit) and bulk choices (every part, all majors, all traces, all parts of one
+unit). For the active parts it shows the variation matrix
+``T_ij = var ln(x_i / x_j)`` as one heat-map picture
+(:class:`~compwidgets.views.heatmap.VariationHeatmap`: hover a cell for its
+value, click it to use the pair in a ternary) and the total variance, so the
+user sees which log-ratios carry the variability. Every number comes from
+:mod:`compwidgets.core` (through the model's cache).
 
 Everything from the table (part names, values) reaches the browser as text
-only: ``Label`` values, ``Dropdown`` / ``SelectMultiple`` options.
+only: ``Label`` values, ``Dropdown`` / ``SelectMultiple`` options, and the heat
+map's names (``textContent``).
 """
 
 from __future__ import annotations
@@ -21,21 +26,56 @@ import pandas as pd
 import traitlets as t
 
 from .. import core
+from ..units import normalize_unit
+from .heatmap import VariationHeatmap
 
-__all__ = ["SubcompositionPicker"]
+__all__ = ["SubcompositionPicker", "part_groups"]
 
-#: Ends of the colour scale of the heat table (low -> high variation).
-LOW_COLOUR = (250, 247, 240)
-HIGH_COLOUR = (120, 52, 18)
-#: How many of the largest log-ratio variances are named under the table.
+#: How many of the largest log-ratio variances are named under the heat map.
 N_LARGEST = 3
 
+#: Units of parts counted as traces (ppm and finer mass fractions).
+TRACE_UNITS = frozenset({"ppm", "ppb", "mg/kg", "g/t", "ug/g"})
 
-def _colour(share: float) -> tuple[str, str]:
-    """Background and text colour for a value at ``share`` (0..1) of the scale."""
-    share = float(np.clip(share, 0.0, 1.0)) if np.isfinite(share) else 0.0
-    rgb = [round(lo + (hi - lo) * share) for lo, hi in zip(LOW_COLOUR, HIGH_COLOUR, strict=True)]
-    return "#{:02x}{:02x}{:02x}".format(*rgb), ("white" if share > 0.55 else "black")
+#: How the bulk buttons combine a group of parts with the active parts.
+BULK_ACTIONS = ("replace", "add", "remove")
+
+
+def part_groups(composition) -> dict[str, list[str]]:
+    """Groups of parts offered for bulk choice: every part, majors, traces, and by unit.
+
+    Keys: ``"all"``; ``"majors"`` (reported in wt%) and ``"traces"`` (reported in
+    ppm, ppb, mg/kg, g/t or ug/g) when the table has them; ``"unit:<unit>"`` for
+    each unit as reported, when there is more than one. Parts keep the table's order.
+    """
+    parts = list(composition.parts)
+    units = {p: str(composition.units.get(p, composition.unit)) for p in parts}
+    canonical = {p: normalize_unit(u) for p, u in units.items()}
+    groups: dict[str, list[str]] = {"all": parts}
+    majors = [p for p in parts if canonical[p] == "wt%"]
+    traces = [p for p in parts if canonical[p] in TRACE_UNITS]
+    if majors:
+        groups["majors"] = majors
+    if traces:
+        groups["traces"] = traces
+    by_unit: dict[str, list[str]] = {}
+    for p in parts:
+        by_unit.setdefault(units[p], []).append(p)
+    if len(by_unit) > 1:
+        for unit, members in by_unit.items():
+            groups[f"unit:{unit}"] = members
+    return groups
+
+
+def _group_label(key: str, members: list[str]) -> str:
+    n = len(members)
+    if key == "all":
+        return f"every part ({n})"
+    if key == "majors":
+        return f"all majors, wt% ({n})"
+    if key == "traces":
+        return f"all traces, ppm and finer ({n})"
+    return f"all parts in {key.removeprefix('unit:')} ({n})"
 
 
 class SubcompositionPicker(w.VBox):
@@ -52,15 +92,25 @@ class SubcompositionPicker(w.VBox):
     Attributes
     ----------
     parts_select : ipywidgets.SelectMultiple
-        The active parts (options: ``model.available_parts``).
+        The active parts (options: ``model.available_parts`` matching the filter).
+    part_filter : ipywidgets.Text
+        Shows only the parts whose name or unit contains this text (any case).
+    bulk_group : ipywidgets.Dropdown
+        A group of parts (every part, majors, traces, a unit, those matching
+        the filter) for the buttons ``bulk_buttons`` (use only, add, remove).
     message : ipywidgets.Label
         What the last action did, or why it was refused.
     variation : pandas.DataFrame or None
         The variation matrix shown (complete rows of the active parts).
     total_variance : float or None
         The total variance shown.
-    heat_labels : list of list of ipywidgets.Label
-        The heat table, header row and column included.
+    heatmap : VariationHeatmap
+        The variation matrix as one picture (hover a cell, click to use the pair).
+    picked_pair : tuple of str or None
+        The pair of parts of the last heat-map cell clicked.
+    pair_buttons : list of ipywidgets.Button
+        "Show in ternary k": the picked pair and the part that adds most
+        log-ratio variance to both.
     ternary_dropdowns : list of tuple of three ipywidgets.Dropdown
     output : ipywidgets.Output
         Shows errors raised in callbacks.
@@ -73,11 +123,10 @@ class SubcompositionPicker(w.VBox):
         self._heat_key: tuple | None = None
         self.variation: pd.DataFrame | None = None
         self.total_variance: float | None = None
-        self.heat_labels: list[list[w.Label]] = []
+        self.picked_pair: tuple[str, str] | None = None
         self.output = w.Output()
-        self._cell_layout = w.Layout(padding="1px 6px", margin="0", justify_content="flex-end")
-        self._head_layout = w.Layout(padding="1px 6px", margin="0")
         capture = self.output.capture()
+        self._groups = part_groups(model.composition)
 
         self.message = w.Label(value="")
         self.parts_select = w.SelectMultiple(
@@ -91,6 +140,25 @@ class SubcompositionPicker(w.VBox):
         self._on_parts_widget = capture(self._parts_widget_changed)
         self.parts_select.observe(self._on_parts_widget, names=["value"])
         self.all_button.on_click(capture(lambda _b: self.set_active_parts(self.model.parts)))
+        self.part_filter = w.Text(
+            placeholder="name or unit, e.g. Zr or ppm",
+            description="Filter",
+            continuous_update=True,
+        )
+        self.part_filter.observe(capture(lambda _c: self._apply_filter()), names=["value"])
+        self.bulk_group = w.Dropdown(
+            options=self._bulk_options(), description="Group", layout=w.Layout(width="auto")
+        )
+        self.bulk_buttons = [
+            w.Button(description=text, tooltip=tip, layout=w.Layout(width="auto"))
+            for text, tip in (
+                ("Use only these", "Make exactly the parts of the group active"),
+                ("Add", "Add the parts of the group to the active parts"),
+                ("Remove", "Remove the parts of the group from the active parts"),
+            )
+        ]
+        for button, how in zip(self.bulk_buttons, BULK_ACTIONS, strict=True):
+            button.on_click(capture(lambda _b, how=how: self.choose(self.bulk_group.value, how)))
 
         # amalgamations
         self.amalgamation_name = w.Text(placeholder="name of the new part", description="Name")
@@ -131,8 +199,21 @@ class SubcompositionPicker(w.VBox):
             label = w.Label(value=f"Ternary {i + 1}", layout=w.Layout(min_width="5.5em"))
             rows.append(w.HBox([label, *dds]))
 
-        # variation heat table
-        self.heat_table = w.GridBox(layout=w.Layout(grid_gap="1px"))
+        # variation heat map: one picture, whatever the number of parts
+        self.heatmap = VariationHeatmap()
+        self.heatmap.observe(capture(self._cell_picked), names=["picked"])
+        self.pair_label = w.Label(value="")
+        self.pair_buttons = [
+            w.Button(
+                description=f"Show in ternary {i + 1}",
+                disabled=True,
+                layout=w.Layout(width="auto"),
+                tooltip="the picked pair and the part adding most log-ratio variance to both",
+            )
+            for i in range(len(self.ternaries))
+        ]
+        for i, button in enumerate(self.pair_buttons):
+            button.on_click(capture(lambda _b, i=i: self.use_pair(i)))
         self.total_label = w.Label(value="")
         self.largest_label = w.Label(value="")
         self.rows_label = w.Label(value="")
@@ -144,7 +225,10 @@ class SubcompositionPicker(w.VBox):
 
         sections = [
             w.Label(value="Subcomposition"),
+            self.part_filter,
             w.HBox([self.parts_select, self.all_button]),
+            w.HBox([self.bulk_group]),
+            w.HBox(self.bulk_buttons),
             w.Label(value="Amalgamations (new parts as sums of parts)"),
             w.HBox(
                 [
@@ -158,7 +242,9 @@ class SubcompositionPicker(w.VBox):
             sections += [w.Label(value="Ternary parts"), *rows]
         sections += [
             w.Label(value="Variation matrix var(ln(row part / column part)) of the active parts"),
-            self.heat_table,
+            self.heatmap,
+            self.pair_label,
+            w.HBox(self.pair_buttons),
             self.total_label,
             self.largest_label,
             self.rows_label,
@@ -304,7 +390,7 @@ class SubcompositionPicker(w.VBox):
                 view.unobserve(handler, names=["parts"])
             except ValueError:
                 pass
-        self._close_heat()
+        self.heatmap.close()
         super().close()
 
     # ------------------------------------------------------- widget events
@@ -312,9 +398,94 @@ class SubcompositionPicker(w.VBox):
         if self._syncing:
             return
         chosen = [str(p) for p in change["new"]]
-        if set(chosen) == set(self.model.active_parts):
+        active = list(self.model.active_parts)
+        shown = list(self.parts_select.options)
+        if len(shown) < len(self.model.available_parts):
+            # a filter hides parts: the choice is about the parts shown; the others keep
+            # their state (and the active parts keep their order)
+            hidden = set(self.model.available_parts) - set(shown)
+            picked = set(chosen)
+            kept = [p for p in active if p in hidden or p in picked]
+            chosen = kept + [p for p in shown if p in picked and p not in kept]
+        if set(chosen) == set(active):
             return
         self.set_active_parts(chosen)
+
+    # ------------------------------------------------------------ filter, bulk
+    def matching_parts(self, text: str | None = None) -> list[str]:
+        """Available parts whose name or reported unit contains ``text`` (any case)."""
+        text = (self.part_filter.value if text is None else text).strip().lower()
+        available = list(self.model.available_parts)
+        if not text:
+            return available
+        units = self.model.composition.units
+        return [
+            p
+            for p in available
+            if text in str(p).lower() or text in str(units.get(p, "sum of parts")).lower()
+        ]
+
+    def parts_in(self, group: str) -> list[str]:
+        """The parts of a bulk group: a key of :func:`part_groups`, or ``"filter"``."""
+        if group == "filter":
+            return self.matching_parts()
+        if group not in self._groups:
+            raise ValueError(
+                f"unknown group of parts {group!r}; groups: {', '.join(self._groups)}, filter"
+            )
+        return list(self._groups[group])
+
+    def choose(self, group: str, how: str = "replace") -> bool:
+        """Make a group of parts active, add it to the active parts, or remove it.
+
+        Parameters
+        ----------
+        group : str
+            ``"all"``, ``"majors"``, ``"traces"``, ``"unit:<unit>"`` (see
+            :func:`part_groups`) or ``"filter"`` (the parts matching the filter box).
+        how : {"replace", "add", "remove"}
+
+        Returns
+        -------
+        bool
+            False (with a message, nothing changed) for an invalid result, e.g.
+            fewer than 2 parts left.
+        """
+        if how not in BULK_ACTIONS:
+            raise ValueError(f"how must be one of {', '.join(BULK_ACTIONS)}, got {how!r}")
+        members = self.parts_in(group)
+        if not members:
+            self._say(f"Active parts not changed: no part in the group {group!r}.")
+            return False
+        active = list(self.model.active_parts)
+        if how == "replace":
+            new = members
+        elif how == "add":
+            taken = {m for p in active for m in self.model.members(p)}
+            new = active + [p for p in members if p not in active and p not in taken]
+        else:
+            gone = set(members)
+            new = [p for p in active if p not in gone]
+        return self.set_active_parts(new)
+
+    def _bulk_options(self) -> list[tuple[str, str]]:
+        options = [(_group_label(k, v), k) for k, v in self._groups.items()]
+        return options + [("the parts matching the filter", "filter")]
+
+    def _apply_filter(self) -> None:
+        shown = self.matching_parts()
+        self._syncing += 1
+        try:
+            with self.parts_select.hold_sync():
+                if list(self.parts_select.options) != shown:
+                    self.parts_select.options = shown
+                active = set(self.model.active_parts)
+                self.parts_select.value = tuple(p for p in shown if p in active)
+        finally:
+            self._syncing -= 1
+        n = len(self.model.available_parts)
+        if len(shown) < n:
+            self._say(f"Filter: {len(shown)} of {n} parts shown.")
 
     def _add_clicked(self, _button) -> None:
         if self.add_amalgamation(
@@ -344,21 +515,19 @@ class SubcompositionPicker(w.VBox):
     def _model_amalgamations_changed(self, change) -> None:
         self._syncing += 1
         try:
-            available = list(self.model.available_parts)
-            if list(self.parts_select.options) != available:
-                self.parts_select.options = available
             names = list(self.model.amalgamations)
             if list(self.remove_select.options) != names:
                 self.remove_select.options = names
         finally:
             self._syncing -= 1
-        self._sync_parts_select()
+        self._apply_filter()
         for i in range(len(self.ternaries)):
             self._sync_ternary(i)
         self._refresh_heat()
 
     def _sync_parts_select(self) -> None:
-        active = tuple(self.model.active_parts)
+        shown = set(self.parts_select.options)
+        active = tuple(p for p in self.model.active_parts if p in shown)
         if set(self.parts_select.value) == set(active):
             return
         self._syncing += 1
@@ -387,7 +556,7 @@ class SubcompositionPicker(w.VBox):
         finally:
             self._syncing -= 1
 
-    # ----------------------------------------------------------- heat table
+    # ------------------------------------------------------------- heat map
     def _members(self, part: str) -> list[str]:
         if part in self.model.parts:
             return [part]
@@ -407,60 +576,79 @@ class SubcompositionPicker(w.VBox):
             else ""
         )
         self.rows_label.value = f"Computed on {n_ok:,} of {n:,} rows{left_out}."
+        self._set_pair(None)
         try:
             T = self.model.variation_matrix(parts)
-            frame = pd.DataFrame(self.model.part_values(parts)[ok], columns=parts)
-            total = core.total_variance(frame)
+            total = self.model.derived(
+                "total-variance",
+                parts,
+                lambda: core.total_variance(self.model.part_values(parts)[ok]),
+            )
         except (core.CompositionError, ValueError) as err:
             self.variation, self.total_variance = None, None
-            self._close_heat()
-            self.heat_table.children = ()
+            self.heatmap.clear()
             self.total_label.value = f"No variation matrix: {err}"
             self.largest_label.value = ""
             return
         self.variation, self.total_variance = T, total
-        self._draw_heat(parts, T.to_numpy(dtype=float))
+        values = T.to_numpy(dtype=float)
+        self.heatmap.set_matrix(parts, values)
         self.total_label.value = f"Total variance: {total:.3f}"
         D = len(parts)
         iu = np.triu_indices(D, 1)
-        order = np.argsort(-T.to_numpy()[iu], kind="stable")[:N_LARGEST]
-        largest = [
-            f"ln({parts[iu[0][k]]}/{parts[iu[1][k]]}) {T.to_numpy()[iu][k]:.2f}" for k in order
-        ]
+        order = np.argsort(-values[iu], kind="stable")[:N_LARGEST]
+        largest = [f"ln({parts[iu[0][k]]}/{parts[iu[1][k]]}) {values[iu][k]:.2f}" for k in order]
         self.largest_label.value = "Largest log-ratio variances: " + ", ".join(largest)
 
-    def _close_heat(self) -> None:
-        for row in self.heat_labels:
-            for label in row:
-                label.close()
-        self.heat_labels = []
+    def _cell_picked(self, change) -> None:
+        picked = list(change["new"])
+        if len(picked) != 2 or self.variation is None:
+            return
+        names = list(self.variation.columns)
+        i, j = picked
+        if i == j:
+            return
+        self._set_pair((names[i], names[j]))
 
-    def _draw_heat(self, parts: list[str], T: np.ndarray) -> None:
-        D = len(parts)
-        off = T[~np.eye(D, dtype=bool)]
-        top = float(off.max()) if off.size else 0.0
-        if len(self.heat_labels) != D + 1:
-            self._close_heat()
-            self.heat_labels = [
-                [
-                    w.Label(layout=self._head_layout if 0 in (r, c) else self._cell_layout)
-                    for c in range(D + 1)
-                ]
-                for r in range(D + 1)
-            ]
-            self.heat_table.children = tuple(lab for row in self.heat_labels for lab in row)
-            self.heat_table.layout.grid_template_columns = f"repeat({D + 1}, max-content)"
-        self.heat_labels[0][0].value = ""
-        for j, p in enumerate(parts):
-            self.heat_labels[0][j + 1].value = p
-            self.heat_labels[j + 1][0].value = p
-        for i in range(D):
-            for j in range(D):
-                label = self.heat_labels[i + 1][j + 1]
-                background, text = _colour(T[i, j] / top if top > 0 else 0.0)
-                label.value = f"{T[i, j]:.2f}"
-                label.style.background = background
-                label.style.text_color = text
+    def _set_pair(self, pair: tuple[str, str] | None) -> None:
+        self.picked_pair = pair
+        for button in self.pair_buttons:
+            button.disabled = pair is None
+        if pair is None:
+            text = "Click a cell of the variation matrix to use its pair of parts."
+        else:
+            a, b = pair
+            value = float(self.variation.loc[a, b])
+            text = f"Picked ln({a}/{b}): variance {value:.3f}."
+        if self.pair_label.value != text:
+            self.pair_label.value = text
+
+    def pick_pair(self, a: str, b: str) -> None:
+        """Pick the pair (a, b) as a click on its heat-map cell does."""
+        names = list(self.variation.columns) if self.variation is not None else []
+        missing = [p for p in (a, b) if p not in names]
+        if missing or a == b:
+            raise ValueError(
+                f"pick_pair needs two different active parts of the heat map ({names}), "
+                f"got {a!r} and {b!r}"
+            )
+        self.heatmap.picked = [names.index(a), names.index(b)]
+
+    def use_pair(self, i: int) -> bool:
+        """Show the picked pair in ternary ``i``, with the part adding most variance to both."""
+        if self.picked_pair is None or self.variation is None:
+            self._say("No pair picked: click a cell of the variation matrix first.")
+            return False
+        a, b = self.picked_pair
+        T = self.variation
+        used = set(self._members(a)) | set(self._members(b))
+        candidates = [p for p in T.columns if p not in (a, b) and not used & set(self._members(p))]
+        if not candidates:
+            self._say(f"Ternary {i + 1} not changed: no third part to show with {a} and {b}.")
+            return False
+        score = T.loc[a, candidates].to_numpy() + T.loc[b, candidates].to_numpy()
+        third = candidates[int(np.argmax(score))]
+        return self.set_ternary_parts(i, [a, b, third])
 
     def _say(self, text: str) -> None:
         self.message.value = text
