@@ -15,6 +15,7 @@ import ipywidgets as w
 import numpy as np
 import pandas as pd
 
+from . import core
 from .composition import Composition
 from .intake import read_composition
 from .model import CompositionModel
@@ -24,6 +25,8 @@ MAX_GROUPS = 12
 
 #: Smallest median share of the active composition for a part in a default ternary.
 MIN_SHARE = 0.01
+#: Rows (a seeded sample beyond) whose median shares choose the default ternary parts.
+MAX_SHARE_ROWS = 100_000
 
 
 def default_group_column(metadata: pd.DataFrame) -> str:
@@ -77,7 +80,11 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
     active = list(model.active_parts)
     if len(active) < 3:
         raise ValueError(f"a ternary view needs 3 active parts, got {active}")
-    share = np.nanmedian(model.closed(active), axis=0)
+    ok = np.flatnonzero(model.complete_rows(active))
+    if ok.size > MAX_SHARE_ROWS:  # a seeded sample is plenty for a median share
+        ok = np.sort(np.random.default_rng(0).choice(ok, MAX_SHARE_ROWS, replace=False))
+    values = model.part_values(active)[ok]
+    share = np.median(core.closure(values), axis=0) if ok.size else np.zeros(len(active))
     parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
     if len(parts) < 3:
         parts = active
@@ -100,6 +107,14 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
 class Workbench(w.AppLayout):
     """The linked workbench: picker, triage, two ternaries, biplot, builder, selection bar.
 
+    Parameters
+    ----------
+    model : CompositionModel
+    ternary_parts : list of two triples of part names, optional
+    mode : {"auto", "points", "density"}
+    progress : callable, optional
+        Called as ``progress(done, total, stage)`` while the workbench is built.
+
     Attributes
     ----------
     model : CompositionModel
@@ -108,7 +123,11 @@ class Workbench(w.AppLayout):
     builder : BalanceBuilder
     picker : SubcompositionPicker
     triage : TriagePanel
+        Its outlier screening runs when its tab is first opened (then after each
+        change of the active parts while it has been shown).
     selection_bar : SelectionBar
+    progress : ProgressLine
+        Stage and progress of a change of the active parts (hidden otherwise).
     """
 
     def __init__(
@@ -116,7 +135,9 @@ class Workbench(w.AppLayout):
         model: CompositionModel,
         ternary_parts: Sequence[Sequence[str]] | None = None,
         mode: str = "auto",
+        progress=None,
     ):
+        from .views._progress import ProgressLine
         from .views.biplot import BiplotView
         from .views.builder import BalanceBuilder
         from .views.picker import SubcompositionPicker
@@ -125,21 +146,50 @@ class Workbench(w.AppLayout):
         from .views.triage import TriagePanel
 
         self.model = model
+        self.progress = ProgressLine()
+        report = progress if progress is not None else (lambda done, total, text: None)
+        n_stages = 7
+        report(0, n_stages, "choosing the ternary parts")
         triples = ternary_parts or default_ternary_parts(model)
         ident = default_id_column(model.metadata)
-        self.ternaries = [
-            TernaryView(model, parts=list(p), mode=mode, id_column=ident) for p in triples
-        ]
-        self.biplot = BiplotView(model, mode=mode, id_column=ident)
-        self.builder = BalanceBuilder(model)
-        self.picker = SubcompositionPicker(model, ternaries=self.ternaries)
-        self.triage = TriagePanel(model)
+
+        # A change of the active parts runs every view's observer in turn, in the order
+        # they were registered: a first observer shows the progress line, one after each
+        # view moves it on, and a last one hides it.
+        self._stages: list[str] = []
+        self._depth = 0
+        self._watch_parts(self._parts_begin)
+
+        def following(view, label: str):
+            self._stages.append(label)
+            done = len(self._stages)
+            self._watch_parts(lambda change: self._parts_step(done))
+            return view
+
+        self.ternaries = []
+        for k, p in enumerate(triples):
+            report(1 + k, n_stages, f"ternary {k + 1} ({', '.join(map(str, p))})")
+            view = TernaryView(model, parts=list(p), mode=mode, id_column=ident)
+            self.ternaries.append(following(view, f"ternary {k + 1}"))
+        report(3, n_stages, "clr biplot")
+        self.biplot = following(BiplotView(model, mode=mode, id_column=ident), "clr biplot")
+        report(4, n_stages, "balance builder")
+        self.builder = following(BalanceBuilder(model), "balance builder")
+        report(5, n_stages, "parts and variation matrix")
+        self.picker = following(
+            SubcompositionPicker(model, ternaries=self.ternaries), "variation matrix"
+        )
+        report(6, n_stages, "triage")
+        self.triage = TriagePanel(model)  # screens for outliers when its tab opens
         self.views = [*self.ternaries, self.biplot]
         self.selection_bar = SelectionBar(model, views=self.views)
+        self._watch_parts(self._parts_end)
 
-        # the variation heat table of many parts is wider than the column: scroll it there
+        # the variation heat map of many parts is wider than the column: it scrolls there
         sidebar = w.Tab(children=[self.picker, self.triage], layout=w.Layout(overflow="auto"))
         sidebar.titles = ("parts", "triage")
+        sidebar.observe(self._tab_changed, names=["selected_index"])
+        self.sidebar = sidebar
         # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
         plots = w.Box(
             children=[*self.ternaries, self.biplot],
@@ -148,7 +198,7 @@ class Workbench(w.AppLayout):
         super().__init__(
             header=self.selection_bar,
             left_sidebar=sidebar,
-            center=plots,
+            center=w.VBox([self.progress, plots]),
             footer=self.builder,
             pane_widths=["420px", 1, 0],
             grid_gap="8px",
@@ -156,6 +206,29 @@ class Workbench(w.AppLayout):
         # every row as tall as its content (AppLayout's own sizes are fixed or fractions)
         self.layout.grid_template_rows = "auto auto auto"
         self.add_class("cw-workbench")
+        report(n_stages, n_stages, "ready")
+
+    # ----------------------------------------------------------- progress
+    def _watch_parts(self, handler) -> None:
+        self.model.observe(handler, names=["active_parts", "amalgamations"])
+
+    def _parts_begin(self, change) -> None:
+        self._depth += 1
+        if self._depth == 1:
+            self.progress.show(0, len(self._stages), f"updating {self._stages[0]}")
+
+    def _parts_step(self, done: int) -> None:
+        if self._depth >= 1 and done < len(self._stages):
+            self.progress.show(done, len(self._stages), f"updating {self._stages[done]}")
+
+    def _parts_end(self, change) -> None:
+        self._depth = max(0, self._depth - 1)
+        if self._depth == 0:
+            self.progress.hide()
+
+    def _tab_changed(self, change) -> None:
+        if change["new"] == 1:  # the triage tab: its outlier screening runs now
+            self.triage.show()
 
 
 def explore(
@@ -190,22 +263,61 @@ def explore(
     Workbench
         Display it in a notebook cell; ``.model`` and each view are attributes.
     """
-    if isinstance(data, CompositionModel):
-        if read_options:
-            raise TypeError("read options apply to a table, not to an existing model")
-        model = data
-        if active_parts is not None:
-            model.active_parts = list(active_parts)
-        if group is not None:
-            model.group_column = group
-    else:
-        if isinstance(data, Composition):
+    progress = _cell_progress()
+    try:
+        if isinstance(data, CompositionModel):
             if read_options:
-                raise TypeError("read options apply to a table, not to a Composition")
-            composition = data
+                raise TypeError("read options apply to a table, not to an existing model")
+            model = data
+            if active_parts is not None:
+                model.active_parts = list(active_parts)
+            if group is not None:
+                model.group_column = group
         else:
-            composition = read_composition(data, **read_options)
-        if group is None:
-            group = default_group_column(composition.metadata)
-        model = CompositionModel(composition, active_parts=active_parts, group_column=group)
-    return Workbench(model, ternary_parts=ternary_parts, mode=mode)
+            if isinstance(data, Composition):
+                if read_options:
+                    raise TypeError("read options apply to a table, not to a Composition")
+                composition = data
+            else:
+                rows = f" of {len(data):,} rows" if isinstance(data, pd.DataFrame) else ""
+                progress(0, 1, f"reading the table{rows}")
+                composition = read_composition(data, **read_options)
+            if group is None:
+                group = default_group_column(composition.metadata)
+            progress(0, 1, "building the model")
+            model = CompositionModel(composition, active_parts=active_parts, group_column=group)
+        return Workbench(model, ternary_parts=ternary_parts, mode=mode, progress=progress)
+    finally:
+        progress.close()
+
+
+class _CellProgress:
+    """The build's progress in the cell output (only in a kernel; nothing in a script)."""
+
+    def __init__(self):
+        self.line = None
+        try:
+            from IPython import get_ipython
+            from IPython.display import display
+        except ImportError:  # pragma: no cover - IPython comes with ipywidgets
+            return
+        shell = get_ipython()
+        if shell is None or getattr(shell, "kernel", None) is None:
+            return
+        from .views._progress import ProgressLine
+
+        self.line = ProgressLine()
+        display(self.line)
+
+    def __call__(self, done: int, total: int, text: str) -> None:
+        if self.line is not None:
+            self.line.show(done, total, f"explore: {text}")
+
+    def close(self) -> None:
+        if self.line is not None:
+            self.line.close()  # its view leaves the cell output
+            self.line = None
+
+
+def _cell_progress() -> _CellProgress:
+    return _CellProgress()
