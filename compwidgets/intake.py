@@ -825,7 +825,9 @@ def read_composition(
     cols = pd.Index(final_names)
 
     def frame_of(a):
-        return pd.DataFrame(a, index=index, columns=cols)
+        # the arrays are this function's own: no copy (pandas copies by default, which
+        # at 10**6 rows held a second copy of every matrix at the peak)
+        return pd.DataFrame(a, index=index, columns=cols, copy=False)
 
     report = _report(
         plist,

@@ -23,6 +23,9 @@ from .model import CompositionModel
 #: A metadata column with at most this many distinct values can be a grouping column.
 MAX_GROUPS = 12
 
+#: Rows looked at first when deciding whether a column can be a grouping column.
+_HEAD_ROWS = 5000
+
 #: Smallest median share of the active composition for a part in a default ternary.
 MIN_SHARE = 0.01
 #: Rows (a seeded sample beyond) whose median shares choose the default ternary parts.
@@ -42,6 +45,9 @@ def default_group_column(metadata: pd.DataFrame) -> str:
         numeric = pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column)
         if numeric:
             continue
+        head = column.iloc[:_HEAD_ROWS]
+        if head.nunique(dropna=True) > MAX_GROUPS:
+            continue  # more values in the first rows than a grouping has: no need to count all
         counts = column.value_counts(dropna=True)
         if 2 <= len(counts) <= MAX_GROUPS and counts.min() >= 2:
             rank = 0 if isinstance(column.dtype, pd.CategoricalDtype) else 1
@@ -88,7 +94,12 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
     parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
     if len(parts) < 3:
         parts = active
-    T = model.variation_matrix(parts).to_numpy()
+    if model.complete_rows(active).all():
+        # same rows: the variation matrix of a subcomposition is the sub-block (Aitchison
+        # 1986), so nothing is computed again
+        T = model.variation_matrix(active).loc[parts, parts].to_numpy()
+    else:
+        T = model.variation_matrix(parts).to_numpy()
     triples: list[list[str]] = []
     unused = list(range(len(parts)))
     for _ in range(count):
@@ -166,13 +177,15 @@ class Workbench(w.AppLayout):
             self._watch_parts(lambda change: self._parts_step(done))
             return view
 
+        # the biplot first: its fit needs the most memory for a moment, the less is held
+        # by then the lower the peak on a long table
+        report(1, n_stages, "clr biplot")
+        self.biplot = following(BiplotView(model, mode=mode, id_column=ident), "clr biplot")
         self.ternaries = []
         for k, p in enumerate(triples):
-            report(1 + k, n_stages, f"ternary {k + 1} ({', '.join(map(str, p))})")
+            report(2 + k, n_stages, f"ternary {k + 1} ({', '.join(map(str, p))})")
             view = TernaryView(model, parts=list(p), mode=mode, id_column=ident)
             self.ternaries.append(following(view, f"ternary {k + 1}"))
-        report(3, n_stages, "clr biplot")
-        self.biplot = following(BiplotView(model, mode=mode, id_column=ident), "clr biplot")
         report(4, n_stages, "balance builder")
         self.builder = following(BalanceBuilder(model), "balance builder")
         report(5, n_stages, "parts and variation matrix")

@@ -240,7 +240,7 @@ def clr_biplot(
             f"({len(rows)} of {n_all}); pass missing='omit' to leave them out"
         )
     used = ~nan_rows
-    Zu = Z[used]
+    Zu = Z if used.all() else Z[used]  # no copy of a million rows when every row is used
     n = Zu.shape[0]
     if n <= DDOF:
         raise CompositionError(
@@ -248,7 +248,8 @@ def clr_biplot(
             f"({n_all - n} left out for missing values)"
         )
     sums = np.abs(Zu.sum(axis=1))
-    limit = _ROW_SUM_RTOL * D * np.maximum(1.0, np.abs(Zu).max(axis=1))
+    biggest = np.maximum(Zu.max(axis=1), -Zu.min(axis=1))  # max |z| per row, no |Z| copy
+    limit = _ROW_SUM_RTOL * D * np.maximum(1.0, biggest)
     bad = sums > limit
     if bad.any():
         rows = np.flatnonzero(used)[bad]
@@ -275,18 +276,20 @@ def clr_biplot(
         k = int(n_components)
 
     mean = Zu.mean(axis=0)
-    Zc = Zu - mean
+    Zc = Zu  # this function's own copy (as_table never returns a view): centred in place
+    Zc -= mean
     U, s, Vt = np.linalg.svd(Zc, full_matrices=False)
     U, s, V = U[:, :r], s[:r], Vt[:r].T
-    total_ss = float(np.sum(Zc * Zc))
-    scale = max(1.0, float(np.abs(Zu).max()))
+    total_ss = float(np.einsum("ij,ij->", Zc, Zc))
+    scale = max(1.0, float(biggest.max()))
     if not np.sqrt(total_ss / Zc.size) > _ZERO_RTOL * scale:
         raise CompositionError(
             f"clr_biplot: the {n} rows used all have the same composition (total variance 0); "
             "a biplot needs variation"
         )
     signs = _orientation(V)
-    U, V = U * signs, V * signs
+    U *= signs  # U is this function's own: in place
+    V = V * signs
 
     U_all = np.full((n_all, k), np.nan)
     U_all[used] = U[:, :k]
@@ -415,6 +418,8 @@ TRUE_LENGTH_RANGE = (0.2, 2.0)
 
 #: Most pushes of a ray label along and across its ray (bounds the positions tried).
 _MAX_PUSH_STEPS = 40
+#: Candidate positions of a part name tested at a time (the first free one wins).
+_PUSH_CHUNK = 32
 
 #: Readable display factors: these mantissas times a power of ten.
 _NICE_MANTISSAS = (1.0, 2.0, 2.5, 5.0)
@@ -679,15 +684,26 @@ def ray_label_positions(
     placed = np.zeros((D, 2))
     placed_half = np.zeros((D, 2))
     positions = start.copy()
+    widest = half.max(axis=0)
+    farthest = float(np.hypot(a, b).max()) if a.size else 0.0  # candidate farthest from start
     for n, i in enumerate(np.argsort(-length[:, 0], kind="stable")):
-        cand = start[i] + a[:, None] * along[i] + b[:, None] * side[i]  # (M, 2)
-        gap = np.abs(cand[:, None, :] - placed[None, :n, :])  # (M, n, 2)
-        hits = np.all(gap < half[i] + placed_half[:n], axis=2).any(axis=1)
-        near = np.abs(cand[:, None, :] - T[None]) < half[i] + r
-        covers_tip = np.all(near, axis=2).any(axis=1)
-        free = np.flatnonzero(~(hits | covers_tip))
-        if free.size:
-            positions[i] = cand[free[0]]
+        # only boxes and tips within reach of some candidate can be hit: test those only
+        room = farthest + half[i] + widest + r
+        close = np.all(np.abs(placed[:n] - start[i]) < room, axis=1)
+        boxes, box_half = placed[:n][close], placed_half[:n][close]
+        tips_near = T[np.all(np.abs(T - start[i]) < room, axis=1)]
+        # candidates in order, a chunk at a time: most names find room in the first few
+        for first in range(0, a.size, _PUSH_CHUNK):
+            cand = start[i] + a[first : first + _PUSH_CHUNK, None] * along[i]
+            cand = cand + b[first : first + _PUSH_CHUNK, None] * side[i]  # (m, 2)
+            gap = np.abs(cand[:, None, :] - boxes[None])  # (m, nearby boxes, 2)
+            hits = np.all(gap < half[i] + box_half, axis=2).any(axis=1)
+            near = np.abs(cand[:, None, :] - tips_near[None]) < half[i] + r
+            covers_tip = np.all(near, axis=2).any(axis=1)
+            free = np.flatnonzero(~(hits | covers_tip))
+            if free.size:
+                positions[i] = cand[free[0]]
+                break
         placed[n], placed_half[n] = positions[i], half[i]
     return positions
 

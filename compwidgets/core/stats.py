@@ -62,6 +62,21 @@ def total_variance(X) -> float:
     return float(np.var(clr_values(t), axis=0, ddof=DDOF).sum())
 
 
+def total_variance_from_variation(T) -> float:
+    """Total variance from a variation matrix: ``sum_ij T_ij / (2 D)`` (Aitchison 1986).
+
+    The same number as :func:`total_variance` of the data the matrix was computed
+    on, without going over the data again.
+    """
+    M = np.asarray(T, dtype=float)
+    if M.ndim != 2 or M.shape[0] != M.shape[1] or M.shape[0] < 2:
+        raise CompositionError(
+            f"total_variance_from_variation: needs a square matrix of at least 2 parts, "
+            f"got shape {M.shape}"
+        )
+    return float(M.sum() / (2 * M.shape[0]))
+
+
 def _square(t, M, prefix):
     if not t.labelled:
         return M

@@ -152,3 +152,34 @@ def summarize_balances(
         entry["groups"] = groups
         out.append(entry)
     return out
+
+
+def quartile_summary(B) -> list[dict]:
+    """``n``, ``mean``, ``q25`` and ``q75`` of each column of ``B`` (no NaN), vectorised.
+
+    The selection part of :func:`summarize_balances` for complete rows, in one
+    pass over the matrix (the builder sends it on every selection change).
+
+    Parameters
+    ----------
+    B : array-like of shape (n, k)
+        Balance values of the selected rows, all finite.
+
+    Returns
+    -------
+    list of dict, one per column: ``{"n", "mean", "q25", "q75"}`` (None when n = 0).
+    """
+    values = np.asarray(B, dtype=float)
+    if values.ndim != 2:
+        raise CompositionError(f"quartile_summary: B must be 2-D (n, k), got {values.ndim}-D")
+    n, k = values.shape
+    if n and not np.isfinite(values).all():
+        raise CompositionError("quartile_summary: B holds NaN or inf; pass complete rows only")
+    if n == 0:
+        return [{"n": 0, "mean": None, "q25": None, "q75": None} for _ in range(k)]
+    mean = values.mean(axis=0)
+    q25, q75 = np.quantile(values, [0.25, 0.75], axis=0)
+    return [
+        {"n": int(n), "mean": _float(mean[j]), "q25": _float(q25[j]), "q75": _float(q75[j])}
+        for j in range(k)
+    ]

@@ -42,6 +42,7 @@ from ..core import biplot as core_biplot
 from ..model import CompositionModel
 from . import _common as cm
 from ._scatter import ScatterView
+from ._threads import one_blas_thread
 
 __all__ = ["BiplotView"]
 
@@ -109,6 +110,18 @@ def _text_width_px(text: str) -> float:
         else:
             width += _LABEL_CHAR_PX
     return width
+
+
+def _corners(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """The two corners (2, 2) of the bounding box of the finite points (0 rows: none)."""
+    finite = np.isfinite(x) & np.isfinite(y)
+    if finite.size and finite.all():
+        xs, ys = x, y
+    elif finite.any():
+        xs, ys = x[finite], y[finite]
+    else:
+        return np.zeros((0, 2))
+    return np.array([[xs.min(), ys.min()], [xs.max(), ys.max()]], dtype=float)
 
 
 def _plane_label(pair: tuple[int, int]) -> str:
@@ -216,14 +229,12 @@ class BiplotView(ScatterView):
         scaling = self.scaling
 
         def fit_now():
+            clr = self.model.clr(parts)
             try:
-                return core_biplot.clr_biplot(
-                    self.model.clr(parts),
-                    scaling,
-                    parts=parts,
-                    n_components=n_components,
-                    missing="omit",
-                )
+                with one_blas_thread(clr.size):  # steady time on shared cores (_threads)
+                    return core_biplot.clr_biplot(
+                        clr, scaling, parts=parts, n_components=n_components, missing="omit"
+                    )
             except CompositionError as err:
                 return f"no biplot: {err}"
 
@@ -253,16 +264,23 @@ class BiplotView(ScatterView):
         if max(cx, cy or 0) >= fit.row_coords.shape[1]:
             self._fit_model()  # a component beyond the row coordinates kept: refit
             fit = self.biplot
-        rows = np.flatnonzero(fit.rows_used).astype(np.uint32)
-        x = fit.row_coords[rows, cx]
-        y = fit.row_coords[rows, cy] if cy is not None else np.zeros(rows.size)
+        plane = self._plane_list()
+
+        def points():
+            rows = np.flatnonzero(fit.rows_used).astype(np.uint32)
+            x = fit.row_coords[rows, cx]
+            y = fit.row_coords[rows, cy] if cy is not None else np.zeros(rows.size)
+            return rows, x, y, core_biplot.ray_display_factor(fit, plane)
+
+        # kept in the model's cache per plane: a plane shown before is a lookup
+        key = ("biplot-plane", fit.scaling, fit.n_components, cx, cy)
+        rows, x, y, self.ray_factor = self.model.derived(key, self._fit_parts, points)
         tips = np.column_stack(
             [
                 fit.column_coords[:, cx],
                 fit.column_coords[:, cy] if cy is not None else np.zeros(len(fit.parts)),
             ]
         )
-        self.ray_factor = core_biplot.ray_display_factor(fit, self._plane_list())
         return rows, x, y, tips * self.ray_factor
 
     # ------------------------------------------------------------- validation
@@ -487,7 +505,7 @@ class BiplotView(ScatterView):
         The figure keeps an equal aspect at a fixed height, so a wide plane is given a
         taller y range rather than a figure wider than ``_MAX_ASPECT`` times its height.
         """
-        points = np.column_stack([x, y])
+        points = _corners(x, y)  # the points' bounding box gives the same limits
         ranges = self._fit_ranges(points, tips)
         if tips.shape[0]:
             # the part names, laid out at that scale, must fit too (their boxes grow the
@@ -521,9 +539,16 @@ class BiplotView(ScatterView):
             dtype=float,
         ).reshape(-1, 2)
         boxes *= per_px
-        centres = core_biplot.ray_label_positions(
-            tips, _LABEL_GAP_PX * per_px, box_sizes=boxes, tip_radius=_TIP_RADIUS_PX * per_px
-        )
+        tips = np.ascontiguousarray(tips, dtype=float)
+
+        def place() -> np.ndarray:
+            return core_biplot.ray_label_positions(
+                tips, _LABEL_GAP_PX * per_px, box_sizes=boxes, tip_radius=_TIP_RADIUS_PX * per_px
+            )
+
+        # kept in the model's cache: the layout of many names is the slow part of a redraw
+        key = ("biplot-labels", tips.tobytes(), boxes.tobytes(), float(per_px))
+        centres = self.model.derived(key, self._fit_parts or [], place)
         return centres, boxes / 2
 
     def _refresh_extra(self) -> None:

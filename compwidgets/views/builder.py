@@ -25,7 +25,7 @@ import traitlets as t
 
 from .. import core
 from ..core import principal as _principal
-from ..core.summary import summarize_balances
+from ..core.summary import quartile_summary, summarize_balances
 from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
 from ..model import CompositionModel, ModelError
 from ._common import group_colours
@@ -502,10 +502,18 @@ class BalanceBuilder(anywidget.AnyWidget):
                 f"a variance needs at least {core.DDOF + 1}"
             )
         else:
-            values = m.part_values()[ok]
-            self._total = float(core.total_variance(values))
+            self._total = m.total_variance()
             if part.sbp.shape[0]:
-                self._B = np.asarray(core.balances(values, part.sbp, complete=False), float)
+                sbp = part.sbp
+                # kept in the model's cache per partition (parts shown again are a lookup),
+                # computed in blocks of rows
+                B = m.rowwise(
+                    ("builder-balances", sbp.shape, sbp.tobytes()),
+                    None,
+                    lambda v: core.balances(v, sbp, complete=False),
+                    sbp.shape[0],
+                )
+                self._B = B if n_ok == m.n_rows else B[ok]
         self._summarise()
         return warning
 
@@ -554,12 +562,12 @@ class BalanceBuilder(anywidget.AnyWidget):
         m = self.model
         selection = []
         if self._B is not None:
-            chosen = m.selected_mask()[self._rows]
-            summary = summarize_balances(self._B[chosen])
-            selection = [
-                {"id": i, "n": s["n"], "mean": s["mean"], "q25": s["q25"], "q75": s["q75"]}
-                for i, s in zip(self._part.ids, summary, strict=True)
-            ]
+            if self._n_ok == m.n_rows:  # every row complete: the selected rows of B directly
+                chosen = self._B[m.selection]
+            else:
+                chosen = self._B[m.selected_mask()[self._rows]]
+            summary = quartile_summary(chosen)
+            selection = [{"id": i, **s} for i, s in zip(self._part.ids, summary, strict=True)]
         with self.hold_sync():
             if self.selection_stats != selection:
                 self.selection_stats = selection

@@ -579,11 +579,7 @@ class SubcompositionPicker(w.VBox):
         self._set_pair(None)
         try:
             T = self.model.variation_matrix(parts)
-            total = self.model.derived(
-                "total-variance",
-                parts,
-                lambda: core.total_variance(self.model.part_values(parts)[ok]),
-            )
+            total = self.model.total_variance(parts)
         except (core.CompositionError, ValueError) as err:
             self.variation, self.total_variance = None, None
             self.heatmap.clear()

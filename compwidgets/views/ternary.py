@@ -20,7 +20,7 @@ import bqplot as bq
 import numpy as np
 import traitlets as t
 
-from ..core import CompositionError, center
+from ..core import CompositionError, center, closure
 from ..core import regions as core_regions
 from ..core import ternary as core_ternary
 from ..model import CompositionModel
@@ -269,7 +269,9 @@ class TernaryView(ScatterView):
             rows = np.flatnonzero(model.complete_rows(parts)).astype(np.uint32)
             if rows.size == 0:
                 return rows, np.zeros(0), np.zeros(0), None
-            closed = np.asarray(model.closed(parts))[rows]
+            # closed here, not kept: the projection is what is kept (less memory per view)
+            values = model.part_values(parts)
+            closed = closure(values if rows.size == model.n_rows else values[rows])
             centring = None
             if centred:
                 centring = core_ternary.centring_perturbation(data=closed)
@@ -286,8 +288,9 @@ class TernaryView(ScatterView):
         """Closed compositions (3 parts) of the rows shown, in the order of ``rows``."""
         parts = list(self.parts)
         rows = self.rows
+        values = self.model.part_values(parts)
         return self.model.derived(
-            ("ternary-closed-shown", rows.size), parts, lambda: self.model.closed(parts)[rows]
+            ("ternary-closed-shown", rows.size), parts, lambda: closure(values[rows])
         )
 
     def _build_marks(self):
@@ -448,7 +451,7 @@ class TernaryView(ScatterView):
             return None
         parts = list(self.parts)
         complete = self.model.complete_rows(parts)
-        closed = self.model.closed(parts)
+        values = self.model.part_values(parts)
 
         def row_composition(r: int) -> np.ndarray | None:
             if not complete[r]:
@@ -457,7 +460,7 @@ class TernaryView(ScatterView):
                     + ", ".join(parts)
                 )
                 return None
-            return np.asarray(closed[r])
+            return np.asarray(closure(values[r]))
 
         try:
             if isinstance(spec, dict):
@@ -489,7 +492,7 @@ class TernaryView(ScatterView):
         comp = m.composition
         lines = self._hover_heading(row)
         parts = list(self.parts)
-        closed = np.asarray(m.closed(parts))[row]
+        closed = closure(m.part_values(parts)[row])
         values = m.part_values(parts)[row]
         for j, part in enumerate(parts):
             members = cm.part_members(m, part)

@@ -43,6 +43,7 @@ from ..core.outliers import (
 )
 from ._later import run_when_idle
 from ._progress import ProgressLine
+from ._threads import one_blas_thread
 
 __all__ = ["CAUTION", "TriageItem", "TriagePanel", "intake_items"]
 
@@ -485,6 +486,11 @@ class TriagePanel(w.VBox):
             self.progress.hide()
 
     def _screen(self) -> None:
+        # many small fits (at most max_fit_rows x max_coordinates): one thread is steady
+        with one_blas_thread():
+            self._screen_now()
+
+    def _screen_now(self) -> None:
         model = self.model
         parts = list(model.active_parts)
         by_group = bool(self.by_group.value and model.group_column)
