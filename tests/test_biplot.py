@@ -585,3 +585,53 @@ def test_ray_label_positions_rejects_bad_boxes():
         ray_label_positions(tips, 0.1, box_sizes=[-1.0, 0.2])
     with pytest.raises(CompositionError, match="tip_radius"):
         ray_label_positions(tips, 0.1, box_sizes=[1.0, 0.2], tip_radius=-1.0)
+
+
+def reference_label_positions(tips, offset, boxes, tip_radius):
+    """The placement rule of ``ray_label_positions`` written out with plain loops (one
+    candidate and one box at a time), as its docstring states it."""
+    T = np.asarray(tips, dtype=float)
+    D = T.shape[0]
+    half = boxes / 2
+    length = np.hypot(T[:, 0], T[:, 1])
+    along = np.array([T[i] / length[i] if length[i] > 0 else [0.0, 1.0] for i in range(D)])
+    side = np.column_stack([-along[:, 1], along[:, 0]])
+    reach = offset + (half[:, 0] + tip_radius) * np.abs(along[:, 0])
+    reach = reach + (half[:, 1] + tip_radius) * np.abs(along[:, 1])
+    start = T + along * reach[:, None]
+    tallest = boxes[:, 1].max()
+    step, max_shift = tallest / 2, 8 * tallest
+    k = int(np.floor(max_shift / step + 1e-9))
+    pushes = [
+        (a, b)
+        for a in range(k + 1)
+        for b in range(-k, k + 1)
+        if np.hypot(a, b) * step <= max_shift * (1 + 1e-9)
+    ]
+    # nearest first; then smaller |b|, outward (smaller a), left (larger b) first
+    pushes.sort(key=lambda ab: (np.hypot(*ab), abs(ab[1]), ab[0], -ab[1]))
+    placed: list[int] = []
+    out = start.copy()
+    for i in sorted(range(D), key=lambda i: -length[i]):
+        for a, b in pushes:
+            c = start[i] + a * step * along[i] + b * step * side[i]
+            hit = any(np.all(np.abs(c - out[j]) < half[i] + half[j]) for j in placed)
+            tip = any(np.all(np.abs(c - T[j]) < half[i] + tip_radius) for j in range(D))
+            if not hit and not tip:
+                out[i] = c
+                break
+        placed.append(i)
+    return out
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(2, 14), st.integers(0, 10_000), st.floats(0.05, 1.0))
+def test_label_positions_follow_their_rule(D, seed, spread):
+    # crowded and sparse layouts alike: the vectorised placement (chunks of candidates,
+    # nearby boxes only) gives the positions of the rule applied one candidate at a time
+    rng = np.random.default_rng(seed)
+    tips = rng.normal(size=(D, 2)) * spread
+    boxes = np.column_stack([rng.uniform(0.05, 0.4, D), np.full(D, 0.08)])
+    got = core.biplot.ray_label_positions(tips, 0.02, box_sizes=boxes, tip_radius=0.01)
+    expected = reference_label_positions(tips, 0.02, boxes, 0.01)
+    np.testing.assert_allclose(got, expected, atol=1e-12)

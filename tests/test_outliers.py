@@ -19,6 +19,7 @@ import pandas as pd
 import pytest
 from conftest import valid_sbps
 from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy import linalg, stats
 from sklearn.covariance import MinCovDet
 
@@ -26,10 +27,13 @@ import compwidgets.core as core
 from compwidgets.core import CompositionError
 from compwidgets.core.outliers import (
     DEFAULT_QUANTILE,
+    MIN_GROUP_FIT_ROWS,
     chi2_cutoff,
     compositional_outliers,
+    group_fit_rows,
     robust_distances,
     robust_distances_by_group,
+    spatial_median,
 )
 
 D = 5
@@ -254,3 +258,110 @@ def test_module_imports_no_widget_library_and_sklearn_only_when_used():
     out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True)
     result = json.loads(out.stdout)
     assert result == {"sklearn_at_import": False, "loaded": []}
+
+
+# ------------------------------------------------------- bounded cost on wide tables
+def wide_table(n: int = 600, p: int = 30, seed: int = 12) -> np.ndarray:
+    """Invented coordinates with a few strong factors (as real trace data have)."""
+    rng = np.random.default_rng(seed)
+    factors = rng.normal(size=(n, 4)) @ (rng.normal(size=(4, p)) * 2.0)
+    return factors + rng.normal(scale=0.3, size=(n, p))
+
+
+def test_few_coordinates_ignore_max_coordinates():
+    # Small D: exactly the MCD of the coordinates (sklearn MinCovDet, as before)
+    Y = helmert_ilr(logistic_normal(n=200))
+    plain = robust_distances(Y)
+    limited = robust_distances(Y, max_coordinates=Y.shape[1])
+    assert not limited.reduced and limited.orthogonal is None
+    np.testing.assert_array_equal(limited.distances, plain.distances)
+    np.testing.assert_array_equal(limited.outliers, plain.outliers)
+    assert limited.method == f"MCD of {Y.shape[1]} coordinates"
+
+
+def test_many_coordinates_are_reduced_to_spherical_components_and_said_so():
+    Y = wide_table()
+    r = robust_distances(Y, max_coordinates=8, max_fit_rows=400)
+    assert r.reduced and r.location.size == 8 and r.n_input_coordinates == 30
+    assert r.directions.shape == (30, 8)
+    # orthonormal directions (numpy)
+    np.testing.assert_allclose(r.directions.T @ r.directions, np.eye(8), atol=1e-10)
+    assert 0.0 < r.explained <= 1.0
+    assert "8 leading spherical principal components of 30 coordinates" in r.method
+    assert "fitted on a random 400 of 600 rows" in r.method
+    # the distance is the MCD distance of the scores (sklearn MinCovDet on the documented
+    # sample, from the spatial median along the directions)
+    scores = (Y - r.centre) @ r.directions
+    chosen = np.sort(np.random.default_rng(0).choice(600, 400, replace=False))
+    mcd = MinCovDet(random_state=0).fit(scores[chosen])
+    np.testing.assert_allclose(r.distances, np.sqrt(mcd.mahalanobis(scores)), rtol=1e-8)
+    # orthogonal distance: the length of what the directions leave out (numpy)
+    resid = (Y - r.centre) - scores @ r.directions.T
+    np.testing.assert_allclose(r.orthogonal, np.linalg.norm(resid, axis=1), atol=1e-8)
+    # its cut-off: (median + MAD z_q)^(3/2) of od^(2/3) on the fitted rows
+    # (Hubert, Rousseeuw & Vanden Branden 2005); scipy's norm quantile and MAD
+    z = r.orthogonal[r.fitted] ** (2 / 3)
+    mad = stats.median_abs_deviation(z, scale="normal")
+    cut = (np.median(z) + mad * stats.norm.ppf(0.975)) ** 1.5
+    assert r.orthogonal_cutoff == pytest.approx(cut, rel=1e-3)  # 1.4826 vs 1/Phi^-1(3/4)
+    np.testing.assert_array_equal(
+        r.outliers, (r.distances > r.cutoff) | (r.orthogonal > r.orthogonal_cutoff)
+    )
+    np.testing.assert_array_equal(r.outliers_at(0.975), r.outliers)
+    assert r.outliers_at(0.999).sum() <= r.outliers.sum()
+
+
+def test_rows_off_the_retained_components_are_flagged_by_their_orthogonal_distance():
+    Y = wide_table(n=800, p=40, seed=3)
+    off = np.arange(0, 800, 100)
+    rng = np.random.default_rng(9)
+    # a shift orthogonal to the 4 strong factors: it shows in the orthogonal distance
+    direction = rng.normal(size=40)
+    r0 = robust_distances(Y, max_coordinates=4)
+    direction -= r0.directions @ (r0.directions.T @ direction)
+    Y[off] += 4.0 * direction / np.linalg.norm(direction)
+    r = robust_distances(Y, max_coordinates=4)
+    assert (r.orthogonal[off] > r.orthogonal_cutoff).all()
+    # the shift is invisible to the distance within the components: their mean is ordinary
+    assert np.median(r.distances[off]) < r.cutoff
+    assert r.outliers[off].all()
+    clean = np.setdiff1d(np.arange(800), off)
+    assert r.outliers[clean].mean() < 0.08  # two criteria at 2.5 % each, and some slack
+
+
+@settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000))
+def test_reduced_distances_do_not_depend_on_an_orthogonal_change_of_basis(seed):
+    # Spherical PCA and the MCD are orthogonally equivariant (Locantore et al. 1999;
+    # Rousseeuw & Van Driessen 1999): rotating the coordinates (a change of orthonormal
+    # ilr basis) leaves both distances unchanged. Rotation from scipy's QR of a random matrix.
+    Y = wide_table(n=300, p=25, seed=seed % 97)
+    Q, _ = linalg.qr(np.random.default_rng(seed).normal(size=(25, 25)))
+    a = robust_distances(Y, max_coordinates=5)
+    b = robust_distances(Y @ Q, max_coordinates=5)
+    np.testing.assert_allclose(b.distances, a.distances, rtol=1e-5, atol=1e-7)
+    np.testing.assert_allclose(b.orthogonal, a.orthogonal, rtol=1e-5, atol=1e-7)
+
+
+def test_spatial_median_minimises_the_sum_of_distances():
+    # Source: scipy.optimize.minimize of the sum of Euclidean distances (the definition)
+    from scipy.optimize import minimize
+
+    Y = np.random.default_rng(4).standard_t(3, size=(200, 4))
+    m = spatial_median(Y)
+    best = minimize(lambda c: np.linalg.norm(Y - c, axis=1).sum(), Y.mean(axis=0), tol=1e-12)
+    np.testing.assert_allclose(m, best.x, atol=1e-5)
+
+
+def test_groups_share_the_fitted_rows():
+    assert group_fit_rows([3000, 3000], 5000) == [2500, 2500]
+    assert group_fit_rows([300, 400], 5000) == [None, None]  # small table: never sampled
+    assert group_fit_rows([9000] * 20, 5000) == [MIN_GROUP_FIT_ROWS] * 20  # floor per group
+    assert group_fit_rows([9000], None) == [None]
+    Y = np.random.default_rng(0).normal(size=(1400, 3))
+    groups = ["a"] * 1200 + ["b"] * 200
+    fits, _ = robust_distances_by_group(Y, groups, max_fit_rows=1000, shared_fit_rows=True)
+    assert fits["a"][1].fitted.sum() == 500 and fits["b"][1].fitted.all()
+    seen = []
+    robust_distances_by_group(Y, groups, progress=lambda *a: seen.append(a))
+    assert seen == [(0, 2, "a"), (1, 2, "b")]

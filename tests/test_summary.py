@@ -18,7 +18,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from compwidgets import core
-from compwidgets.core.summary import summarize_balances
+from compwidgets.core.summary import quartile_summary, summarize_balances
 
 
 def _matrix(seed=0, n=50, k=3):
@@ -106,3 +106,36 @@ def test_shares_of_a_complete_sbp_add_up_to_one(data, X):
     shares = [e["share"] for e in out]
     if core.total_variance(X) > 1e-12:
         assert sum(shares) == pytest.approx(1.0, rel=1e-9)
+
+
+def test_quartile_summary_equals_numpy_per_column():
+    # Source: numpy mean and quantile (linear interpolation) column by column
+    B = np.random.default_rng(8).normal(size=(501, 4)) * [1, 2, 3, 4]
+    out = quartile_summary(B)
+    for j, entry in enumerate(out):
+        assert entry["n"] == 501
+        assert entry["mean"] == pytest.approx(float(np.mean(B[:, j])), rel=1e-12)
+        assert entry["q25"] == pytest.approx(float(np.quantile(B[:, j], 0.25)), rel=1e-12)
+        assert entry["q75"] == pytest.approx(float(np.quantile(B[:, j], 0.75)), rel=1e-12)
+    # the same numbers as the selection entry of the full summary
+    full = summarize_balances(B, selected=np.ones(501, dtype=bool))
+    for entry, ref in zip(out, full, strict=True):
+        assert entry == pytest.approx(ref["selection"], rel=1e-12)
+    assert (
+        quartile_summary(np.zeros((0, 2)))
+        == [{"n": 0, "mean": None, "q25": None, "q75": None}] * 2
+    )
+    with pytest.raises(core.CompositionError, match="NaN"):
+        quartile_summary(np.array([[1.0], [np.nan]]))
+
+
+@PROPERTY_SETTINGS
+@given(positive_compositions(min_parts=2, max_parts=7, min_rows=3, max_rows=25))
+def test_total_variance_from_the_variation_matrix(X):
+    # Aitchison (1986): the total variance is sum_ij T_ij / (2 D), and the trace of the
+    # clr covariance; numpy var (ddof=1) of the clr columns written out here
+    Z = np.log(X) - np.log(X).mean(axis=1, keepdims=True)
+    expected = np.var(Z, axis=0, ddof=1).sum()
+    T = core.variation_matrix(X)
+    got = core.stats.total_variance_from_variation(T)
+    assert got == pytest.approx(expected, rel=1e-9, abs=1e-12)
