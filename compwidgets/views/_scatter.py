@@ -23,7 +23,11 @@ Selections are computed in the kernel from the selector's geometry with
 or a polygon clicked vertex by vertex (bqplot's lasso does not send its
 outline to the kernel, so in density mode the polygon replaces it). A change
 of the model's selection only sends the ``selected`` index array (points) or
-a new image (density); point coordinates are sent only when they change.
+a new picture (density; in one of two picture widgets made with the view,
+its selection layer counted from the bins of the selected rows); point
+coordinates are sent only when they change. Errors in widget callbacks are
+shown in the view's ``messages`` output (:mod:`._errors`: without entering the
+output on every call, which cost a stream flush per callback).
 
 Rows that the view cannot show (incomplete in its parts) are left out of this
 view only; a text line says how many.
@@ -40,6 +44,7 @@ from ..core import geometry
 from ..model import CompositionModel
 from . import _common as cm
 from ._density import DensityImage
+from ._errors import shows_errors
 
 __all__ = ["ScatterView"]
 
@@ -100,9 +105,11 @@ class ScatterView(widgets.VBox):
     scatter : bqplot.Scatter
         The points (all rows in points mode, the subsample in density mode).
     density : bqplot.Image
-        The density image (visible in density mode). Each new picture is a new
-        ``ipywidgets.Image`` in its ``image`` trait: bqplot redraws the mark
-        when that widget is replaced, not when its value changes.
+        The density image (visible in density mode). bqplot redraws the mark
+        when its ``image`` widget is replaced, not when that widget's value
+        changes: the view keeps two ``ipywidgets.Image`` widgets, made with the
+        view, writes a new picture into the one not shown and then shows it
+        (no widget is made per selection change).
     brush : bqplot.interacts.BrushSelector
     lasso : bqplot.interacts.LassoSelector
     polygon_marker : bqplot.Scatter
@@ -132,7 +139,10 @@ class ScatterView(widgets.VBox):
     * ``_view_ranges()``: the scale limits at construction (later changes go
       through :meth:`set_view_ranges`);
 
-    may override ``_density_extent``, ``_build_marks``, ``_refresh_extra``,
+    may override ``_coordinates_key`` (what the coordinates depend on besides
+    ``shown_parts()``, hashable: the density bins are then kept in the
+    model's cache per set of parts), ``_density_extent``, ``_build_marks``,
+    ``_refresh_extra``,
     ``_hover_lines`` (starting from ``_hover_heading(row)``: sample id and
     group), ``_legend_anchor`` and ``_on_parts_source_changed``;
     may set the class attributes ``figure_margin`` (pixels around the plot
@@ -475,7 +485,7 @@ class ScatterView(widgets.VBox):
             if self._closed:
                 return None
             if captured is None:
-                captured = self.messages.capture()(func) if hasattr(self, "messages") else func
+                captured = shows_errors(self.messages)(func) if hasattr(self, "messages") else func
             return captured(*args, **kwargs)
 
         return run

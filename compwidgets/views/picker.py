@@ -27,6 +27,7 @@ import traitlets as t
 
 from .. import core
 from ..units import normalize_unit
+from ._errors import shows_errors
 from .heatmap import VariationHeatmap
 
 __all__ = ["SubcompositionPicker", "part_groups"]
@@ -125,7 +126,7 @@ class SubcompositionPicker(w.VBox):
         self.total_variance: float | None = None
         self.picked_pair: tuple[str, str] | None = None
         self.output = w.Output()
-        capture = self.output.capture()
+        capture = shows_errors(self.output)
         self._groups = part_groups(model.composition)
 
         self.message = w.Label(value="")

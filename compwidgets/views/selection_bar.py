@@ -18,6 +18,8 @@ from pathlib import Path
 import ipywidgets as w
 import traitlets as t
 
+from ._errors import shows_errors
+
 __all__ = ["SelectionBar"]
 
 
@@ -64,7 +66,7 @@ class SelectionBar(w.VBox):
         self.model = model
         self.views = list(views)
         self.output = w.Output()
-        capture = self.output.capture()
+        capture = shows_errors(self.output)
 
         self.count_label = w.Label(value="")
         self.count_value = w.Label(value="", layout=w.Layout(display="none"))

@@ -41,6 +41,7 @@ from ..core.outliers import (
     robust_distances,
     robust_distances_by_group,
 )
+from ._errors import shows_errors
 from ._later import run_when_idle
 from ._progress import ProgressLine
 from ._threads import one_blas_thread
@@ -274,7 +275,7 @@ class TriagePanel(w.VBox):
         self._pending = False  # a screening is scheduled for when the kernel is idle
         self._screening = False
         self.output = w.Output()
-        capture = self.output.capture()
+        capture = shows_errors(self.output)
 
         self.caution = w.Label(value=CAUTION, style={"font_weight": "bold"})
         self.message = w.Label(value="")

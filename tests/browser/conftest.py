@@ -307,26 +307,48 @@ bench
 """
 
 
-def xss_notebook_json() -> str:
+#: A long invented table (the demo model, majors only): the views draw density images.
+LARGE_NOTEBOOK = "large_density.ipynb"
+LARGE_ROWS = 200_000
+LARGE_SOURCE = f"""\
+import compwidgets as cw
+
+table = cw.demo.stream_sediments_clean({LARGE_ROWS}, seed=7)  # invented survey, all numeric
+majors = [c for c in table.columns if str(c).endswith("(wt%)")]
+bench = cw.explore(table, parts=majors, check_total=False)
+bench
+"""
+
+
+def notebook_json(source: str, cell_id: str) -> str:
+    """A one-cell notebook (Python 3 kernel) of ``source``."""
     import nbformat
     from nbformat.v4 import new_code_cell, new_notebook
 
     nb = new_notebook(
-        cells=[new_code_cell(XSS_SOURCE)],
+        cells=[new_code_cell(source)],
         metadata={
             "kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"}
         },
     )
-    nb.cells[0]["id"] = "xss-probe"
+    nb.cells[0]["id"] = cell_id
     return nbformat.writes(nb)
+
+
+def xss_notebook_json() -> str:
+    return notebook_json(XSS_SOURCE, "xss-probe")
 
 
 @pytest.fixture(scope="session")
 def lab(chromium_executable, tmp_path_factory):
-    """The JupyterLab server of the session (quick start and XSS notebooks in its root)."""
+    """The JupyterLab server of the session (quick start, XSS and large notebooks in its root)."""
     server = start_lab(
         tmp_path_factory.mktemp("jupyterlab"),
-        {QUICK_START.name: QUICK_START, XSS_NOTEBOOK: xss_notebook_json()},
+        {
+            QUICK_START.name: QUICK_START,
+            XSS_NOTEBOOK: xss_notebook_json(),
+            LARGE_NOTEBOOK: notebook_json(LARGE_SOURCE, "large-table"),
+        },
     )
     try:
         yield server
