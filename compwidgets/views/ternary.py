@@ -23,7 +23,7 @@ import traitlets as t
 from ..core import CompositionError, center
 from ..core import regions as core_regions
 from ..core import ternary as core_ternary
-from ..model import CompositionModel
+from ..model import CompositionModel, ModelError
 from . import _common as cm
 from ._scatter import ScatterView
 
@@ -135,8 +135,8 @@ class TernaryView(ScatterView):
     def _check_parts(self, proposal):
         try:
             return cm.check_view_parts(self.model, proposal["value"], 3)
-        except ValueError as err:
-            raise t.TraitError(f"TernaryView.parts: {err}") from None
+        except CompositionError as err:
+            raise ModelError(f"TernaryView.parts: {err}") from None
 
     @t.validate("grid_step")
     def _check_step(self, proposal):
