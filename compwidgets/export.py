@@ -55,8 +55,9 @@ _BALANCE_KEYS = ("name", "numerator", "denominator")
 _REPLACEMENT_KEYS = ("replacement", "fraction", "detection_limits", "negative_is_below_detection")
 #: The keys of the "replacement" entry (intake's "replacement" is written as "strategy").
 _REPLACEMENT_ENTRY = ("strategy", "fraction", "detection_limits", "negative_is_below_detection")
-#: Largest document read (bytes of a file; a 200-part partition takes well under 1 MB).
-MAX_DOCUMENT_BYTES = 4_000_000
+#: Largest document read (bytes of a file; a chain of splits over 200 parts, written with
+#: indentation, takes about 7.5 MB).
+MAX_DOCUMENT_BYTES = 16_000_000
 #: Deepest nesting of JSON objects and lists read (a chain of splits over D parts nests
 #: about 2 D deep, so this allows partitions of 200 parts in any shape).
 MAX_DEPTH = 400
