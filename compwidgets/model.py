@@ -121,7 +121,10 @@ class _Partition(_Refusing, t.TraitType):
             and old.shape == new.shape
             and np.array_equal(old, new)
         )
-        if same or (old is None and new is None):
+        if same:  # nothing to announce; it now stands over the current parts
+            obj._sbp_for = _sbp_key(old, obj.active_parts)
+            return
+        if old is None and new is None:
             return
         obj._trait_values[self.name] = new
         obj._notify_trait(self.name, old, new)

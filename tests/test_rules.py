@@ -11,10 +11,18 @@ All tables are invented.
 
 from __future__ import annotations
 
+import shutil
+import tempfile
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
 import traitlets
+from conftest import valid_sbps
+from hypothesis import settings
+from hypothesis import strategies as st
+from hypothesis.stateful import RuleBasedStateMachine, invariant, rule
 
 from compwidgets import core, export
 from compwidgets.core import CompositionError, SBPError
@@ -256,6 +264,23 @@ def test_assigning_the_sbp_directly_gives_default_names_and_every_export_works(t
         model.balance_names = ["x"]
 
 
+def test_an_sbp_belongs_to_the_parts_in_their_order():
+    model = model_of(table(PARTS))
+    model.set_sbp(SBP, names=NAMES)
+    shuffled = ["CaO", "MgO", "Fe2O3", "Al2O3", "SiO2"]
+    model.active_parts = shuffled  # same parts, other order: the columns mean other parts
+    assert model.sbp is None and model.balance_names == []
+    # assigned together with the new order, the same matrix stands over the new parts,
+    # named after them
+    model.active_parts = PARTS
+    model.set_sbp(SBP, names=NAMES)
+    with model.hold_trait_notifications():
+        model.active_parts = shuffled
+        model.sbp = SBP
+    np.testing.assert_array_equal(model.sbp, SBP)
+    assert model.balance_names == core.balance_names(SBP, shuffled)
+
+
 def _every_export_works(model, tmp_path) -> None:
     complete = model.sbp is not None and model.sbp.shape[0] == len(model.active_parts) - 1
     out = export.ilr_frame(model, require_complete=False, include_selection=True)
@@ -386,3 +411,112 @@ def test_the_part_and_sbp_rules_are_the_ones_in_core(monkeypatch):
     assert calls.pop("require_sbp") >= 1
     BalanceTransformer(SBP, parts=PARTS).fit(frame[PARTS])
     assert calls.pop("check_parts") >= 1 and calls.pop("check_sbp") >= 1
+
+
+# ------------------------------------------- any sequence of changes, every export works
+class ModelChanges(RuleBasedStateMachine):
+    """Random sequences of accepted and refused changes to one model.
+
+    After every step the state is consistent and every export works (or, with no SBP,
+    is refused as a CompositionError); a refused change leaves the model as it was.
+    SBPs are drawn by random splitting (conftest.valid_sbps, the definition of an SBP).
+    """
+
+    def __init__(self):
+        super().__init__()
+        self.frame = table(PARTS, n=12, seed=5)
+        self.model = model_of(self.frame)
+        self.folder = Path(tempfile.mkdtemp(prefix="compwidgets-changes-"))
+
+    def teardown(self):
+        shutil.rmtree(self.folder, ignore_errors=True)
+
+    def _state(self):
+        m = self.model
+        sbp = None if m.sbp is None else m.sbp.tolist()
+        return (list(m.active_parts), dict(m.amalgamations), sbp, list(m.balance_names))
+
+    def _attempt(self, change) -> None:
+        before = self._state()
+        try:
+            change()
+        except CompositionError:
+            assert self._state() == before  # refused: nothing changed
+
+    def _sbp(self, data, parts):
+        S = data.draw(valid_sbps(len(parts)))
+        k = data.draw(st.integers(1, len(parts) - 1))
+        return S[:k]  # the first rows of an SBP are a partition still being built
+
+    @rule(data=st.data())
+    def active_parts(self, data):
+        pool = self.model.available_parts
+        parts = data.draw(st.lists(st.sampled_from(pool), min_size=1, max_size=len(pool)))
+        self._attempt(lambda: setattr(self.model, "active_parts", parts))
+
+    @rule(data=st.data())
+    def amalgamation(self, data):
+        members = data.draw(st.lists(st.sampled_from(PARTS), min_size=1, max_size=3))
+        groups = data.draw(st.sampled_from([{}, {"FM": members}]))
+        self._attempt(lambda: setattr(self.model, "amalgamations", groups))
+
+    @rule(data=st.data(), direct=st.booleans())
+    def sbp(self, data, direct):
+        parts = list(self.model.active_parts)
+        S = self._sbp(data, parts)
+        if direct:
+            self._attempt(lambda: setattr(self.model, "sbp", S))
+        else:
+            names = data.draw(st.lists(st.sampled_from(["", "a", "b", " c "]), max_size=6))
+            self._attempt(lambda: self.model.set_sbp(S, names=names[: len(S)] or None))
+
+    @rule(data=st.data())
+    def sbp_table_in_another_order(self, data):
+        parts = list(self.model.active_parts)
+        S = self._sbp(data, parts)
+        order = data.draw(st.permutations(parts))
+        frame = pd.DataFrame(S, columns=parts)[list(order)]
+        self._attempt(lambda: self.model.set_partition(frame))
+        if self.model.sbp is not None and self.model.active_parts == list(order):
+            np.testing.assert_array_equal(self.model.sbp, frame.to_numpy())
+
+    @rule(data=st.data())
+    def names(self, data):
+        names = data.draw(st.lists(st.sampled_from(["", "x", "y", "z", "w"]), max_size=5))
+        self._attempt(lambda: setattr(self.model, "balance_names", names))
+
+    @rule(data=st.data())
+    def colour(self, data):
+        name = data.draw(st.sampled_from(["", "x", *self.model.balance_names]))
+        self._attempt(lambda: setattr(self.model, "colour_by", name))
+
+    @rule()
+    def clear(self):
+        self.model.clear_sbp()
+
+    @rule(rows=st.lists(st.integers(0, 11), max_size=6))
+    def select(self, rows):
+        self.model.select(rows)
+
+    @invariant()
+    def consistent_and_exportable(self):
+        m = self.model
+        if m.sbp is None:
+            assert m.balance_names == [] and m.colour_by == ""
+            with pytest.raises(CompositionError, match="no SBP"):
+                export.ilr_frame(m)
+            return
+        assert m.sbp.shape[1] == len(m.active_parts)
+        assert len(m.balance_names) == m.sbp.shape[0] == len(set(m.balance_names))
+        assert m.colour_by in ("", *m.balance_names)
+        _every_export_works(m, self.folder)
+        # the balances are those of the definition over the active parts' values
+        values = pd.DataFrame(m.part_values(), columns=m.active_parts)
+        ok = m.complete_rows()
+        expected = expected_balances(values[ok], m.sbp, m.active_parts)
+        got = export.ilr_frame(m, require_complete=False).to_numpy()[ok]
+        np.testing.assert_allclose(got, expected, atol=1e-12)
+
+
+ModelChanges.TestCase.settings = settings(max_examples=20, stateful_step_count=8, deadline=None)
+test_any_sequence_of_changes_keeps_every_export_working = ModelChanges.TestCase
