@@ -7,6 +7,12 @@ from :mod:`compwidgets.core`; this module only places marks and text.
 
 Example
 -------
+>>> import compwidgets as cw
+>>> table = cw.demo.stream_sediments(n=300)  # invented survey
+>>> model = cw.CompositionModel(
+...     cw.read_composition(table, detection_limits=cw.demo.DETECTION_LIMITS)
+... )
+>>> model.amalgamations = {"mafic": ["Fe2O3", "MgO"]}
 >>> view = TernaryView(model, ["SiO2", "Al2O3", "mafic"], probability_levels=[0.9, 0.99])
 >>> view.centred = True          # perturb data and grid by the inverse data centre
 >>> view.parts = ["Na2O", "K2O", "CaO"]
