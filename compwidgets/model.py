@@ -258,6 +258,12 @@ class CompositionModel(t.HasTraits):
     def _valid_amalgamations(self, value, active: Sequence[str]) -> dict:
         """Checked amalgamations; with them, ``active`` must not count a part twice."""
         groups = dict(value)
+        for name, members in groups.items():
+            named = not isinstance(members, (str, bytes)) and isinstance(members, Sequence)
+            if not named or not all(isinstance(m, str) for m in members):
+                raise ModelError(
+                    f"amalgamation {name!r}: give a list of part names, got {members!r}"
+                )
         if groups:
             _checked(core.subcomp.check_amalgamations, groups, self.parts)
         groups = {k: [str(m) for m in v] for k, v in groups.items()}
@@ -309,7 +315,23 @@ class CompositionModel(t.HasTraits):
             if names:
                 raise ModelError(f"balance names {names} need an SBP; {core.rules.NO_SBP}")
             return []
-        return _checked(core.check_balance_names, names, self.sbp, self.active_parts)
+        return self._valid_names(names, self.sbp, self.active_parts)
+
+    def _valid_names(self, names, sbp, parts) -> list[str]:
+        """Checked balance names (``core.check_balance_names``), none a column of the table.
+
+        A balance named like a part or a metadata column could not sit next to it in
+        the exports (``export.ilr_frame(include_metadata=True)``, the selected-rows CSV).
+        """
+        names = _checked(core.check_balance_names, names, sbp, parts)
+        taken = set(self.parts) | {str(c) for c in self.metadata.columns}
+        clash = [n for n in names if n in taken]
+        if clash:
+            raise ModelError(
+                f"balance name(s) {clash} are already column names of the table (parts or "
+                "metadata); choose other names"
+            )
+        return names
 
     @t.validate("colour_by")
     def _check_colour_by(self, proposal):
@@ -487,8 +509,10 @@ class CompositionModel(t.HasTraits):
         """
         if not isinstance(name, str) or not name.strip():
             raise ModelError("a group column needs a non-empty name")
-        if name in self.metadata.columns or name in self.parts:
-            raise ModelError(f"a column named {name!r} exists already; choose another name")
+        if name in self.metadata.columns or name in self.parts or name in self.balance_names:
+            raise ModelError(
+                f"a column or balance named {name!r} exists already; choose another name"
+            )
         if selected_label == other_label:
             raise ModelError("the selected and other labels must differ")
         labels = np.where(self.selected_mask(), selected_label, other_label)
@@ -672,9 +696,7 @@ class CompositionModel(t.HasTraits):
         groups = self._valid_amalgamations(groups, parts)
         parts = _checked(core.check_parts, parts, self.parts, groups)
         S = _checked(core.check_sbp, sbp, parts, complete=False)
-        names = _checked(
-            core.check_balance_names, _frame_names(sbp) if names is None else names, S, parts
-        )
+        names = self._valid_names(_frame_names(sbp) if names is None else names, S, parts)
         S.flags.writeable = False
         with self.hold_trait_notifications():
             if groups != dict(self.amalgamations):

@@ -133,11 +133,18 @@ def test_ilr_frame_partial_and_missing_sbp():
     np.testing.assert_allclose(out.iloc[:, 1].to_numpy()[5:], balance_direct(values[5:], SBP[1]))
 
 
-def test_ilr_frame_name_clash():
+def test_a_balance_named_like_a_column_is_refused_when_named_not_when_exported():
+    # so that every export works in every state the model accepts
     model = make_model()
-    model.set_sbp(SBP, names=["site", "", "", "", ""])
-    with pytest.raises(ExportError, match="site"):
-        ilr_frame(model, include_metadata=True)
+    for taken in ("site", "SiO2"):
+        with pytest.raises(core.CompositionError, match=f"'{taken}'.*already column names"):
+            model.set_sbp(SBP, names=[taken, "", "", "", ""])
+    assert model.sbp is None
+    model.set_sbp(SBP, names=["felsic", "", "", "", ""])
+    with pytest.raises(core.CompositionError, match="exists already"):
+        model.selection_to_group("felsic")
+    out = ilr_frame(model, include_metadata=True, include_selection=True)
+    assert list(out.columns[:2]) == ["site", "selected"]
 
 
 # --------------------------------------------------- sbp / contrast frames

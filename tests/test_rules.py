@@ -283,12 +283,15 @@ def test_an_sbp_belongs_to_the_parts_in_their_order():
 
 def _every_export_works(model, tmp_path) -> None:
     complete = model.sbp is not None and model.sbp.shape[0] == len(model.active_parts) - 1
-    out = export.ilr_frame(model, require_complete=False, include_selection=True)
-    assert list(out.columns)[1:] == list(model.balance_names)
+    out = export.ilr_frame(
+        model, require_complete=False, include_metadata=True, include_selection=True
+    )
+    assert list(out.columns)[-len(model.balance_names) :] == list(model.balance_names)
+    assert list(out.columns)[: model.metadata.shape[1]] == list(model.metadata.columns)
     assert export.sbp_frame(model).shape == model.sbp.shape
     assert export.contrast_frame(model).shape == model.sbp.shape
     if complete:
-        export.ilr_frame(model, include_metadata=True)
+        export.ilr_frame(model)
         BalanceTransformer.from_model(model)
     export.save_ilr_csv(model, tmp_path / "b.csv", require_complete=False)
     export.save_selected_csv(model, tmp_path / "s.csv")
@@ -307,6 +310,7 @@ def test_every_refused_model_change_is_a_composition_error():
         lambda: setattr(model, "active_parts", [1, 2]),
         lambda: setattr(model, "amalgamations", ["FeO"]),
         lambda: setattr(model, "amalgamations", {"FM": "Fe2O3"}),
+        lambda: setattr(model, "amalgamations", {"FM": [0, 1]}),  # positions are not names
         lambda: setattr(model, "group_column", 5),
         lambda: setattr(model, "group_column", "nope"),
         lambda: setattr(model, "sbp", [[1, 1, -1, -1, -1]] * 2),
@@ -467,7 +471,7 @@ class ModelChanges(RuleBasedStateMachine):
         if direct:
             self._attempt(lambda: setattr(self.model, "sbp", S))
         else:
-            names = data.draw(st.lists(st.sampled_from(["", "a", "b", " c "]), max_size=6))
+            names = data.draw(st.lists(st.sampled_from(["", "a", "b", " c ", "SiO2"]), max_size=6))
             self._attempt(lambda: self.model.set_sbp(S, names=names[: len(S)] or None))
 
     @rule(data=st.data())
@@ -482,13 +486,17 @@ class ModelChanges(RuleBasedStateMachine):
 
     @rule(data=st.data())
     def names(self, data):
-        names = data.draw(st.lists(st.sampled_from(["", "x", "y", "z", "w"]), max_size=5))
+        names = data.draw(st.lists(st.sampled_from(["", "x", "y", "z", "site"]), max_size=5))
         self._attempt(lambda: setattr(self.model, "balance_names", names))
 
     @rule(data=st.data())
     def colour(self, data):
         name = data.draw(st.sampled_from(["", "x", *self.model.balance_names]))
         self._attempt(lambda: setattr(self.model, "colour_by", name))
+
+    @rule(name=st.sampled_from(["g1", "g2", "x", "site"]))
+    def group(self, name):
+        self._attempt(lambda: self.model.selection_to_group(name))
 
     @rule()
     def clear(self):
