@@ -593,3 +593,62 @@ def test_redefined_amalgamation_refreshes_the_statistics(builder, model):
     logs = np.log(redefined)
     b = np.sqrt(2 / 3) * (logs[:, 0] - logs[:, 1:].mean(axis=1))
     assert builder.stats[0]["variance"] == pytest.approx(np.var(b, ddof=1))
+
+
+# --------------------------------------------------------------------------- figures
+
+
+def custom_messages(widget) -> list[dict]:
+    return [m["content"] for m in widget.comm.sent if m.get("method") == "custom"]
+
+
+def answer_figure(widget, request: dict, data: bytes | None = None, error: str = "") -> None:
+    """Deliver the front end's answer to a figure request, as ipywidgets does."""
+    content = {"type": "figure", "id": request["id"], "format": request["format"]}
+    if error:
+        content["error"] = error
+    widget._handle_custom_msg(content, [memoryview(data)] if data is not None else [])
+
+
+def test_the_builder_carries_its_figure_control(builder):
+    control = builder.figure_control
+    assert control.file_name.value == "balance-dendrogram.png"
+    # synced as a widget reference the front end turns into a view
+    assert builder.get_state()["figure_control"] == f"IPY_MODEL_{control.model_id}"
+
+
+def test_save_figure_asks_the_page_and_writes_its_answer(builder, tmp_path):
+    svg = b'<?xml version="1.0"?><svg xmlns="http://www.w3.org/2000/svg"/>'
+    path = builder.save_figure(tmp_path / "dendro.svg")
+    assert path == tmp_path / "dendro.svg"
+    assert builder.figure_control.format.value == "svg"
+    (request,) = custom_messages(builder)
+    assert request["type"] == "figure-request" and request["format"] == "svg"
+    assert not path.exists()  # written when the page answers
+    answer_figure(builder, request, svg)
+    assert path.read_bytes() == svg
+    assert builder.figure_control.message.value.startswith("Saved dendro.svg (SVG")
+    # a second view answering the same request changes nothing
+    answer_figure(builder, request, b"other")
+    assert path.read_bytes() == svg
+
+
+def test_save_figure_png_scale_and_refusals(builder, tmp_path):
+    assert builder.save_figure(tmp_path / "d.png", scale=3) is None
+    assert "scale 3" in builder.figure_control.message.value
+    assert custom_messages(builder) == []
+    builder.save_figure(tmp_path / "d.png", scale=4)
+    (request,) = custom_messages(builder)
+    assert (request["format"], request["scale"]) == ("png", 4)
+    answer_figure(builder, request, error="this browser cannot draw the PNG (no canvas)")
+    assert builder.figure_control.message.value == (
+        "No figure saved: this browser cannot draw the PNG (no canvas)."
+    )
+    assert not (tmp_path / "d.png").exists()
+
+
+def test_closing_the_builder_closes_its_figure_control(model):
+    b = BalanceBuilder(model)
+    control = b.figure_control
+    b.close()
+    assert control.comm is None
