@@ -44,7 +44,8 @@ let menuCount = 0;
  */
 export function drawSuggestMenu(doc) {
   menuCount += 1;
-  const menuId = `cw-suggest-menu-${menuCount}`;
+  // unique on the page even when several copies of this module are loaded
+  const menuId = `cw-suggest-menu-${menuCount}-${Math.random().toString(36).slice(2, 8)}`;
   const footId = `${menuId}-foot`;
   const box = html(doc, "div", { class: "cw-menu-wrap", "data-role": "suggest-box" });
   const trigger = html(doc, "button", {

@@ -104,6 +104,26 @@ function typesText(node) {
 }
 
 /**
+ * Put a view made by the widget manager into `host`, as Lumino's Widget.attach does: the
+ * before-attach and after-attach messages let the view and its children know they are
+ * shown (ipywidgets' views fill in their text only then).
+ * @param {any} view
+ * @param {HTMLElement} host
+ */
+function attachView(view, host) {
+  const lumino = view.luminoWidget || view.pWidget;
+  const message = (/** @type {string} */ type) => ({ type, isConflatable: false, conflate: () => false });
+  if (lumino && typeof lumino.processMessage === "function") {
+    lumino.processMessage(message("before-attach"));
+    host.replaceChildren(view.el);
+    lumino.processMessage(message("after-attach"));
+  } else {
+    host.replaceChildren(view.el);
+    if (typeof view.trigger === "function") view.trigger("displayed");
+  }
+}
+
+/**
  * Render the builder into `el`; returns the cleanup function.
  * @param {{model: WidgetModel, el: HTMLElement}} ctx
  * @returns {() => void}
@@ -416,8 +436,7 @@ export function render({ model, el }) {
         return;
       }
       controlView = view;
-      saveSlot.replaceChildren(view.el);
-      if (typeof view.trigger === "function") view.trigger("displayed");
+      attachView(view, saveSlot);
     } catch (err) {
       saveSlot.textContent = `the figure control could not be shown: ${String(/** @type {Error} */ (err).message || err)}`;
     }

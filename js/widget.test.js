@@ -499,7 +499,17 @@ test("the figure control made by the page's widget manager is shown under the de
   const manager = {
     get_model: async (id) => ({ id }),
     create_view: async (child) => {
-      const view = { el: viewEl, child, removed: false, events: [], remove() { this.removed = true; }, trigger(e) { this.events.push(e); } };
+      const view = {
+        el: viewEl,
+        child,
+        removed: false,
+        messages: [],
+        remove() {
+          this.removed = true;
+        },
+      };
+      // a Lumino widget: it hears that it is attached, after its node is in the page
+      view.luminoWidget = { processMessage: (m) => view.messages.push([m.type, viewEl.isConnected]) };
       made.push(view);
       return view;
     },
@@ -511,7 +521,10 @@ test("the figure control made by the page's widget manager is shown under the de
   assert.equal(made.length, 1);
   assert.deepEqual(made[0].child, { id: "abc123" });
   assert.equal(el.querySelector('[data-role="figure-save"]').firstChild, viewEl);
-  assert.deepEqual(made[0].events, ["displayed"]);
+  assert.deepEqual(made[0].messages, [
+    ["before-attach", false],
+    ["after-attach", true],
+  ]);
   cleanup();
   assert.equal(made[0].removed, true);
 });

@@ -558,13 +558,13 @@ def test_statistics_and_suggestions_use_the_complete_rows(recording_comms):
 def test_too_few_complete_rows_is_said_and_the_tree_still_works(recording_comms):
     model = _model_with_missing([0, 1], n=3)
     b = BalanceBuilder(model)
-    assert "only 1 row(s)" in b.error
+    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
     assert b.total_variance is None
     from_front_end(b, tree=first_split())
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
     assert b.stats[0]["variance"] is None
     assert b.stats[0]["numerator"] == PARTS[:2]
-    assert "only 1 row(s)" in b.error
+    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
     b._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
     assert b.error.startswith("no suggestion:")
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])

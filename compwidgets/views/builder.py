@@ -571,8 +571,8 @@ class BalanceBuilder(anywidget.AnyWidget):
         warning = ""
         if n_ok <= core.DDOF:
             warning = (
-                f"only {n_ok} row(s) have a positive value in every active part; "
-                f"a variance needs at least {core.DDOF + 1}"
+                f"only {n_ok} {'row has' if n_ok == 1 else 'rows have'} a positive value in "
+                f"every active part; a variance needs at least {core.DDOF + 1} rows"
             )
         else:
             values = m.part_values()[ok]
