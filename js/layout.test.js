@@ -19,10 +19,11 @@ function completeTree() {
 
 const VARIANCES = { n0: 0.6, n1: 0.25, n2: 0.15 };
 
-function stats(tree, variances = VARIANCES) {
-  return [tree, tree.children[0], tree.children[1]].map((n) => ({
-    id: n.id,
-    variance: variances[n.id === tree.id ? "n0" : n === tree.children[0] ? "n1" : "n2"],
+/** Invented statistics of one balance: quantiles -1 < -0.3 < 0.1 < 0.6 < 1.5, two groups. */
+function balanceStats(id, variance) {
+  return {
+    id,
+    variance,
     mean: 0.2,
     q5: -1,
     q25: -0.3,
@@ -33,7 +34,13 @@ function stats(tree, variances = VARIANCES) {
       { code: 0, mean: -0.5 },
       { code: 1, mean: 0.9 },
     ],
-  }));
+  };
+}
+
+function stats(tree, variances = VARIANCES) {
+  return [tree, tree.children[0], tree.children[1]].map((n) =>
+    balanceStats(n.id, variances[n.id === tree.id ? "n0" : n === tree.children[0] ? "n1" : "n2"]),
+  );
 }
 
 test("solid bar lengths are proportional to the variances and add up along each path", () => {
@@ -352,20 +359,7 @@ test("no two balance bars, marks or labels overlap, for every part count from 2 
         assert.equal(nodes.length, n - 1, "a complete partition");
         const patterns = { ...VARIANCE_PATTERNS, random: () => 1e-4 + rand() };
         for (const [patternName, variance] of Object.entries(patterns)) {
-          const st = nodes.map((node, k) => ({
-            id: node.id,
-            variance: variance(k),
-            mean: 0.1,
-            q5: -2,
-            q25: -0.5,
-            q50: 0,
-            q75: 0.6,
-            q95: 2,
-            groups: [
-              { code: 0, mean: -1 },
-              { code: 1, mean: 1.5 },
-            ],
-          }));
+          const st = nodes.map((node, k) => balanceStats(node.id, variance(k)));
           const sel = nodes.map((node) => ({ id: node.id, n: 3, mean: 0.3, q25: 0, q75: 0.5 }));
           const lay = layoutDendrogram(tree, st, sel);
           const bad = overlaps(lay);

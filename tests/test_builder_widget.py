@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import json
 
-import comm
 import numpy as np
 import pandas as pd
 import pytest
@@ -36,21 +35,7 @@ PARTS = ["Aa", "Bb", "Cc", "Dd", HTML_PART]
 N = 60
 
 
-class RecordingComm(comm.DummyComm):
-    """A comm that keeps every message the kernel sends to the front end."""
-
-    def __init__(self, *args, **kwargs):
-        self.sent: list[dict] = []
-        super().__init__(*args, **kwargs)
-
-    def publish_msg(self, msg_type, data=None, metadata=None, buffers=None, **keys):
-        if msg_type == "comm_msg":
-            self.sent.append(data)
-
-
-@pytest.fixture(autouse=True)
-def recording_comms(monkeypatch):
-    monkeypatch.setattr(comm, "create_comm", lambda *a, **k: RecordingComm(*a, **k))
+pytestmark = pytest.mark.usefixtures("recording_comms")
 
 
 def _values() -> np.ndarray:

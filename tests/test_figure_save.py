@@ -10,7 +10,6 @@ import io
 from pathlib import Path
 
 import bqplot
-import comm
 import pytest
 from PIL import Image
 
@@ -22,22 +21,7 @@ from compwidgets.views._figure_save import (
     png_size,
 )
 
-
-class RecordingComm(comm.DummyComm):
-    """A comm that keeps every message the kernel sends to the front end."""
-
-    def __init__(self, *args, **kwargs):
-        self.sent: list[dict] = []
-        super().__init__(*args, **kwargs)
-
-    def publish_msg(self, msg_type, data=None, metadata=None, buffers=None, **keys):
-        if msg_type == "comm_msg":
-            self.sent.append(data)
-
-
-@pytest.fixture(autouse=True)
-def recording_comms(monkeypatch):
-    monkeypatch.setattr(comm, "create_comm", lambda *a, **k: RecordingComm(*a, **k))
+pytestmark = pytest.mark.usefixtures("recording_comms")
 
 
 def png_bytes(width: int, height: int) -> bytes:

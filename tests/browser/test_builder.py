@@ -24,11 +24,9 @@ import re
 import time
 import xml.etree.ElementTree as ET
 
-import nbformat
 import pytest
-from nbformat.v4 import new_code_cell, new_notebook
 
-from .conftest import ARTIFACTS
+from .conftest import ARTIFACTS, one_cell_notebook
 
 pytestmark = pytest.mark.browser
 
@@ -76,21 +74,10 @@ widgets.VBox([builders[7], builders[24]])
 """
 
 
-def notebook_json() -> str:
-    nb = new_notebook(
-        cells=[new_code_cell(SOURCE)],
-        metadata={
-            "kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"}
-        },
-    )
-    nb.cells[0]["id"] = "builder-layout"
-    return nbformat.writes(nb)
-
-
 @pytest.fixture(scope="module")
 def builders(lab, open_notebook):
     """The notebook with both builders run and drawn."""
-    (lab.root / NOTEBOOK).write_text(notebook_json())
+    (lab.root / NOTEBOOK).write_text(one_cell_notebook(SOURCE, "builder-layout"))
     nb = open_notebook(NOTEBOOK)
     nb.run_all()
     for n in (7, 24):
