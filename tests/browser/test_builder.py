@@ -381,6 +381,7 @@ def test_automatic_partition_menu_in_the_page(builders):
     for k in range(2):
         note = entries.nth(k).locator(".cw-menu-note").text_content()
         assert len(note) > 30, note
+    nb.screenshot(root, "builder-menu-open")
     page.keyboard.press("ArrowDown")
     page.keyboard.press("Enter")  # Ward clustering of parts
     expect(menu).to_be_hidden()
