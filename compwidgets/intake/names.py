@@ -74,7 +74,7 @@ _SUM_GROUPS = frozenset(
         "light",
     }
 )
-#: Historical names of TOTAL_NAMES: the exact headers read as a total.
+#: The plainest total headers (every other total header is recognised by :func:`total_kind`).
 TOTAL_NAMES = frozenset({"total", "totals", "sum"})
 
 #: Analytes that are no formula (lower case, spaces removed).
