@@ -339,6 +339,42 @@ def test_every_refused_model_change_is_a_composition_error():
     assert model.active_parts == PARTS and model.balance_names == NAMES
 
 
+def test_one_except_catches_bad_input_at_every_other_entry_point(tmp_path):
+    frame = table(PARTS)
+    model = model_of(frame)
+    fitted = BalanceTransformer(SBP, parts=PARTS).fit(frame[PARTS])
+    bad_json = tmp_path / "bad.json"
+    bad_json.write_text("{", encoding="utf-8")
+    cases = {
+        # intake
+        "no such file": lambda: read_composition(tmp_path / "absent.csv"),
+        "unknown part column": lambda: read_composition(frame, parts=["Zz"]),
+        "unreadable cell": lambda: read_composition(
+            pd.DataFrame({"SiO2 (wt%)": ["abc", "50"], "MgO (wt%)": [1.0, 2.0]})
+        ),
+        # exports and documents
+        "no SBP to export": lambda: export.ilr_frame(model),
+        "no SBP to save": lambda: export.save_sbp(model, tmp_path / "x.json"),
+        "not JSON": lambda: export.load_sbp(model, bad_json),
+        "not a document": lambda: export.load_sbp(model, {"format": "other"}),
+        # the transformer
+        "too few columns": lambda: fitted.transform(frame[PARTS[:4]]),
+        "text cells": lambda: fitted.transform(frame[PARTS].astype(str) + " wt%"),
+        "zero part": lambda: fitted.transform(frame[PARTS].assign(CaO=0.0)),
+        "wrong names": lambda: BalanceTransformer(SBP, parts=PARTS, names=["a"]).fit(frame[PARTS]),
+        "partial model SBP": lambda: (
+            model.set_sbp(SBP[:1]),
+            BalanceTransformer.from_model(model),
+        ),
+        # core
+        "negative part": lambda: core.clr(frame[PARTS].assign(MgO=-1.0)),
+    }
+    for what, call in cases.items():
+        with pytest.raises(CompositionError) as info:
+            call()
+        assert isinstance(info.value, ValueError), what
+
+
 def test_select_labels_takes_one_label_of_any_kind():
     frame = table(PARTS, n=6)
     model = model_of(frame)
