@@ -82,32 +82,27 @@ def _require_sbp(model, complete: bool = False, hint: str = "") -> np.ndarray:
         raise ExportError(f"{err}{hint}") from None
 
 
+def _as_export_error(method, *args, **kwargs):
+    """Call a table method of the model; its refusal becomes an :class:`ExportError`."""
+    try:
+        return method(*args, **kwargs)
+    except core.CompositionError as err:
+        raise ExportError(str(err)) from None
+
+
 def ilr_frame(
     model,
     include_metadata: bool = False,
     include_selection: bool = False,
     require_complete: bool = True,
 ) -> pd.DataFrame:
-    """Balances of the model's SBP as a DataFrame, one row per row of the table.
+    """Balances of the model's SBP as a DataFrame (:meth:`CompositionModel.ilr_frame`).
 
     Parameters
     ----------
     model : CompositionModel
-    include_metadata : bool, default False
-        Put the metadata columns first.
-    include_selection : bool, default False
-        Add a boolean ``"selected"`` column (after the metadata).
-    require_complete : bool, default True
-        Raise for a partial SBP (fewer than D-1 balances). With False a
-        partial SBP gives its balances.
-
-    Returns
-    -------
-    DataFrame
-        Index = the table's original index; one column per balance, named as
-        ``model.balance_names``. Every row of the table is there: rows with a
-        missing or non-positive value in an active part have NaN balances
-        (nothing is dropped; ``model.complete_rows()`` marks the others).
+    include_metadata, include_selection, require_complete : bool
+        As for :meth:`CompositionModel.ilr_frame`.
 
     Raises
     ------
@@ -116,46 +111,19 @@ def ilr_frame(
         is also a metadata column (or ``"selected"``).
     """
     _require_sbp(model, require_complete, " (or pass require_complete=False)")
-    names = list(model.balance_names)
-    frame = pd.DataFrame(np.array(model.balances()), index=model.index.copy(), columns=names)
-    pieces = []
-    if include_metadata:
-        pieces.append(model.metadata)
-    if include_selection:
-        pieces.append(pd.DataFrame({"selected": model.selected_mask().copy()}, index=frame.index))
-    if pieces:
-        front = pd.concat(pieces, axis=1)
-        clash = [c for c in front.columns if c in set(names)]
-        if clash:
-            raise ExportError(
-                f"balance name(s) {clash} are also metadata/selection column names; "
-                "rename the balances"
-            )
-        frame = pd.concat([front, frame], axis=1)
-    return frame
+    return _as_export_error(model.ilr_frame, include_metadata, include_selection, require_complete)
 
 
 def sbp_frame(model) -> pd.DataFrame:
-    """The signed SBP: balances as rows (index = names), active parts as columns, +1/-1/0."""
-    sbp = _require_sbp(model)
-    return pd.DataFrame(
-        sbp.astype(int),
-        index=pd.Index(list(model.balance_names), name="balance"),
-        columns=pd.Index(list(model.active_parts), name="part"),
-    )
+    """The signed SBP, balances as rows (:meth:`CompositionModel.sbp_frame`)."""
+    _require_sbp(model)
+    return _as_export_error(model.sbp_frame)
 
 
 def contrast_frame(model) -> pd.DataFrame:
-    """Orthonormal contrasts of the SBP (``core.sbp_basis``), shaped as :func:`sbp_frame`.
-
-    Each row sums to zero and has unit length; ``clr(x) @ row`` is the balance.
-    """
-    sbp = _require_sbp(model)
-    return pd.DataFrame(
-        core.sbp_basis(sbp, complete=False),
-        index=pd.Index(list(model.balance_names), name="balance"),
-        columns=pd.Index(list(model.active_parts), name="part"),
-    )
+    """Orthonormal contrasts of the SBP (:meth:`CompositionModel.contrast_frame`)."""
+    _require_sbp(model)
+    return _as_export_error(model.contrast_frame)
 
 
 # -------------------------------------------------------------- CSV files

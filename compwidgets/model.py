@@ -715,6 +715,84 @@ class CompositionModel(t.HasTraits):
         """Remove the SBP (and its balance names)."""
         self.sbp = None
 
+    # ------------------------------------------------------- tables of the SBP
+    def sbp_frame(self) -> pd.DataFrame:
+        """The signed SBP: balances as rows (index = names), active parts as columns, +1/-1/0.
+
+        Applied to another model with :meth:`set_sbp`, it is matched by its column
+        labels, so it keeps its meaning whatever the order of that model's parts.
+        """
+        sbp = _checked(core.require_sbp, self.sbp, self.active_parts)
+        return pd.DataFrame(
+            sbp.astype(int),
+            index=pd.Index(list(self.balance_names), name="balance"),
+            columns=pd.Index(list(self.active_parts), name="part"),
+        )
+
+    def contrast_frame(self) -> pd.DataFrame:
+        """Orthonormal contrasts of the SBP (``core.sbp_basis``), shaped as :meth:`sbp_frame`.
+
+        Each row sums to zero and has unit length; ``clr(x) @ row`` is the balance.
+        """
+        sbp = _checked(core.require_sbp, self.sbp, self.active_parts)
+        return pd.DataFrame(
+            core.sbp_basis(sbp, complete=False),
+            index=pd.Index(list(self.balance_names), name="balance"),
+            columns=pd.Index(list(self.active_parts), name="part"),
+        )
+
+    def ilr_frame(
+        self,
+        include_metadata: bool = False,
+        include_selection: bool = False,
+        require_complete: bool = True,
+    ) -> pd.DataFrame:
+        """Balances of the SBP as a DataFrame, one row per row of the table.
+
+        Parameters
+        ----------
+        include_metadata : bool, default False
+            Put the metadata columns (those made in this session included) first.
+        include_selection : bool, default False
+            Add a boolean ``"selected"`` column (after the metadata).
+        require_complete : bool, default True
+            Refuse a partial SBP (fewer than D-1 balances); with False a
+            partial SBP gives its balances.
+
+        Returns
+        -------
+        DataFrame
+            Index = the table's original index; one column per balance, named as
+            :attr:`balance_names`. Every row is there: rows with a missing or
+            non-positive value in an active part have NaN balances.
+
+        Raises
+        ------
+        ModelError
+            No SBP; a partial SBP with ``require_complete``; a balance name that
+            is also a metadata column (or ``"selected"``).
+        """
+        _checked(core.require_sbp, self.sbp, self.active_parts, complete=require_complete)
+        names = list(self.balance_names)
+        frame = pd.DataFrame(np.array(self.balances()), index=self.index.copy(), columns=names)
+        pieces = []
+        if include_metadata:
+            pieces.append(self.metadata)
+        if include_selection:
+            pieces.append(
+                pd.DataFrame({"selected": self.selected_mask().copy()}, index=frame.index)
+            )
+        if pieces:
+            front = pd.concat(pieces, axis=1)
+            clash = [c for c in front.columns if c in set(names)]
+            if clash:
+                raise ModelError(
+                    f"balance name(s) {clash} are also metadata/selection column names; "
+                    "rename the balances"
+                )
+            frame = pd.concat([front, frame], axis=1)
+        return frame
+
     def variation_matrix(self, parts: Sequence[str] | None = None) -> pd.DataFrame:
         """Variation matrix of ``parts`` over the complete rows (ddof = 1)."""
         parts = self._resolve(parts)
