@@ -17,6 +17,7 @@ import pandas as pd
 
 from . import core
 from .composition import Composition
+from .core import CompositionError
 from .intake import read_composition
 from .model import CompositionModel
 
@@ -85,7 +86,7 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
     """
     active = list(model.active_parts)
     if len(active) < 3:
-        raise ValueError(f"a ternary view needs 3 active parts, got {active}")
+        raise CompositionError(f"a ternary view needs 3 active parts, got {active}")
     ok = np.flatnonzero(model.complete_rows(active))
     if ok.size > MAX_SHARE_ROWS:  # a seeded sample is plenty for a median share
         ok = np.sort(np.random.default_rng(0).choice(ok, MAX_SHARE_ROWS, replace=False))

@@ -7,7 +7,7 @@ Every variance uses ddof = 1 (:data:`DDOF`). Log-ratio functions raise
 columns for zero, negative or non-finite input, never returning NaN.
 """
 
-from . import geometry, outliers, principal, regions, summary, ternary, tree
+from . import geometry, outliers, principal, regions, rules, summary, ternary, tree
 from ._arrays import CompositionError
 from .biplot import Biplot, clr_biplot, link_length, logratio_sd, ray_associations
 from .operations import (
@@ -19,11 +19,16 @@ from .operations import (
     power,
 )
 from .principal import principal_balances, ward_sbp
+from .rules import check_balance_names, check_parts, check_sbp, require_sbp
 from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
 from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
 from .subcomp import amalgamate, subcomposition
 from .transforms import alr, alr_inv, clr, clr_inv, default_basis, ilr, ilr_inv
-from .zeros import DEFAULT_FRACTION, multiplicative_replacement
+from .zeros import (
+    DEFAULT_FRACTION,
+    multiplicative_replacement,
+    multiplicative_replacement_rows,
+)
 
 __all__ = [
     "Biplot",
@@ -40,6 +45,9 @@ __all__ = [
     "balance_names",
     "balances",
     "center",
+    "check_balance_names",
+    "check_parts",
+    "check_sbp",
     "closure",
     "clr",
     "clr_biplot",
@@ -51,10 +59,12 @@ __all__ = [
     "link_length",
     "logratio_sd",
     "multiplicative_replacement",
+    "multiplicative_replacement_rows",
     "perturb",
     "power",
     "principal_balances",
     "ray_associations",
+    "require_sbp",
     "sbp_basis",
     "subcomposition",
     "total_variance",
@@ -66,6 +76,7 @@ __all__ = [
     "outliers",
     "principal",
     "regions",
+    "rules",
     "summary",
     "ternary",
     "tree",

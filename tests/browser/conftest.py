@@ -320,8 +320,8 @@ bench
 """
 
 
-def notebook_json(source: str, cell_id: str) -> str:
-    """A one-cell notebook (Python 3 kernel) of ``source``."""
+def one_cell_notebook(source: str, cell_id: str) -> str:
+    """A notebook (JSON text) of one code cell, for the Python 3 kernel."""
     import nbformat
     from nbformat.v4 import new_code_cell, new_notebook
 
@@ -336,7 +336,7 @@ def notebook_json(source: str, cell_id: str) -> str:
 
 
 def xss_notebook_json() -> str:
-    return notebook_json(XSS_SOURCE, "xss-probe")
+    return one_cell_notebook(XSS_SOURCE, "xss-probe")
 
 
 @pytest.fixture(scope="session")
@@ -347,7 +347,7 @@ def lab(chromium_executable, tmp_path_factory):
         {
             QUICK_START.name: QUICK_START,
             XSS_NOTEBOOK: xss_notebook_json(),
-            LARGE_NOTEBOOK: notebook_json(LARGE_SOURCE, "large-table"),
+            LARGE_NOTEBOOK: one_cell_notebook(LARGE_SOURCE, "large-table"),
         },
     )
     try:

@@ -75,6 +75,11 @@ const countOf = (text) => {
 """
 
 
+def builder_count(n: int) -> str:
+    """The builder's count of selected rows, as it words it."""
+    return f"{n:,} row selected" if n == 1 else f"{n:,} rows selected"
+
+
 def tag_and_wait(nb) -> dict:
     """Tag the views, then wait until each draws all its points and the builder has drawn."""
     info = nb.kernel_json("_cw_info", setup=TAG_VIEWS)
@@ -93,7 +98,7 @@ def tag_and_wait(nb) -> dict:
         const root = document.querySelector(".cw-builder");
         const count = root && root.querySelector('[data-role="n-selected"]');
         return Boolean(root && root.querySelector('[data-role="dendrogram"]') && count
-          && /^n selected: \\d+$/.test(count.textContent));
+          && /^[\\d,]+ rows? selected$/.test(count.textContent));
         """,
         what="the balance builder to render",
     )
@@ -156,14 +161,15 @@ def test_quick_start_renders_every_view(quick_start):
         for part in triple:
             assert part in texts, f"ternary {k}: no label {part!r} among {sorted(set(texts))[:40]}"
 
-    # the builder starts with one group holding every active part
+    # the notebook puts the builder's Ward suggestion on the model: the dendrogram draws one
+    # balance per split of the active parts (D - 1 for a complete partition), the first over
+    # the root group, and the table lists them
     active = nb.kernel_json("list(bench.model.active_parts)")
     root_id = nb.kernel_json('bench.builder.tree["id"]')
-    leaf = nb.page.locator(f'.cw-builder [data-role="leaf"][data-node-id="{root_id}"]')
-    assert leaf.count() == 1
-    assert leaf.get_attribute("aria-label") == (
-        f"group of {len(active)} parts: {', '.join(active)} (click to split)"
-    )
+    builder = nb.page.locator(".cw-builder")
+    assert builder.locator('[data-role="balance"]').count() == len(active) - 1
+    assert builder.locator(f'[data-role="balance"][data-node-id="{root_id}"]').count() == 1
+    assert builder.locator('[data-role="balance-row"]').count() == len(active) - 1
 
     # the selection bar and the builder show the model's selection (the notebook selects one
     # catchment in code)
@@ -171,7 +177,7 @@ def test_quick_start_renders_every_view(quick_start):
     assert n > 0
     counts = dom_counts(nb)
     assert counts["bar"] == n
-    assert counts["builder"] == f"n selected: {n}"
+    assert counts["builder"] == builder_count(n)
 
     shots = {
         "ternary-0": ".cwtest-ternary-0",
@@ -276,7 +282,7 @@ for (const [name, info] of Object.entries(arg.views)) {
   }
 }
 const count = document.querySelector('.cw-builder [data-role="n-selected"]');
-watch("builder", count, () => count.textContent !== "n selected: 0");
+watch("builder", count, () => count.textContent !== "0 rows selected");
 const bar = document.querySelector(".cwtest-selection-bar");
 watch("selection bar", bar, () => (countOf(bar.textContent) || 0) > 0);
 return true;
@@ -284,7 +290,7 @@ return true;
 
 CLEARED_JS = """
 const count = document.querySelector('.cw-builder [data-role="n-selected"]');
-if (count.textContent !== "n selected: 0") return false;
+if (count.textContent !== "0 rows selected") return false;
 const bar = document.querySelector(".cwtest-selection-bar");
 if (countOf(bar.textContent) !== 0) return false;
 return Object.entries(arg).every(([name, info]) =>
@@ -418,7 +424,7 @@ def test_brush_in_one_ternary_selects_in_every_view(quick_start):
         assert dom["selected"] == view["mark_selected"], (name, dom, check)
         assert dom["unselected"] == dom["dots"] - view["mark_selected"], (name, dom, check)
     assert check["builder"] == n and check["bar"] == n
-    assert shown["builder"] == f"n selected: {n}"
+    assert shown["builder"] == builder_count(n)
     assert shown["bar"] == n
 
 
