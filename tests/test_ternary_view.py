@@ -246,7 +246,7 @@ def test_density_mode_rectangle_selects_like_core_geometry(big_model, monkeypatc
     view = TernaryView(big_model, ["A", "B", "C"], mode="density")
     other = TernaryView(big_model, ["C", "D", "E"])  # auto: 20,000 > 5,000 rows
     assert view.active_mode == other.active_mode == "density"
-    assert view.density.visible and view.scatter.x.size == 1500 and view.n_left_out == 40
+    assert view.density.visible and view.scatter.x.size == 500 and view.n_left_out == 40
     sent = []
     original = widgets.Widget._send
 

@@ -153,6 +153,21 @@ def test_quick_start_renders_every_view(quick_start):
     for name in VIEW_NAMES:
         assert info[name]["mode"] == "points", f"{name} is not in points mode: {info}"
         assert info[name]["n"] > 0.9 * info["n_rows"], f"{name} shows too few rows: {info}"
+    # explore() showed its progress in the cell output while it built, then closed it: no
+    # progress bar is left, and no widget view failed
+    left = nb.js(
+        """
+        const out = panel.content.node;
+        return {
+          progress: out.querySelectorAll(".cw-progress").length,
+          visible: [...out.querySelectorAll(".cw-progress")].filter(
+            (e) => e.offsetParent !== null).length,
+          failed: (out.textContent.match(/Error displaying widget|model not found/g) || [])
+            .length,
+        };
+        """
+    )
+    assert left["visible"] == 0 and left["failed"] == 0, left
 
     # the ternary corners are labelled with the view's parts (SVG text)
     parts = nb.kernel_json("[list(v.parts) for v in bench.ternaries]")
