@@ -2,6 +2,7 @@
 
 import numpy as np
 import scipy.linalg
+import scipy.stats
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
@@ -86,13 +87,20 @@ def test_probability_region_does_not_depend_on_the_ilr_basis(L):
     X = np.exp(L)
     if np.linalg.matrix_rank(L - L.mean(axis=0), tol=1e-6) < 2:
         return  # degenerate sample: no region
-    level = 0.9
-    curve = rg.probability_region(X, level)
+    level, n = 0.9, X.shape[0]
     # in another orthonormal basis (scipy.linalg.helmert rows), every boundary point sits
-    # on the same Mahalanobis radius chi2_2(level) (scipy.stats.chi2) of the same data
+    # on the same Mahalanobis radius of the same data: chi2_2(level) (scipy.stats.chi2)
+    # for the known-parameter region, (n^2 - 1) p / (n (n - p)) F_{p, n-p}(level)
+    # (scipy.stats.f) for the prediction region
     V = scipy.linalg.helmert(3)
     Y = core.clr(X) @ V.T
     mean, cov = Y.mean(axis=0), np.cov(Y, rowvar=False, ddof=1)
-    B = core.clr(curve) @ V.T - mean
-    m2 = np.einsum("ti,ij,tj->t", B, np.linalg.inv(cov), B)
-    np.testing.assert_allclose(m2, rg.probability_radius2(level), rtol=1e-6)
+    radius2 = {
+        "known_parameters": scipy.stats.chi2.ppf(level, 2),
+        "prediction": (n * n - 1) * 2 / (n * (n - 2)) * scipy.stats.f.ppf(level, 2, n - 2),
+    }
+    for kind, r2 in radius2.items():
+        curve = rg.probability_region(X, level, kind=kind)
+        B = core.clr(curve) @ V.T - mean
+        m2 = np.einsum("ti,ij,tj->t", B, np.linalg.inv(cov), B)
+        np.testing.assert_allclose(m2, r2, rtol=1e-6)

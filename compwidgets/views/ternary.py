@@ -43,11 +43,6 @@ def _format_level(level: float) -> str:
     return f"{pct:.0f}" if abs(pct - round(pct)) < 1e-9 else f"{pct:.3g}"
 
 
-#: Below this many rows a group's probability region, drawn from estimated
-#: parameters with chi-square quantiles, clearly under-covers: the view says so.
-SMALL_GROUP = 30
-
-
 class TernaryView(ScatterView):
     """Ternary diagram of three parts of the model, with selection tools.
 
@@ -65,6 +60,11 @@ class TernaryView(ScatterView):
         (von Eynatten, Pawlowsky-Glahn & Egozcue 2002); ticks keep the original shares.
     probability_levels : sequence of float, default ()
         Probability regions (normal model in ilr) drawn per group, e.g. [0.9, 0.95, 0.99].
+    probability_kind : {"prediction", "known_parameters"}, default "prediction"
+        Prediction regions for a new sample (F quantile, parameters estimated from
+        the group) or the known-parameter regions (chi-square), which hold fewer
+        new samples than their level in small groups (the notes then say how many);
+        see :mod:`compwidgets.core.regions`.
     confidence_level : float or None, default None
         Confidence region of each group's centre (Hotelling's T^2), e.g. 0.95.
     compositional_line : None, (row, row) or dict, default None
@@ -82,6 +82,7 @@ class TernaryView(ScatterView):
     grid_step = t.Float(0.1)
     centred = t.Bool(False)
     probability_levels = t.List(t.Float())
+    probability_kind = t.Enum(core_regions.PROBABILITY_KINDS, default_value="prediction")
     confidence_level = t.Float(None, allow_none=True)
     compositional_line = t.Any(None, allow_none=True)
 
@@ -93,6 +94,7 @@ class TernaryView(ScatterView):
         grid_step: float = 0.1,
         centred: bool = False,
         probability_levels: Sequence[float] = (),
+        probability_kind: str = "prediction",
         confidence_level: float | None = None,
         compositional_line=None,
         id_column: str = "",
@@ -112,6 +114,7 @@ class TernaryView(ScatterView):
         self.grid_step = grid_step
         self.centred = centred
         self.probability_levels = list(probability_levels)
+        self.probability_kind = probability_kind
         self.confidence_level = confidence_level
         self.id_column = id_column
         self.compositional_line = compositional_line
@@ -212,7 +215,7 @@ class TernaryView(ScatterView):
         if self._ready:
             self.refresh()
 
-    @t.observe("probability_levels", "confidence_level", "compositional_line")
+    @t.observe("probability_levels", "probability_kind", "confidence_level", "compositional_line")
     def _on_overlay_options(self, change):
         if self._ready:
             self._draw_overlays()
@@ -350,18 +353,26 @@ class TernaryView(ScatterView):
         curves, colours, opacities = [], [], []
         centre_curves, centre_colours = [], []
         levels = list(self.probability_levels)
-        small = []
+        kind = self.probability_kind
+        short = []
         for name, colour, X in groups:
             if not levels and self.confidence_level is None:
                 break
-            if levels and len(X) < SMALL_GROUP:
-                small.append(f"{name} ({len(X)})")
             try:
                 if levels:
-                    for k, curve in enumerate(core_regions.probability_regions(X, levels)):
+                    regions = core_regions.probability_regions(X, levels, kind=kind)
+                    for k, curve in enumerate(regions):
                         curves.append(self._to_view(curve))
                         colours.append(colour)
                         opacities.append(1.0 - 0.45 * k / max(1, len(levels) - 1))
+                    held = [
+                        f"{_format_level(core_regions.expected_coverage(a, len(X), kind))} % "
+                        f"at {_format_level(a)} %"
+                        for a in levels
+                        if core_regions.under_covers(a, len(X), kind)
+                    ]
+                    if held:
+                        short.append(f"{name} ({len(X)} rows) about {', '.join(held)}")
                 if self.confidence_level is not None:
                     curve = core_regions.centre_confidence_region(X, self.confidence_level)
                     centre_curves.append(self._to_view(curve))
@@ -376,22 +387,23 @@ class TernaryView(ScatterView):
                 self.line.x, self.line.y = np.zeros(0), np.zeros(0)
             else:
                 self.line.x, self.line.y = line[0].astype(np.float32), line[1].astype(np.float32)
-        if small:
+        if short:
             notes.insert(
                 0,
-                f"groups of fewer than {SMALL_GROUP} rows: {', '.join(small)}; their regions "
-                "use estimated parameters and hold fewer new samples than their level",
+                "with estimated parameters these regions hold fewer new samples than their "
+                f"level: {', '.join(short)}; the prediction regions allow for it",
             )
         if self.confidence_level is not None:
             notes.insert(
                 0, f"confidence region of the centre at {_format_level(self.confidence_level)} %"
             )
         if levels:
-            notes.insert(
-                0,
-                "probability regions (normal model on ilr) at "
-                + ", ".join(_format_level(v) + " %" for v in levels),
+            label = (
+                "prediction regions for a new sample (normal model on ilr) at "
+                if kind == "prediction"
+                else "known-parameter regions (chi-square, normal model on ilr) at "
             )
+            notes.insert(0, label + ", ".join(_format_level(v) + " %" for v in levels))
         if self._notice:
             notes.insert(0, self._notice)
         self._set_note("overlays", "; ".join(notes))
