@@ -15,7 +15,7 @@ import { drawDendrogram } from "./dendrogram.js";
 import { defaultBalanceName, rowsUsedText, selectedCountText, totalVarianceText } from "./labels.js";
 import { labelMargin, layoutDendrogram } from "./layout.js";
 import { drawSplitter } from "./splitter.js";
-import { drawTable } from "./table.js";
+import { createTableSort, drawTable, nextSort } from "./table.js";
 import { applySplit, canMerge, canSplit, findNode, isLeaf, mergeWithSibling, movePart, pendingReady, renameBalance, sameParts, sameTree, splitNodes, startSplit, togglePart, unsplitNode } from "./tree.js";
 
 /**
@@ -152,13 +152,14 @@ export function render({ model, el }) {
   el.appendChild(root);
 
   // ---- state
-  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string}} */
+  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string, tableSort: import("./table.js").TableSort}} */
   const state = {
     history: createHistory(model.get("tree")),
     openLeaf: null,
     pending: null,
     dragIndex: null,
     localError: "",
+    tableSort: createTableSort(),
   };
   const present = () => state.history.present;
 
@@ -299,6 +300,7 @@ export function render({ model, el }) {
         mean: s ? s.mean : null,
         selectionMean: sel ? sel.mean : null,
         selectionN: sel ? sel.n : 0,
+        separation: s ? s.separation || null : null,
       };
     });
     const svgNode = drawDendrogram(doc, lay, {
@@ -330,7 +332,7 @@ export function render({ model, el }) {
     }
 
     // table
-    tableBox.replaceChildren(drawTable(doc, rows, colourBalance));
+    tableBox.replaceChildren(drawTable(doc, rows, colourBalance, state.tableSort));
     restoreFocus(saved);
   }
 
@@ -434,6 +436,10 @@ export function render({ model, el }) {
     }],
     ["balance", (hit) => toggleColour(hit.getAttribute("data-node-id") || "")],
     ["balance-row", (hit) => toggleColour(hit.getAttribute("data-node-id") || "")],
+    ["sort", (hit) => {
+      state.tableSort = nextSort(state.tableSort, hit.getAttribute("data-sort-key") || "");
+      paint();
+    }],
     ["apply-split", () => {
       const pending = state.pending;
       if (pending) commit(() => applySplit(present(), pending));
