@@ -105,6 +105,7 @@ class Workbench(w.AppLayout):
     model : CompositionModel
     ternaries : list of TernaryView
     biplot : BiplotView
+    discriminant : DiscriminantView
     builder : BalanceBuilder
     picker : SubcompositionPicker
     triage : TriagePanel
@@ -119,6 +120,7 @@ class Workbench(w.AppLayout):
     ):
         from .views.biplot import BiplotView
         from .views.builder import BalanceBuilder
+        from .views.discriminant import DiscriminantView
         from .views.picker import SubcompositionPicker
         from .views.selection_bar import SelectionBar
         from .views.ternary import TernaryView
@@ -131,10 +133,11 @@ class Workbench(w.AppLayout):
             TernaryView(model, parts=list(p), mode=mode, id_column=ident) for p in triples
         ]
         self.biplot = BiplotView(model, mode=mode, id_column=ident)
+        self.discriminant = DiscriminantView(model, mode=mode, id_column=ident)
         self.builder = BalanceBuilder(model)
         self.picker = SubcompositionPicker(model, ternaries=self.ternaries)
         self.triage = TriagePanel(model)
-        self.views = [*self.ternaries, self.biplot]
+        self.views = [*self.ternaries, self.biplot, self.discriminant]
         self.selection_bar = SelectionBar(model, views=self.views)
 
         # the variation heat table of many parts is wider than the column: scroll it there
@@ -142,7 +145,7 @@ class Workbench(w.AppLayout):
         sidebar.titles = ("parts", "triage")
         # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
         plots = w.Box(
-            children=[*self.ternaries, self.biplot],
+            children=self.views,
             layout=w.Layout(display="flex", flex_flow="row wrap", grid_gap="8px"),
         )
         super().__init__(

@@ -7,7 +7,17 @@ Every variance uses ddof = 1 (:data:`DDOF`). Log-ratio functions raise
 columns for zero, negative or non-finite input, never returning NaN.
 """
 
-from . import geometry, outliers, principal, regions, summary, ternary, tree
+from . import (
+    discriminant,
+    geometry,
+    outliers,
+    principal,
+    regions,
+    separation,
+    summary,
+    ternary,
+    tree,
+)
 from ._arrays import CompositionError
 from .biplot import Biplot, clr_biplot, link_length, logratio_sd, ray_associations
 from .operations import (
@@ -62,10 +72,12 @@ __all__ = [
     "variation_matrix",
     "ward_sbp",
     # submodules
+    "discriminant",
     "geometry",
     "outliers",
     "principal",
     "regions",
+    "separation",
     "summary",
     "ternary",
     "tree",

@@ -10,6 +10,7 @@ Example
 >>> view = TernaryView(model, ["SiO2", "Al2O3", "mafic"], probability_levels=[0.9, 0.99])
 >>> view.centred = True          # perturb data and grid by the inverse data centre
 >>> view.parts = ["Na2O", "K2O", "CaO"]
+>>> view.boundaries = True       # decision boundaries of a discriminant on these 3 parts
 """
 
 from __future__ import annotations
@@ -17,10 +18,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import bqplot as bq
+import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
 from ..core import CompositionError, center
+from ..core import discriminant as core_discriminant
 from ..core import regions as core_regions
 from ..core import ternary as core_ternary
 from ..model import CompositionModel
@@ -71,6 +74,13 @@ class TernaryView(ScatterView):
         A compositional line through the compositions of two rows (model row
         positions), or ``{"direction": clr vector of 3 values, "origin": row
         position or 3-part composition (default: the data centre)}``.
+    boundaries : bool, default False
+        Draw the decision boundaries of a discriminant rule fitted on the three
+        parts shown, with the model's groups (toggled in the view): where two
+        groups have equal discriminant scores and no third beats them, as
+        compositional curves (straight lines in ilr for the linear rule);
+        :func:`compwidgets.core.discriminant.decision_boundaries`.
+    boundary_kind : {"linear", "quadratic"}, default "linear"
     id_column : str, default ""
         Metadata column shown as the sample id on hover ("" = the row label).
     **kwargs
@@ -85,6 +95,11 @@ class TernaryView(ScatterView):
     probability_kind = t.Enum(core_regions.PROBABILITY_KINDS, default_value="prediction")
     confidence_level = t.Float(None, allow_none=True)
     compositional_line = t.Any(None, allow_none=True)
+    boundaries = t.Bool(False)
+    boundary_kind = t.Enum(core_discriminant.KINDS, default_value="linear")
+
+    #: Rows a boundary rule is fitted on at most (a stratified random sample beyond).
+    boundary_max_rows = 50_000
 
     def __init__(
         self,
@@ -97,6 +112,8 @@ class TernaryView(ScatterView):
         probability_kind: str = "prediction",
         confidence_level: float | None = None,
         compositional_line=None,
+        boundaries: bool = False,
+        boundary_kind: str = "linear",
         id_column: str = "",
         **kwargs,
     ):
@@ -105,7 +122,9 @@ class TernaryView(ScatterView):
         self._notice = ""  # a lasting note about the parts shown (kept across redraws)
         self._centring: np.ndarray | None = None
         self._closed_shown = np.zeros((0, 3))
+        self._boundary_cache: tuple = ((), [], "")  # (key, curves, note)
         super().__init__(model, **kwargs)
+        self._build_boundary_controls()
         self._internal = True
         try:
             self.parts = self._followed_parts() if parts is None else list(parts)
@@ -118,7 +137,28 @@ class TernaryView(ScatterView):
         self.confidence_level = confidence_level
         self.id_column = id_column
         self.compositional_line = compositional_line
+        self.boundary_kind = boundary_kind
+        self.boundaries = boundaries
         self._start()
+
+    def _build_boundary_controls(self) -> None:
+        """The toggle and rule menu of the decision boundaries, under the toolbar."""
+        self._boundary_toggle = widgets.ToggleButton(
+            description="decision boundaries", icon="random", value=False,
+            tooltip="boundaries of a discriminant rule fitted on these 3 parts and the groups",
+            layout=widgets.Layout(width="auto"),
+        )  # fmt: skip
+        self._boundary_menu = widgets.Dropdown(
+            options=[("linear rule", "linear"), ("quadratic rule", "quadratic")],
+            value="linear", layout=widgets.Layout(width="150px"),
+        )  # fmt: skip
+        self._boundary_links = [
+            t.link((self._boundary_toggle, "value"), (self, "boundaries")),
+            t.link((self._boundary_menu, "value"), (self, "boundary_kind")),
+        ]
+        self.boundary_controls = widgets.HBox([self._boundary_toggle, self._boundary_menu])
+        children = list(self.children)
+        self.children = [*children[:1], self.boundary_controls, *children[1:]]
 
     # --------------------------------------------------------------- options
     def _followed_parts(self) -> list[str]:
@@ -215,7 +255,14 @@ class TernaryView(ScatterView):
         if self._ready:
             self.refresh()
 
-    @t.observe("probability_levels", "probability_kind", "confidence_level", "compositional_line")
+    @t.observe(
+        "probability_levels",
+        "probability_kind",
+        "confidence_level",
+        "compositional_line",
+        "boundaries",
+        "boundary_kind",
+    )
     def _on_overlay_options(self, change):
         if self._ready:
             self._draw_overlays()
@@ -308,8 +355,14 @@ class TernaryView(ScatterView):
             x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.FRAME_COLOUR],
             stroke_width=1.5, line_style="dash_dotted", **quiet,
         )  # fmt: skip
+        self.boundary_lines = bq.Lines(
+            x=np.zeros((0, 2)), y=np.zeros((0, 2)), scales=xy, colors=[cm.FRAME_COLOUR],
+            stroke_width=1.8, **quiet,
+        )  # fmt: skip
         below = [self.grid, self.frame]
-        above = [self.regions, self.centre_regions, self.line, *self.tick_labels]
+        above = [
+            self.regions, self.centre_regions, self.boundary_lines, self.line, *self.tick_labels,
+        ]  # fmt: skip
         return below, [*above, self.vertex_labels]
 
     def _set_vertex_labels(self) -> None:
@@ -381,6 +434,11 @@ class TernaryView(ScatterView):
                 notes.append(f"no region for {name}: {str(err).removeprefix('regions: ')}")
         self._set_lines(self.regions, curves, colours, opacities)
         self._set_lines(self.centre_regions, centre_curves, centre_colours, [1.0])
+        boundaries = self._boundary_curves(notes)
+        self._set_lines(
+            self.boundary_lines, [self._to_view(c) for c in boundaries],
+            [cm.FRAME_COLOUR] * len(boundaries), [1.0],
+        )  # fmt: skip
         line = self._line_points(notes)
         with self.line.hold_sync():
             if line is None:
@@ -419,6 +477,41 @@ class TernaryView(ScatterView):
             else:
                 mark.x = np.zeros((0, 2), dtype=np.float32)
                 mark.y = np.zeros((0, 2), dtype=np.float32)
+
+    def _boundary_curves(self, notes: list[str]) -> list[np.ndarray]:
+        """Decision boundaries (closed compositions) of a rule on the parts shown, if on."""
+        if not self.boundaries:
+            return []
+        m = self.model
+        key = (
+            tuple((p, tuple(m.members(p))) for p in self.parts),
+            m.group_column, m.metadata_version, self.boundary_kind, self.rows.size,
+        )  # fmt: skip
+        if self._boundary_cache[0] != key:
+            curves, note = [], ""
+            try:
+                if not m.group_column:
+                    raise CompositionError("the model has no grouping column")
+                categories, codes = m.group_codes()
+                shown = codes[self.rows]
+                labels = np.array([categories[c] if c >= 0 else None for c in shown], object)
+                fit = core_discriminant.fit_discriminant(
+                    self._closed_shown, labels, kind=self.boundary_kind, classes=categories,
+                    max_rows=self.boundary_max_rows, seed=self.seed,
+                )  # fmt: skip
+                curves = [b.curve for b in core_discriminant.decision_boundaries(fit)]
+                note = (
+                    f"decision boundaries of a {self.boundary_kind} discriminant of "
+                    f"{m.group_column!r} fitted on these 3 parts (exploratory)"
+                )
+                if fit.left_out:
+                    note += f", without {', '.join(map(repr, fit.left_out))} (too few rows)"
+            except CompositionError as err:
+                note = f"no decision boundaries: {err}"
+            self._boundary_cache = (key, curves, note)
+        _, curves, note = self._boundary_cache
+        notes.append(note)
+        return curves
 
     def _groups(self) -> list[tuple[str, str, np.ndarray]]:
         """(name, colour, closed 3-part data) of each group among the rows shown."""
