@@ -371,12 +371,13 @@ class GroupDiscriminant:
         return pd.DataFrame(data, index=index)
 
     # ----------------------------------------------------------------- export
-    def pipeline(self):
+    def pipeline(self, sbp=None, names=None):
         """The rule as a fitted scikit-learn ``Pipeline`` (balances, then the discriminant).
 
         Step ``"balances"``: a :class:`~compwidgets.transformer.BalanceTransformer`
-        with the model's SBP when it was complete at fit time (else the pivot
-        SBP), over :attr:`parts`; step ``"discriminant"``: the same kind of
+        with ``sbp`` (and balance ``names``) when given, else the model's SBP when it
+        was complete at fit time, else the pivot SBP, over :attr:`parts`; step
+        ``"discriminant"``: the same kind of
         estimator with the same priors, fitted on the same rows, with the group
         names as labels. Its input is a DataFrame with one column per part,
         named as :attr:`parts` (amalgamations summed: :meth:`part_frame`).
@@ -389,9 +390,10 @@ class GroupDiscriminant:
         from .transformer import BalanceTransformer, pivot_sbp
 
         D = len(self.parts)
-        complete = self._sbp is not None and self._sbp.shape == (D - 1, D)
-        sbp = self._sbp if complete else pivot_sbp(D)
-        names = self._balance_names if complete else None
+        if sbp is None:
+            complete = self._sbp is not None and self._sbp.shape == (D - 1, D)
+            sbp = self._sbp if complete else pivot_sbp(D)
+            names = self._balance_names if complete else None
         order = np.argsort(np.asarray(self.classes, dtype=object))  # scikit-learn sorts labels
         estimator = clone(self.fit.estimator).set_params(priors=self.fit.priors[order])
         pipe = Pipeline(

@@ -63,6 +63,18 @@ _LOADING_PX = 16
 _CELL_PX = 48
 
 
+class ConfusionGrid(bq.GridHeatMap):
+    """bqplot's GridHeatMap with its selected cells as plain ``[row, column]`` pairs.
+
+    The browser sends the cells a click selects as a JSON list; bqplot's array
+    trait reads it as an object array that it cannot send back, so the change
+    never reached an observer (seen in Chromium with bqplot 0.13). A list trait
+    keeps the pairs as they come, both ways.
+    """
+
+    selected = t.List(allow_none=True, default_value=None).tag(sync=True)
+
+
 def axis_label(axis: int, share: float | None, single: bool = False) -> str:
     """Axis text: discriminant axis ``axis`` (0-based) and its share of the separation."""
     if single and axis == 1:
@@ -96,8 +108,9 @@ class DiscriminantView(ScatterView):
     ----------
     rule : GroupDiscriminant or None
         The fitted rule (None when it cannot be fitted; ``notes`` says why).
-    confusion : bqplot.GridHeatMap
-        The cross-validated counts (row = true group, column = assigned).
+    confusion : ConfusionGrid
+        The cross-validated counts (row = true group, column = assigned); its
+        ``selected`` cells (``[[row, column], ...]``) select their rows.
     confusion_figure, loadings_figure : bqplot.Figure
     loadings : bqplot.Bars
         clr loadings of axes 1 and 2 (grouped bars).
@@ -235,7 +248,7 @@ class DiscriminantView(ScatterView):
         rows_scale, cols_scale = bq.OrdinalScale(reverse=True), bq.OrdinalScale()
         self._grid_scales = (rows_scale, cols_scale)
         self._grid_colour = bq.ColorScale(colors=list(GRID_COLOURS), min=0, max=1)
-        self.confusion = bq.GridHeatMap(
+        self.confusion = ConfusionGrid(
             color=np.zeros((2, 2)), row=np.array(_NO_GROUPS), column=np.array(_NO_GROUPS),
             scales={"row": rows_scale, "column": cols_scale, "color": self._grid_colour},
             display_format=".0f", font_style={"font-size": "12px"}, stroke="#ffffff",
@@ -428,7 +441,7 @@ class DiscriminantView(ScatterView):
         cells = change["new"]
         if cells is None or len(cells) == 0:
             return
-        self._select_cells([(int(c[0]), int(c[1])) for c in np.asarray(cells).reshape(-1, 2)])
+        self._select_cells([(int(c[0]), int(c[1])) for c in cells])
 
     def _on_selection_elsewhere(self, change) -> None:
         """The selection no longer holds the clicked cells' rows: un-highlight them."""
@@ -462,9 +475,17 @@ class DiscriminantView(ScatterView):
 
     # ------------------------------------------------------------------ export
     def pipeline(self):
-        """The fitted rule as a scikit-learn Pipeline (see :meth:`GroupDiscriminant.pipeline`)."""
+        """The fitted rule as a scikit-learn Pipeline (see :meth:`GroupDiscriminant.pipeline`).
+
+        Its balances are those of the model's current SBP when it is complete
+        over the rule's parts (else the pivot SBP).
+        """
         if self.rule is None:
             raise CompositionError(self._fit_error or "no discriminant is fitted")
+        m = self.model
+        D = len(self.rule.parts)
+        if m.sbp is not None and m.sbp.shape == (D - 1, D) and self.rule.parts == m.active_parts:
+            return self.rule.pipeline(np.array(m.sbp), list(m.balance_names))
         return self.rule.pipeline()
 
     def close(self) -> None:
