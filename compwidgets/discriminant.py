@@ -121,13 +121,23 @@ class GroupDiscriminant:
     priors : {"proportional", "equal"}, default "proportional"
     n_splits : int, default 5
         Folds of the stratified cross-validation.
-    max_fit_rows : int or None, default 50,000
+    max_fit_rows : int or None, default 20,000
         Fit on a stratified random sample of at most this many rows (seeded);
         assignments are computed for every row.
-    max_cv_rows : int or None, default 20,000
+    max_cv_rows : int or None, default 10,000
         Cross-validate a stratified random sample of at most this many rows.
     seed : int, default 0
         Seed of the samples and of the shuffled folds.
+    far_quantile : float, default 0.999
+        Chi-square quantile of the far-from-every-group cut-off
+        (:func:`compwidgets.core.discriminant.fit_group_distances`).
+    far_rows_per_group : int or None, default 500
+        Rows of each group its robust (MCD) centre and scatter are fitted on.
+        With few rows per coordinate the chi-square cut-off flags more members
+        of a group than ``1 - far_quantile`` (about 5 % at 500 rows for 50
+        coordinates in ``benchmarks/bench_discriminant.py``, none of 24 for 5
+        coordinates in the example notebook): more rows flag fewer, and cost
+        more time.
 
     Attributes
     ----------
@@ -151,9 +161,11 @@ class GroupDiscriminant:
         priors: str = "proportional",
         *,
         n_splits: int = 5,
-        max_fit_rows: int | None = 50_000,
-        max_cv_rows: int | None = 20_000,
+        max_fit_rows: int | None = 20_000,
+        max_cv_rows: int | None = 10_000,
         seed: int = 0,
+        far_quantile: float = cd.DEFAULT_FAR_QUANTILE,
+        far_rows_per_group: int | None = 500,
     ):
         if not isinstance(model, CompositionModel):
             raise TypeError(f"GroupDiscriminant needs a CompositionModel, got {type(model)}")
@@ -164,6 +176,7 @@ class GroupDiscriminant:
             )
         self.kind, self.priors = kind, priors
         self.n_splits, self.max_cv_rows, self.seed = int(n_splits), max_cv_rows, int(seed)
+        self.far_quantile, self.far_rows_per_group = float(far_quantile), far_rows_per_group
         self.parts = list(model.active_parts)
         self.members = {p: list(model.members(p)) for p in self.parts}
         self.group_column = model.group_column
@@ -230,8 +243,19 @@ class GroupDiscriminant:
 
     @cached_property
     def distances(self) -> cd.GroupDistances:
-        """Robust centre and scatter of each training group (computed when first asked)."""
-        return cd.fit_group_distances(self.fit, self.coordinates, self.codes, seed=self.seed)
+        """Robust centre and scatter of each training group (computed when first asked).
+
+        One MCD per group, on at most ``far_rows_per_group`` of its rows (a seeded
+        random subset): :func:`compwidgets.core.discriminant.fit_group_distances`.
+        """
+        return cd.fit_group_distances(
+            self.fit,
+            self.coordinates,
+            self.codes,
+            quantile=self.far_quantile,
+            max_rows_per_group=self.far_rows_per_group,
+            seed=self.seed,
+        )
 
     def confusion_frame(self) -> pd.DataFrame:
         """Cross-validated counts: rows = true group, columns = assigned group."""

@@ -18,6 +18,9 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import valid_sbps
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import stats
 from scipy.linalg import helmert
 from sklearn.covariance import MinCovDet
@@ -300,3 +303,40 @@ def test_rows_without_a_group_take_no_part():
         fit.posteriors(fit.coordinates(X)), ref.posteriors(ref.coordinates(X)), atol=1e-12
     )
     assert fit.n_available.sum() == X.shape[0] - 10
+
+
+# ------------------------------------------------------------- geometric invariants
+INVARIANCE = settings(max_examples=25, deadline=None)
+
+
+@INVARIANCE
+@given(data=st.data(), seed=st.integers(0, 10_000), D=st.integers(3, 6))
+def test_posteriors_do_not_depend_on_the_sbp_basis(data, seed, D):
+    # The balance basis of any SBP is orthonormal (Egozcue & Pawlowsky-Glahn 2005), and the
+    # rules are affine invariant: the same posteriors and clr loadings in every such basis.
+    X, labels = invented_groups(n_per=(30, 25, 35), D=D, seed=seed)
+    sbp = data.draw(valid_sbps(D))
+    kind = data.draw(st.sampled_from(cd.KINDS))
+    base = cd.fit_discriminant(X, labels, kind=kind)
+    other = cd.fit_discriminant(X, labels, kind=kind, basis=core.sbp_basis(sbp))
+    np.testing.assert_allclose(
+        other.posteriors(other.coordinates(X)), base.posteriors(base.coordinates(X)), atol=1e-7
+    )
+    np.testing.assert_allclose(other.clr_loadings, base.clr_loadings, atol=1e-6)
+
+
+@INVARIANCE
+@given(seed=st.integers(0, 10_000), shift=st.lists(st.floats(-3, 3), min_size=4, max_size=4))
+def test_perturbing_every_composition_moves_the_rule_with_them(seed, shift):
+    # Perturbation by a fixed composition p translates the ilr coordinates (Aitchison
+    # geometry): a rule fitted on the perturbed data assigns x (+) p as the first assigns x.
+    X, labels = invented_groups(n_per=(30, 25, 35), D=4, seed=seed)
+    p = np.exp(np.asarray(shift))
+    moved = np.asarray(core.perturb(X, p))
+    fit = cd.fit_discriminant(X, labels)
+    fit_moved = cd.fit_discriminant(moved, labels)
+    np.testing.assert_allclose(
+        fit_moved.posteriors(fit_moved.coordinates(moved)),
+        fit.posteriors(fit.coordinates(X)),
+        atol=1e-7,
+    )

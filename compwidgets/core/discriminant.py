@@ -598,7 +598,7 @@ def fit_group_distances(
     Y,
     codes,
     quantile: float = DEFAULT_FAR_QUANTILE,
-    max_rows_per_group: int | None = 1000,
+    max_rows_per_group: int | None = 500,
     seed: int = 0,
 ) -> GroupDistances:
     """Robust centre and scatter of each group of ``fit`` from its rows (coordinates ``Y``).
@@ -606,7 +606,8 @@ def fit_group_distances(
     Uses :func:`compwidgets.core.outliers.robust_distances` (FAST-MCD) on each
     group's rows; ``max_rows_per_group`` bounds the rows each MCD is fitted on
     (a seeded random subset) since its cost grows quickly with rows and
-    coordinates.
+    coordinates (about 1 s per group of 500 rows at 50 coordinates here;
+    ``benchmarks/bench_discriminant.py``).
     """
     Y = fit._checked(Y)
     codes = np.asarray(codes, dtype=np.int64)

@@ -95,7 +95,7 @@ class DiscriminantView(ScatterView):
     priors : {"proportional", "equal"}, default "proportional"
     n_splits : int, default 5
         Folds of the stratified cross-validation.
-    max_fit_rows, max_cv_rows : int or None, default 50,000 and 20,000
+    max_fit_rows, max_cv_rows : int or None, default 20,000 and 10,000
         Rows the rule is fitted on and cross-validated on (stratified random
         samples beyond; seeded with ``seed``).
     id_column : str, default ""
@@ -134,8 +134,8 @@ class DiscriminantView(ScatterView):
         priors: str = "proportional",
         *,
         n_splits: int = 5,
-        max_fit_rows: int | None = 50_000,
-        max_cv_rows: int | None = 20_000,
+        max_fit_rows: int | None = 20_000,
+        max_cv_rows: int | None = 10_000,
         id_column: str = "",
         **kwargs,
     ):
@@ -175,9 +175,10 @@ class DiscriminantView(ScatterView):
             self.refresh()
 
     def _key(self) -> tuple:
+        """What the rule depends on (a new metadata column leaves the others unchanged)."""
         m = self.model
         parts = tuple((p, tuple(m.members(p))) for p in m.active_parts)
-        return (parts, m.group_column, m.metadata_version, self.kind, self.priors, self.n_splits)
+        return (parts, m.group_column, self.kind, self.priors, self.n_splits)
 
     def _refit(self) -> None:
         """Fit the rule on the model's current parts and groups (or say why not)."""
