@@ -35,13 +35,12 @@ import numpy as np
 from scipy import stats
 
 from ._arrays import CompositionError
+from .summary import balance_table, group_codes
 
-__all__ = ["SEPARATION_KEYS", "balance_separation"]
+__all__ = ["SEPARATION_KEYS", "STATISTIC_KEYS", "balance_separation"]
 
-#: Keys of each entry of :func:`balance_separation`.
-SEPARATION_KEYS = (
-    "index",
-    "name",
+#: The statistics of each entry of :func:`balance_separation`.
+STATISTIC_KEYS = (
     "n",
     "n_groups",
     "anova_f",
@@ -51,36 +50,13 @@ SEPARATION_KEYS = (
     "kruskal_n",
     "between_share",
 )
+#: Keys of each entry of :func:`balance_separation`.
+SEPARATION_KEYS = ("index", "name", *STATISTIC_KEYS)
 
 
 def _finite(x) -> float | None:
     x = float(x)
     return x if np.isfinite(x) else None
-
-
-def _check(B, codes, n_groups: int, names) -> tuple[np.ndarray, np.ndarray]:
-    try:
-        values = np.array(B, dtype=float)
-    except (TypeError, ValueError) as err:
-        raise CompositionError(f"balance_separation: cannot read B as numbers ({err})") from None
-    if values.ndim != 2:
-        raise CompositionError(f"balance_separation: B must be 2-D (n, k), got {values.ndim}-D")
-    n, k = values.shape
-    codes = np.asarray(codes)
-    if codes.shape != (n,) or not np.issubdtype(codes.dtype, np.integer):
-        raise CompositionError(
-            f"balance_separation: codes must be {n} integers, got dtype {codes.dtype}, "
-            f"shape {codes.shape}"
-        )
-    if int(n_groups) != n_groups or n_groups < 0:
-        raise CompositionError(f"balance_separation: n_groups must be >= 0, got {n_groups!r}")
-    if codes.size and (codes.max() >= n_groups or codes.min() < -1):
-        raise CompositionError(
-            f"balance_separation: codes must lie in -1 .. {n_groups - 1} (n_groups={n_groups})"
-        )
-    if names is not None and len(names) != k:
-        raise CompositionError(f"balance_separation: {len(names)} names for {k} balances")
-    return values, codes
 
 
 def balance_separation(
@@ -120,7 +96,12 @@ def balance_separation(
         (``SS_between / SS_total``). A value that cannot be computed (fewer
         than two groups with rows, no spread within or at all) is None.
     """
-    values, codes = _check(B, codes, n_groups, names)
+    values = balance_table(B, "balance_separation", names)
+    if int(n_groups) != n_groups:
+        raise CompositionError(
+            f"balance_separation: n_groups must be an integer, got {n_groups!r}"
+        )
+    codes = group_codes(codes, values.shape[0], int(n_groups), "balance_separation")
     if max_rank_rows is not None and (int(max_rank_rows) != max_rank_rows or max_rank_rows < 2):
         raise CompositionError(
             f"balance_separation: max_rank_rows must be an integer >= 2, got {max_rank_rows!r}"

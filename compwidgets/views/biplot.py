@@ -316,10 +316,7 @@ class BiplotView(ScatterView):
         return (-1.0, 1.0), (-1.0, 1.0)  # until the first fit: see _coordinates
 
     def _legend_anchor(self):
-        (x0, x1), (y0, y1) = self.view_ranges
-        h = y1 - y0
-        room = self.legend_width_px * h / self._plot_height_px()
-        return x1 - room, y1 - 0.05 * h, 0.05 * h
+        return cm.right_legend_anchor(self)
 
     def _coordinates(self):
         if self._fit_parts != list(self.model.active_parts):

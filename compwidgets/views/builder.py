@@ -25,7 +25,7 @@ import traitlets as t
 
 from .. import core
 from ..core import principal as _principal
-from ..core.separation import balance_separation
+from ..core.separation import STATISTIC_KEYS, balance_separation
 from ..core.summary import summarize_balances
 from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
 from ..model import CompositionModel, ModelError
@@ -53,18 +53,6 @@ _STAT_KEYS = (
     "q95",
     "groups",
     "separation",
-)
-
-#: Keys of the group separation of a balance sent in ``stats`` (from core.separation).
-_SEPARATION_KEYS = (
-    "n",
-    "n_groups",
-    "anova_f",
-    "anova_p",
-    "kruskal_h",
-    "kruskal_p",
-    "kruskal_n",
-    "between_share",
 )
 
 
@@ -568,7 +556,7 @@ class BalanceBuilder(anywidget.AnyWidget):
                 self._B[:, new], codes, n_groups, max_rank_rows=self.max_rank_rows
             )
             for k, entry in zip(new, found, strict=True):
-                self._separation[keys[k]] = {key: entry[key] for key in _SEPARATION_KEYS}
+                self._separation[keys[k]] = {key: entry[key] for key in STATISTIC_KEYS}
         return [dict(self._separation[key]) for key in keys]
 
     def _publish_stats(self) -> None:
