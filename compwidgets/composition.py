@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -15,6 +15,9 @@ OBSERVED, BELOW_DL, MISSING = "observed", "below_dl", "missing"
 
 #: The actions of :attr:`Composition.report`, in the order they happen.
 ACTIONS = (
+    "renamed",
+    "column",
+    "setting",
     "parsed_text",
     "missing",
     "below_detection",
@@ -22,10 +25,22 @@ ACTIONS = (
     "unit_converted",
     "formula_converted",
     "replaced",
+    "scaled",
+    "total_not_compared",
     "flagged",
 )
 
-REPORT_COLUMNS = ("row", "column", "action", "original", "value", "detail")
+REPORT_COLUMNS = ("row", "column", "action", "code", "original", "value", "detail")
+
+#: Separator of the codes of a flagged row with several reasons.
+CODE_SEPARATOR = ";"
+
+
+def _empty_account() -> pd.DataFrame:
+    return pd.DataFrame(
+        {c: pd.Series(dtype=object) for c in ("role", "code", "detail", "part", "unit")},
+        index=pd.Index([], name="column", dtype=object),
+    )
 
 
 def _same_axis(a: pd.Index, b: pd.Index) -> bool:
@@ -61,12 +76,20 @@ class Composition:
     unit : str
         The common unit of :attr:`values`.
     report : DataFrame
-        One row per thing done: ``row, column, action, original, value, detail``.
+        One row per thing done: ``row, column, action, code, original, value,
+        detail``; ``code`` is a reason code of :mod:`compwidgets.intake.codes`
+        (for a flagged row the codes of its reasons joined by ";").
     flags : DataFrame
-        Flagged rows (they stay in :attr:`values`): ``reason`` and ``total``
-        (analytical total in wt% when checked, else NaN).
+        Flagged rows (they stay in :attr:`values`): ``reason`` (text),
+        ``code`` (the reason codes, joined by ";" in the order of the
+        reasons), ``total`` (analytical total in wt% when checked, else NaN)
+        and ``stated_total`` (the table's total column in wt%, NaN when none).
     settings : dict
         JSON-serialisable record of the options used.
+    column_account : DataFrame
+        One row per input column (index: the column name as text):
+        ``role`` ("part", "metadata" or "index"), ``code``, ``detail`` (why),
+        ``part`` (the part name, for parts) and ``unit`` (as read).
     """
 
     values: pd.DataFrame
@@ -79,6 +102,7 @@ class Composition:
     report: pd.DataFrame
     flags: pd.DataFrame
     settings: dict
+    column_account: pd.DataFrame = field(default_factory=_empty_account)
 
     def __post_init__(self) -> None:
         for name in ("raw", "status", "detection_limits"):
@@ -106,6 +130,15 @@ class Composition:
     def replaced(self) -> pd.DataFrame:
         """Cells that were below detection and now hold a replacement value."""
         return (self.status == BELOW_DL) & self.values.notna()
+
+    def flagged_rows(self, code: str) -> pd.Index:
+        """Labels of the rows flagged with reason ``code`` (:mod:`compwidgets.intake.codes`)."""
+        if not len(self.flags) or "code" not in self.flags.columns:
+            return self.flags.index[:0]
+        sep = CODE_SEPARATOR
+        joined = sep + self.flags["code"].astype(str) + sep
+        has = joined.str.contains(sep + code + sep, regex=False)
+        return self.flags.index[has.to_numpy(dtype=bool)]
 
     def in_reported_unit(self, part: str, values) -> tuple[np.ndarray, str]:
         """Values of ``part`` (given in :attr:`unit`) in the unit the table reported it in.
@@ -142,6 +175,20 @@ class Composition:
             f"{self.n_rows} rows x {len(self.parts)} parts in {self.unit} "
             f"({', '.join(str(p) for p in self.parts)})"
         ]
+        account = self.column_account
+        if len(account):
+            meta = account.index[account["role"] == "metadata"].tolist()
+            index = account.index[account["role"] == "index"].tolist()
+            lines.append(
+                f"columns: {int((account['role'] == 'part').sum())} parts, "
+                f"{len(meta)} metadata"
+                + (
+                    f" ({', '.join(map(str, meta[:8]))}{', ...' if len(meta) > 8 else ''})"
+                    if meta
+                    else ""
+                )
+                + (f", row labels from {index[0]!r}" if index else "")
+            )
         status_counts = {k: int((self.status == k).to_numpy().sum()) for k in (BELOW_DL, MISSING)}
         n_repl = int(self.replaced.to_numpy().sum())
         lines.append(
@@ -151,7 +198,7 @@ class Composition:
             + ")"
         )
         lines.append(f"missing cells: {status_counts[MISSING]}")
-        done = [f"{a}: {int(counts[a])}" for a in ACTIONS if a in counts.index]
+        done = [f"{a}: {int(counts[a])}" for a in ACTIONS if a in counts.index and a != "column"]
         lines.append("report: " + (", ".join(done) if done else "nothing to report"))
         conv = self.report[self.report["action"].isin(["unit_converted", "formula_converted"])]
         lines.extend(

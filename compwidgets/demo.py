@@ -286,6 +286,8 @@ def _frame(sim: dict[str, np.ndarray], parts: dict[str, np.ndarray]) -> pd.DataF
     }
     df = pd.DataFrame(data)
     df.attrs["source"] = DEMO_NOTICE
+    # the limits travel with the table: read_composition uses them when none are passed
+    df.attrs["detection_limits"] = dict(DETECTION_LIMITS)
     return df
 
 
@@ -316,7 +318,11 @@ def stream_sediments(n: int = 2000, seed: int = 7) -> pd.DataFrame:
         read ``""`` or ``"-"``. About 1 % of analytical totals lie deliberately
         outside 98.5-101.5 wt%, and about 0.5 % of rows are outliers (very high
         Cu and Zn, or a mis-weighed sample with a total near 90 or 110 wt%).
-        ``attrs["source"]`` holds :data:`DEMO_NOTICE`.
+        ``attrs["source"]`` holds :data:`DEMO_NOTICE` and
+        ``attrs["detection_limits"]`` a copy of :data:`DETECTION_LIMITS`, which
+        :func:`compwidgets.read_composition` uses when no limits are passed, so
+        that ``cw.explore(cw.demo.stream_sediments())`` reads the ``"bdl"`` and
+        ``"n.d."`` cells. ``sample_id`` becomes the row labels there.
     """
     sim = _simulate(n, seed)
     columns = _columns()
@@ -343,8 +349,8 @@ def stream_sediments_clean(n: int = 2000, seed: int = 7) -> pd.DataFrame:
 
     Same rows and numbers as ``stream_sediments(n, seed)``, with every part
     column float64: below-detection cells (``"<x"``, ``"bdl"``, ``"n.d."``) are
-    0.0 and not-analysed cells (``""``, ``"-"``) are NaN. ``attrs["source"]``
-    holds :data:`DEMO_NOTICE`.
+    0.0 and not-analysed cells (``""``, ``"-"``) are NaN. ``attrs`` as for
+    :func:`stream_sediments`.
     """
     sim = _simulate(n, seed)
     columns = _columns()

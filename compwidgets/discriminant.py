@@ -54,16 +54,16 @@ _SETTING_OPTIONS = {
     "units_given": "units",
     "default_unit": "default_unit",
     "unit": "common_unit",
-    "detection_limits": "detection_limits",
     "replacement": "replacement",
     "fraction": "fraction",
     "negative_is_below_detection": "negative_is_below_detection",
     "check_total": "check_total",
     "total_window": "total_window",
+    "total_tolerance": "total_tolerance",
     "decimal": "decimal",
+    "thousands": "thousands",
     "below_tokens": "below_tokens",
     "missing_tokens": "missing_tokens",
-    "index_col": "index_col",
 }
 #: Options that name parts (a new table without those parts would refuse them).
 _PART_OPTIONS = ("units", "detection_limits", "convert")
@@ -72,18 +72,28 @@ _PART_OPTIONS = ("units", "detection_limits", "convert")
 def intake_options(composition: Composition) -> dict:
     """The :func:`~compwidgets.read_composition` options a Composition was read with.
 
-    Everything but the choice of part columns (which depends on the table):
-    units, common unit, formula conversions, detection limits, replacement
-    and its fraction, total check, decimal mark, tokens, index column.
+    Everything but what depends on the table itself: units, common unit,
+    formula conversions, detection limits given as an argument (limits a
+    table carried in its ``attrs`` are the new table's own business),
+    replacement and its fraction, the total check, decimal and thousands
+    marks, tokens, and the index column when one was named (a detected
+    sample-id column is detected again in the new table).
     """
     settings = composition.settings
     options = {
         option: settings[key]
         for key, option in _SETTING_OPTIONS.items()
-        if key in settings and settings[key] is not None
+        if settings.get(key) is not None
     }
     if "total_window" in options:
         options["total_window"] = tuple(options["total_window"])
+    if (
+        settings.get("detection_limits") is not None
+        and settings.get("detection_limits_source", "argument") == "argument"
+    ):
+        options["detection_limits"] = settings["detection_limits"]
+    if settings.get("index_source") == "index_col" and settings.get("index_col") is not None:
+        options["index_col"] = settings["index_col"]
     conversions = settings.get("conversions") or {}
     if conversions:
         options["convert"] = {name: c["to"] for name, c in conversions.items()}

@@ -1,7 +1,7 @@
 // SVG drawing of a dendrogram layout (made by layout.js). Text only through textContent.
 
 import { svg } from "./dom.js";
-import { balanceTitle, formatNumber, leafTitle, truncate } from "./labels.js";
+import { balanceTitle, leafTitle, scaleTitle } from "./labels.js";
 
 /**
  * @typedef {import("./layout.js").DendrogramLayout} DendrogramLayout
@@ -14,9 +14,6 @@ import { balanceTitle, formatNumber, leafTitle, truncate } from "./labels.js";
  * @property {string | null} openLeaf id of the leaf open for editing
  * @property {string[]} groupColours  colour per group code
  */
-
-/** Longest part label drawn under a leaf, in characters. */
-const LABEL_CHARS = 18;
 
 /**
  * The balance dendrogram as an <svg> element.
@@ -55,36 +52,30 @@ export function drawDendrogram(doc, lay, state) {
 }
 
 /**
- * The cumulative-variance scale at the left.
+ * The scale bar at the left: a round variance as a vertical bar, its value beside it.
  * @param {Document} doc
  * @param {DendrogramLayout} lay
  * @returns {SVGElement}
  */
 function drawScale(doc, lay) {
   const g = svg(doc, "g", { class: "cw-scale", "data-role": "scale" });
-  if (!lay.ticks.length) return g;
-  const x = lay.plot.x0 - 14;
-  g.appendChild(svg(doc, "line", { class: "cw-scale-line", x1: x, x2: x, y1: lay.plot.y0, y2: lay.plot.y1 }));
-  for (const t of lay.ticks) {
-    g.appendChild(svg(doc, "line", { class: "cw-scale-tick", x1: x - 4, x2: x, y1: t.y, y2: t.y }));
-    g.appendChild(
-      svg(doc, "text", { class: "cw-scale-label", x: x - 6, y: t.y + 3, "text-anchor": "end" }, formatNumber(t.value, 2)),
-    );
+  const bar = lay.scaleBar;
+  if (!bar) return g;
+  g.appendChild(svg(doc, "title", {}, scaleTitle(bar.value)));
+  g.appendChild(svg(doc, "line", { class: "cw-scale-line", x1: bar.x, x2: bar.x, y1: bar.y0, y2: bar.y1 }));
+  for (const y of [bar.y0, bar.y1]) {
+    g.appendChild(svg(doc, "line", { class: "cw-scale-tick", x1: bar.x - 4, x2: bar.x + 4, y1: y, y2: y }));
   }
-  const mid = (lay.plot.y0 + lay.plot.y1) / 2;
   g.appendChild(
     svg(
       doc,
       "text",
-      {
-        class: "cw-scale-title",
-        x: 10,
-        y: mid,
-        "text-anchor": "middle",
-        transform: `rotate(-90 10 ${mid})`,
-      },
-      "cumulative variance",
+      { class: "cw-scale-label", "data-role": "scale-value", x: bar.x - 7, y: (bar.y0 + bar.y1) / 2 + 3, "text-anchor": "end" },
+      bar.label,
     ),
+  );
+  g.appendChild(
+    svg(doc, "text", { class: "cw-scale-title", x: 4, y: bar.y0 - 5, "text-anchor": "start" }, bar.caption),
   );
   return g;
 }
@@ -109,14 +100,22 @@ function drawBalance(doc, split, state) {
     role: "button",
     "aria-pressed": active ? "true" : "false",
   });
-  g.appendChild(svg(doc, "title", {}, balanceTitle(name, split.variance, info ? info.share : null)));
+  const title = balanceTitle(name, split.variance, info ? info.share : null, split.extended);
+  g.setAttribute("aria-label", title);
+  g.appendChild(svg(doc, "title", {}, title));
   const y = split.yAxis;
   // wide transparent targets make thin lines easy to click
   g.appendChild(svg(doc, "line", { class: "cw-hit", x1: split.x, x2: split.x, y1: split.yTop, y2: y }));
   g.appendChild(svg(doc, "line", { class: "cw-hit", x1: split.axis.x0, x2: split.axis.x1, y1: y, y2: y }));
   g.appendChild(
-    svg(doc, "line", { class: "cw-bar", "data-role": "bar", "data-node-id": split.id, x1: split.x, x2: split.x, y1: split.yTop, y2: y }),
+    svg(doc, "line", { class: "cw-bar", "data-role": "bar", "data-node-id": split.id, x1: split.x, x2: split.x, y1: split.yTop, y2: split.ySolid }),
   );
+  if (split.extended) {
+    // drawn longer than the variance so that the marks of the axes above and below stay apart
+    g.appendChild(
+      svg(doc, "line", { class: "cw-bar-extension", "data-role": "bar-extension", x1: split.x, x2: split.x, y1: split.ySolid, y2: y }),
+    );
+  }
   g.appendChild(svg(doc, "line", { class: "cw-axis", x1: split.axis.x0, x2: split.axis.x1, y1: y, y2: y }));
   const m = split.marks;
   if (m.whisker) {
@@ -205,9 +204,7 @@ function drawLeaf(doc, leaf, state) {
     g.appendChild(svg(doc, "path", { class: "cw-bracket", d: `M ${a} ${y + 4} L ${a} ${y} L ${b} ${y} L ${b} ${y + 4}` }));
   }
   g.appendChild(svg(doc, "circle", { class: "cw-leaf-dot", cx: leaf.x, cy: y, r: splittable ? 4.5 : 3 }));
-  for (const slot of leaf.slots) {
-    const lx = slot.x + 3;
-    const ly = y + 14;
+  for (const label of leaf.labels) {
     g.appendChild(
       svg(
         doc,
@@ -215,12 +212,12 @@ function drawLeaf(doc, leaf, state) {
         {
           class: "cw-part-label",
           "data-role": "part-label",
-          x: lx,
-          y: ly,
+          x: label.x,
+          y: label.y,
           "text-anchor": "end",
-          transform: `rotate(-40 ${lx} ${ly})`,
+          transform: `rotate(-40 ${label.x} ${label.y})`,
         },
-        truncate(slot.part, LABEL_CHARS),
+        label.text,
       ),
     );
   }

@@ -1,7 +1,8 @@
 // DOM helpers. Text from the data goes in through textContent only; attributes are set
 // with setAttribute (never event-handler or URL attributes from data).
 
-const SVG_NS = "http://www.w3.org/2000/svg";
+/** The SVG namespace. */
+export const SVG_NS = "http://www.w3.org/2000/svg";
 
 /** Attributes the helpers refuse: handlers and URLs never come from here. */
 const FORBIDDEN = /^(on|href$|src$|xlink:href$|srcdoc$|formaction$|style$)/i;

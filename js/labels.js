@@ -62,12 +62,24 @@ export function formatShare(share) {
 }
 
 /**
- * The count of selected samples, e.g. "n selected: 123".
+ * A count with its unit: "1 row", "3 rows", "1 balance", "2 parts".
+ * @param {number} n
+ * @param {string} unit singular
+ * @param {string} [plural]
+ * @returns {string}
+ */
+export function countOf(n, unit, plural = `${unit}s`) {
+  const k = Math.max(0, Math.trunc(Number(n) || 0));
+  return `${k.toLocaleString("en-US")} ${k === 1 ? unit : plural}`;
+}
+
+/**
+ * The count of selected rows, e.g. "123 rows selected".
  * @param {number} n
  * @returns {string}
  */
 export function selectedCountText(n) {
-  return `n selected: ${Math.max(0, Math.trunc(Number(n) || 0))}`;
+  return `${countOf(n, "row")} selected`;
 }
 
 /**
@@ -80,7 +92,7 @@ export function rowsUsedText(nUsed, nRows) {
   const used = Math.max(0, Math.trunc(Number(nUsed) || 0));
   const rows = Math.max(0, Math.trunc(Number(nRows) || 0));
   if (rows === 0 || used >= rows) return "";
-  return `statistics on ${used} of ${rows} rows (${rows - used} missing or zero in an active part)`;
+  return `statistics on ${used.toLocaleString("en-US")} of ${countOf(rows, "row")} (${countOf(rows - used, "row")} missing or zero in an active part)`;
 }
 
 /**
@@ -103,12 +115,23 @@ export function leafTitle(parts) {
 }
 
 /**
- * Tooltip of a balance bar.
+ * Tooltip (and accessible name) of a balance in the dendrogram.
  * @param {string} name
  * @param {number | null | undefined} variance
  * @param {number | null | undefined} share
+ * @param {boolean} [extended] the bar is drawn longer than its variance
  * @returns {string}
  */
-export function balanceTitle(name, variance, share) {
-  return `${name}: variance ${formatNumber(variance)} (${formatShare(share)} of the total); click to colour the other views by this balance`;
+export function balanceTitle(name, variance, share, extended = false) {
+  const note = extended ? "; its bar is lengthened (dotted end) to stay readable" : "";
+  return `${name}: variance ${formatNumber(variance)} (${formatShare(share)} of the total)${note}; click to colour the other views by this balance`;
+}
+
+/**
+ * Tooltip of the dendrogram's scale bar.
+ * @param {number} value
+ * @returns {string}
+ */
+export function scaleTitle(value) {
+  return `scale: this bar is as long as a balance of variance ${formatNumber(value)}`;
 }

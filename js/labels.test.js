@@ -6,6 +6,7 @@ import { test } from "node:test";
 import {
   NO_VALUE,
   balanceTitle,
+  countOf,
   defaultBalanceName,
   formatNumber,
   formatShare,
@@ -29,14 +30,21 @@ test("a part name with markup comes back unchanged, as plain text", () => {
   assert.equal(partsLabel([HTML_PART, "B"]), `${HTML_PART}, B`);
   assert.ok(leafTitle([HTML_PART, "B"]).includes(HTML_PART));
   assert.ok(balanceTitle(HTML_PART, 0.5, 0.25).startsWith(`${HTML_PART}: variance 0.5 (25.0 %`));
+  assert.ok(balanceTitle("b", 0.5, 0.25, true).includes("lengthened"));
+  assert.ok(!balanceTitle("b", 0.5, 0.25).includes("lengthened"));
   // no escaping happens here (textContent does not need it, and escaping would show &lt;)
   assert.ok(!partsLabel([HTML_PART]).includes("&lt;"));
 });
 
-test("the selected count reads 'n selected: <count>'", () => {
-  assert.equal(selectedCountText(123), "n selected: 123");
-  assert.equal(selectedCountText(0), "n selected: 0");
-  assert.equal(selectedCountText(undefined), "n selected: 0");
+test("every count names its unit, singular or plural, with thousands separated", () => {
+  assert.equal(selectedCountText(123), "123 rows selected");
+  assert.equal(selectedCountText(1), "1 row selected");
+  assert.equal(selectedCountText(0), "0 rows selected");
+  assert.equal(selectedCountText(undefined), "0 rows selected");
+  assert.equal(selectedCountText(1234567), "1,234,567 rows selected");
+  assert.equal(countOf(2, "part"), "2 parts");
+  assert.equal(countOf(1, "balance"), "1 balance");
+  assert.equal(countOf(3, "ratio", "ratios"), "3 ratios");
 });
 
 test("numbers: significant digits, exponents for extremes, a dash when missing", () => {
@@ -62,7 +70,7 @@ test("truncate keeps short text and cuts long text with an ellipsis", () => {
 test("the rows the statistics leave out are said, and nothing is said when none is", () => {
   assert.equal(
     rowsUsedText(1920, 2000),
-    "statistics on 1920 of 2000 rows (80 missing or zero in an active part)",
+    "statistics on 1,920 of 2,000 rows (80 rows missing or zero in an active part)",
   );
   assert.equal(rowsUsedText(2000, 2000), "");
   assert.equal(rowsUsedText(0, 0), "");

@@ -22,7 +22,7 @@ function code(file) {
 }
 
 test("the widget's modules are all scanned", () => {
-  for (const f of ["widget.js", "tree.js", "layout.js", "dom.js", "dendrogram.js", "table.js", "splitter.js"]) {
+  for (const f of ["widget.js", "tree.js", "layout.js", "dom.js", "dendrogram.js", "table.js", "splitter.js", "menu.js", "figure.js"]) {
     assert.ok(SOURCES.includes(f), `${f} missing`);
   }
 });

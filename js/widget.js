@@ -5,18 +5,29 @@
 // back (or sends the last valid tree back with a message in "error"). Undo / redo keep
 // snapshots of the trees here. All text from the data is set with textContent.
 //
+// Keyboard focus stays in the builder after every action (split, merge, unsplit, undo,
+// redo, rename, an automatic partition, a colour toggle): each action names the element
+// to focus next (by its data-focus-key), and a redraw puts the focus back on the element
+// with the key it had, or on the builder itself when that element is gone or disabled, so
+// the next Ctrl+Z still reaches the builder.
+//
 // Synced traits read here: parts, tree, stats, selection_stats, total_variance,
-// n_selected, n_samples, n_rows, groups, error, busy, progress, colour_balance.
-// Written here: tree, colour_balance. Custom message sent: {type: "suggest", method}.
+// n_selected, n_samples, n_rows, groups, error, busy, progress, colour_balance,
+// figure_control (a reference to the kernel's figure-saving control, shown under the
+// dendrogram through the page's widget manager). Written here: tree, colour_balance.
+// Custom messages sent: {type: "suggest", method}, and the answers to the kernel's
+// figure requests (figure.js).
 
 import { canRedo, canUndo, createHistory, dropPresent, pushState, redo, undo } from "./history.js";
 import { closestRole, findByAttr, html } from "./dom.js";
 import { drawDendrogram } from "./dendrogram.js";
+import { answerFigureRequest } from "./figure.js";
 import { defaultBalanceName, rowsUsedText, selectedCountText, totalVarianceText } from "./labels.js";
-import { labelMargin, layoutDendrogram } from "./layout.js";
+import { layoutDendrogram } from "./layout.js";
+import { drawSuggestMenu, menuStep } from "./menu.js";
 import { drawSplitter } from "./splitter.js";
 import { createTableSort, drawTable, nextSort } from "./table.js";
-import { applySplit, canMerge, canSplit, findNode, isLeaf, mergeWithSibling, movePart, pendingReady, renameBalance, sameParts, sameTree, splitNodes, startSplit, togglePart, unsplitNode } from "./tree.js";
+import { applySplit, canMerge, canSplit, findNode, findParent, isLeaf, mergeWithSibling, movePart, pendingReady, renameBalance, sameParts, sameTree, splitNodes, startSplit, togglePart, unsplitNode } from "./tree.js";
 
 /**
  * @typedef {import("./tree.js").TreeNode} TreeNode
@@ -29,9 +40,10 @@ import { applySplit, canMerge, canSplit, findNode, isLeaf, mergeWithSibling, mov
  * @property {(name: string) => any} get
  * @property {(name: string, value: any) => void} set
  * @property {() => void} save_changes
- * @property {(content: any) => void} send
+ * @property {(content: any, callbacks?: any, buffers?: ArrayBuffer[]) => void} send
  * @property {(event: string, cb: Function) => void} on
  * @property {(event: string, cb: Function) => void} off
+ * @property {any} [widget_manager] the page's widget manager (get_model, create_view)
  */
 
 /** Traits whose change redraws the view. */
@@ -51,10 +63,12 @@ const WATCHED = [
   "colour_balance",
 ];
 
-/** Height of the plot area above the part labels, px. */
-const PLOT_HEIGHT = 260;
-/** Horizontal room per part, px. */
-const SLOT_WIDTH = 44;
+/** What the legend under the dendrogram says. */
+export const LEGEND =
+  "bar length = variance of the balance (the scale bar at the left gives the length of a round " +
+  "variance; a dotted end lengthens a bar too short to read); on each axis: box 25\u201375 %, " +
+  "whiskers 5\u201395 %, diamond = mean, tick = median, filled dot below = mean of the selection " +
+  "(line: its 25\u201375 %), small dots above = group means; markers lean toward the side that dominates";
 
 /**
  * Keep only the statistics that describe the tree's current splits (an entry sent for an
@@ -80,6 +94,36 @@ export function matchStats(tree, stats) {
 }
 
 /**
+ * Is this element a text field, list or other control that handles its own keys?
+ * @param {Element} node
+ * @returns {boolean}
+ */
+function typesText(node) {
+  const tag = node.tagName;
+  return tag === "INPUT" || tag === "TEXTAREA" || tag === "SELECT" || node.getAttribute("contenteditable") === "true";
+}
+
+/**
+ * Put a view made by the widget manager into `host`, as Lumino's Widget.attach does: the
+ * before-attach and after-attach messages let the view and its children know they are
+ * shown (ipywidgets' views fill in their text only then).
+ * @param {any} view
+ * @param {HTMLElement} host
+ */
+function attachView(view, host) {
+  const lumino = view.luminoWidget || view.pWidget;
+  const message = (/** @type {string} */ type) => ({ type, isConflatable: false, conflate: () => false });
+  if (lumino && typeof lumino.processMessage === "function") {
+    lumino.processMessage(message("before-attach"));
+    host.replaceChildren(view.el);
+    lumino.processMessage(message("after-attach"));
+  } else {
+    host.replaceChildren(view.el);
+    if (typeof view.trigger === "function") view.trigger("displayed");
+  }
+}
+
+/**
  * Render the builder into `el`; returns the cleanup function.
  * @param {{model: WidgetModel, el: HTMLElement}} ctx
  * @returns {() => void}
@@ -90,75 +134,63 @@ export function render({ model, el }) {
     class: "cw-builder",
     "data-role": "builder",
     "data-lm-suppress-shortcuts": "true",
+    role: "region",
+    "aria-label": "balance builder",
+    tabindex: -1, // the place the keyboard focus goes when the focused element disappears
   });
 
   // ---- skeleton
-  const toolbar = html(doc, "div", { class: "cw-toolbar", role: "toolbar" });
+  const toolbar = html(doc, "div", { class: "cw-toolbar", role: "toolbar", "aria-label": "partition actions" });
   /**
    * @param {string} role
    * @param {string} text
    * @param {string} title
-   * @param {Record<string, string>} [extra]
+   * @param {string} keys
    */
-  const button = (role, text, title, extra = {}) =>
+  const button = (role, text, title, keys) =>
     html(
       doc,
       "button",
-      {
-        type: "button",
-        class: "cw-button",
-        "data-role": role,
-        "data-focus-key": `btn:${role}:${extra["data-method"] || ""}`,
-        title,
-        ...extra,
-      },
+      { type: "button", class: "cw-button", "data-role": role, "data-focus-key": role, title, "aria-keyshortcuts": keys },
       text,
     );
-  const undoButton = button("undo", "undo", "undo the last change (Ctrl+Z)");
-  const redoButton = button("redo", "redo", "redo (Ctrl+Shift+Z)");
-  const principalButton = button(
-    "suggest",
-    "suggest: principal balances",
-    "each group split by its balance of largest variance",
-    { "data-method": "principal" },
-  );
-  const wardButton = button("suggest", "suggest: Ward clustering", "parts clustered by Ward's method", {
-    "data-method": "ward",
-  });
+  const undoButton = button("undo", "undo", "undo the last change (Ctrl+Z)", "Control+Z");
+  const redoButton = button("redo", "redo", "redo (Ctrl+Shift+Z or Ctrl+Y)", "Control+Shift+Z Control+Y");
+  const menu = drawSuggestMenu(doc);
   const totalLine = html(doc, "span", { class: "cw-info", "data-role": "total-variance" });
   const countLine = html(doc, "span", { class: "cw-info", "data-role": "n-selected" });
   const rowsLine = html(doc, "span", { class: "cw-info", "data-role": "rows-used" });
-  for (const b of [undoButton, redoButton, principalButton, wardButton, totalLine, countLine, rowsLine]) toolbar.appendChild(b);
+  for (const b of [undoButton, redoButton, menu.box, totalLine, countLine, rowsLine]) toolbar.appendChild(b);
   const progressLine = html(doc, "div", { class: "cw-progress", "data-role": "progress", "aria-live": "polite" });
   const errorLine = html(doc, "div", { class: "cw-error", "data-role": "error", role: "alert" });
   const main = html(doc, "div", { class: "cw-main" });
+  const figureColumn = html(doc, "div", { class: "cw-figure-column" });
   const figure = html(doc, "div", { class: "cw-figure", "data-role": "figure" });
+  const saveSlot = html(doc, "div", { class: "cw-figure-save", "data-role": "figure-save" });
+  figureColumn.appendChild(figure);
+  figureColumn.appendChild(saveSlot);
   const panel = html(doc, "div", { class: "cw-panel" });
   const editor = html(doc, "div", { class: "cw-editor", "data-role": "editor" });
   const tableBox = html(doc, "div", { class: "cw-table-box" });
   panel.appendChild(editor);
   panel.appendChild(tableBox);
-  main.appendChild(figure);
+  main.appendChild(figureColumn);
   main.appendChild(panel);
-  const legend = html(
-    doc,
-    "div",
-    { class: "cw-legend", "data-role": "legend" },
-    "bar length = variance of the balance; on each axis: box 25\u201375 %, whiskers 5\u201395 %, " +
-      "diamond = mean, tick = median, filled dot below = mean of the selection (line: its 25\u201375 %), " +
-      "small dots above = group means; markers lean toward the side that dominates",
-  );
+  const legend = html(doc, "div", { class: "cw-legend", "data-role": "legend" }, LEGEND);
   for (const part of [toolbar, progressLine, errorLine, main, legend]) root.appendChild(part);
   el.appendChild(root);
 
   // ---- state
-  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string, tableSort: import("./table.js").TableSort}} */
+  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string, focusNext: string | null, menuOpen: boolean, draft: {key: string, value: string} | null, tableSort: import("./table.js").TableSort}} */
   const state = {
     history: createHistory(model.get("tree")),
     openLeaf: null,
     pending: null,
     dragIndex: null,
     localError: "",
+    focusNext: null, // data-focus-key of the element an action wants focused after the redraw
+    menuOpen: false,
+    draft: null, // a balance name being typed: {key, value}
     tableSort: createTableSort(),
   };
   const present = () => state.history.present;
@@ -170,10 +202,11 @@ export function render({ model, el }) {
   }
 
   /**
-   * Record an edit, send it and redraw.
+   * Record an edit, send it and redraw; then focus the element keyed `focusAfter`.
    * @param {() => TreeNode} edit
+   * @param {(next: TreeNode) => string | null} [focusAfter]
    */
-  function commit(edit) {
+  function commit(edit, focusAfter) {
     let next;
     try {
       next = edit();
@@ -187,6 +220,7 @@ export function render({ model, el }) {
     state.history = pushState(state.history, next);
     closeEditor();
     sendTree();
+    state.focusNext = focusAfter ? focusAfter(next) : null;
     paint();
   }
 
@@ -216,37 +250,60 @@ export function render({ model, el }) {
     }
   }
 
-  // ---- drawing
-  /** @returns {{key: string, value?: string, start?: number | null, end?: number | null} | null} */
+  // ---- focus
+  /**
+   * Where the focus is, when it is in the builder (null: elsewhere on the page).
+   * @typedef {{key: string | null, keep: boolean, start?: number | null, end?: number | null}} SavedFocus
+   * @returns {SavedFocus | null}
+   */
   function captureFocus() {
     const active = /** @type {HTMLElement | null} */ (doc.activeElement);
     if (!active || !root.contains(active)) return null;
+    // the figure control is not redrawn here: its focus is left alone
+    if (active === root || saveSlot.contains(active)) return { key: null, keep: true };
     const key = active.getAttribute("data-focus-key");
-    if (!key) return null;
-    if (active.tagName === "INPUT") {
+    if (key && active.tagName === "INPUT") {
       const box = /** @type {HTMLInputElement} */ (active);
-      return { key, value: box.value, start: box.selectionStart, end: box.selectionEnd };
+      return { key, keep: false, start: box.selectionStart, end: box.selectionEnd };
     }
-    return { key };
+    return { key, keep: false };
   }
 
-  /** @param {{key: string, value?: string, start?: number | null, end?: number | null} | null} saved */
+  /** @param {Element | null} node */
+  function canTakeFocus(node) {
+    return Boolean(node && node.isConnected && !node.hasAttribute("disabled") && !node.closest("[hidden]"));
+  }
+
+  /** @param {SavedFocus | null} saved */
   function restoreFocus(saved) {
-    if (!saved) return;
-    const target = findByAttr(root, "data-focus-key", saved.key);
-    if (!target) return;
-    target.focus();
-    if (saved.value !== undefined && target.tagName === "INPUT") {
+    const wanted = state.focusNext;
+    state.focusNext = null;
+    if (!wanted && (!saved || saved.keep)) {
+      if (saved && !root.contains(doc.activeElement)) root.focus({ preventScroll: true });
+      return;
+    }
+    const key = wanted || /** @type {SavedFocus} */ (saved).key;
+    const target = key ? findByAttr(root, "data-focus-key", key) : null;
+    if (!target || !canTakeFocus(target)) {
+      root.focus({ preventScroll: true });
+      return;
+    }
+    if (doc.activeElement !== target) target.focus();
+    const draft = state.draft;
+    if (draft && draft.key === key && target.tagName === "INPUT") {
+      // a name being typed survives the redraw (the input is a new element)
       const box = /** @type {HTMLInputElement} */ (target);
-      box.value = saved.value;
+      box.value = draft.value;
+      const end = draft.value.length;
       try {
-        box.setSelectionRange(saved.start ?? saved.value.length, saved.end ?? saved.value.length);
+        box.setSelectionRange(saved?.start ?? end, saved?.end ?? end);
       } catch (_err) {
         // some input types do not support a selection range
       }
     }
   }
 
+  // ---- drawing
   function paint() {
     const saved = captureFocus();
     const tree = present();
@@ -259,8 +316,10 @@ export function render({ model, el }) {
     // toolbar
     undoButton.toggleAttribute("disabled", !canUndo(state.history));
     redoButton.toggleAttribute("disabled", !canRedo(state.history));
-    principalButton.toggleAttribute("disabled", busy);
-    wardButton.toggleAttribute("disabled", busy);
+    // aria-disabled, not disabled: the button keeps the focus while the kernel works
+    menu.trigger.setAttribute("aria-disabled", busy ? "true" : "false");
+    menu.trigger.setAttribute("aria-expanded", state.menuOpen ? "true" : "false");
+    menu.popup.toggleAttribute("hidden", !state.menuOpen);
     totalLine.textContent = totalVarianceText(model.get("total_variance"));
     countLine.textContent = selectedCountText(model.get("n_selected") || 0);
     rowsLine.textContent = rowsUsedText(model.get("n_samples"), model.get("n_rows"));
@@ -272,14 +331,7 @@ export function render({ model, el }) {
     errorLine.toggleAttribute("hidden", !message);
 
     // dendrogram
-    const parts = tree.parts;
-    const bottom = labelMargin(parts);
-    const width = Math.max(360, 64 + SLOT_WIDTH * parts.length);
-    const lay = layoutDendrogram(tree, [...stats.values()], selection, {
-      width,
-      height: PLOT_HEIGHT + bottom,
-      margin: { top: 18, right: 16, bottom, left: 48 },
-    });
+    const lay = layoutDendrogram(tree, [...stats.values()], selection);
     /** @type {Map<string, {name: string, share: number | null}>} */
     const names = new Map();
     const rows = splitNodes(tree).map((node) => {
@@ -357,19 +409,68 @@ export function render({ model, el }) {
 
   /** @type {[string, Function][]} */
   const modelHandlers = WATCHED.map((name) => [`change:${name}`, name === "tree" ? onTree : paint]);
+
+  /**
+   * Custom messages of the kernel: figure requests.
+   * @param {any} content
+   */
+  function onCustom(content) {
+    if (content && content.type === "figure-request") {
+      answerFigureRequest(model, figure.querySelector('svg[data-role="dendrogram"]'), content);
+    }
+  }
+  modelHandlers.push(["msg:custom", onCustom]);
   for (const [event, fn] of modelHandlers) model.on(event, fn);
 
+  // ---- the figure control (an ipywidgets view made by the page's widget manager)
+  /** @type {{remove?: () => void} | null} */
+  let controlView = null;
+  let disposed = false;
+  async function showFigureControl() {
+    const ref = model.get("figure_control");
+    const manager = model.widget_manager;
+    if (typeof ref !== "string" || !ref || !manager || typeof manager.get_model !== "function") return;
+    try {
+      const child = await manager.get_model(ref.replace(/^IPY_MODEL_/, ""));
+      const view = await manager.create_view(child, {});
+      if (disposed) {
+        view.remove();
+        return;
+      }
+      controlView = view;
+      attachView(view, saveSlot);
+    } catch (err) {
+      saveSlot.textContent = `the figure control could not be shown: ${String(/** @type {Error} */ (err).message || err)}`;
+    }
+  }
+
   // ---- view -> kernel
-  /** @param {string} id */
-  function toggleColour(id) {
+  /**
+   * @param {string} id
+   * @param {boolean} [fromDendrogram] keep the focus on that balance of the dendrogram
+   */
+  function toggleColour(id, fromDendrogram = false) {
     const current = model.get("colour_balance") || "";
     model.set("colour_balance", current === id ? "" : id);
     model.save_changes();
+    if (fromDendrogram) state.focusNext = `balance:${id}`;
     paint();
+  }
+
+  /** @param {boolean} open @param {number} [focusIndex] entry to focus (-1: the button) */
+  function setMenu(open, focusIndex = -1) {
+    state.menuOpen = open;
+    menu.trigger.setAttribute("aria-expanded", open ? "true" : "false");
+    menu.popup.toggleAttribute("hidden", !open);
+    if (open && focusIndex >= 0) menu.items[focusIndex].focus();
+    else if (!open && focusIndex === -1 && menu.box.contains(doc.activeElement)) menu.trigger.focus();
   }
 
   /** @param {string} method */
   function suggest(method) {
+    setMenu(false, -1);
+    menu.trigger.focus();
+    if (model.get("busy")) return; // one automatic partition at a time
     state.localError = "";
     model.send({ type: "suggest", method });
   }
@@ -388,12 +489,6 @@ export function render({ model, el }) {
     /** @type {HTMLElement} */ (chips[k]).focus();
   }
 
-  /** @param {string} key */
-  function focusKey(key) {
-    const target = findByAttr(root, "data-focus-key", key);
-    if (target) target.focus();
-  }
-
   /** Move the part with this index of the open leaf to `side` (or toggle when side is null).
    * @param {number} index
    * @param {"numerator" | "denominator" | null} side
@@ -406,8 +501,8 @@ export function render({ model, el }) {
     state.pending = side
       ? movePart(state.pending, part, side, node.parts)
       : togglePart(state.pending, part, node.parts);
+    state.focusNext = `chip:${index}`;
     paint();
-    focusKey(`chip:${index}`);
   }
 
   /** @param {Element} input */
@@ -416,8 +511,24 @@ export function render({ model, el }) {
     const node = findNode(present(), id);
     if (!node || isLeaf(node)) return;
     const value = /** @type {HTMLInputElement} */ (input).value;
+    state.draft = null;
     if (value.trim() === (node.name || "")) return;
-    commit(() => renameBalance(present(), id, value));
+    commit(() => renameBalance(present(), id, value), () => `name:${id}`);
+  }
+
+  /** @param {string} id */
+  function showLeaf(id) {
+    openLeaf(id);
+    state.focusNext = state.pending ? null : "cancel-split";
+    paint();
+    if (state.pending) focusChip("numerator", 0);
+  }
+
+  /** @param {string} id the open leaf, or "" */
+  function cancelSplit(id) {
+    closeEditor();
+    state.focusNext = id ? `leaf:${id}` : null;
+    paint();
   }
 
   /** Click actions by data-role, tried in this order (inner elements first).
@@ -427,14 +538,10 @@ export function render({ model, el }) {
     ["name-input", () => {}],
     ["unsplit", (hit) => {
       const id = hit.getAttribute("data-node-id") || "";
-      commit(() => unsplitNode(present(), id));
+      commit(() => unsplitNode(present(), id), () => `leaf:${id}`);
     }],
-    ["leaf", (hit) => {
-      openLeaf(hit.getAttribute("data-node-id") || "");
-      paint();
-      if (state.pending) focusChip("numerator", 0);
-    }],
-    ["balance", (hit) => toggleColour(hit.getAttribute("data-node-id") || "")],
+    ["leaf", (hit) => showLeaf(hit.getAttribute("data-node-id") || "")],
+    ["balance", (hit) => toggleColour(hit.getAttribute("data-node-id") || "", true)],
     ["balance-row", (hit) => toggleColour(hit.getAttribute("data-node-id") || "")],
     ["sort", (hit) => {
       state.tableSort = nextSort(state.tableSort, hit.getAttribute("data-sort-key") || "");
@@ -442,25 +549,27 @@ export function render({ model, el }) {
     }],
     ["apply-split", () => {
       const pending = state.pending;
-      if (pending) commit(() => applySplit(present(), pending));
+      if (pending) commit(() => applySplit(present(), pending), () => `balance:${pending.nodeId}`);
     }],
-    ["cancel-split", () => {
-      const id = state.openLeaf;
-      closeEditor();
-      paint();
-      if (id) focusKey(`leaf:${id}`);
-    }],
+    ["cancel-split", () => cancelSplit(state.openLeaf || "")],
     ["merge", () => {
       const id = state.openLeaf;
-      if (id) commit(() => mergeWithSibling(present(), id));
+      const parent = id ? findParent(present(), id) : null;
+      if (id && parent) commit(() => mergeWithSibling(present(), id), () => `leaf:${parent.id}`);
     }],
-    ["undo", () => doUndo()],
-    ["redo", () => doRedo()],
+    ["undo", () => doUndo(true)],
+    ["redo", () => doRedo(true)],
     ["suggest", (hit) => suggest(hit.getAttribute("data-method") || "")],
+    ["suggest-open", () => {
+      if (state.menuOpen || model.get("busy")) setMenu(false);
+      else setMenu(true, 0);
+    }],
   ];
 
   /** @param {MouseEvent} event */
   function onClick(event) {
+    if (saveSlot.contains(/** @type {Node} */ (event.target))) return;
+    if (state.menuOpen && !menu.box.contains(/** @type {Node} */ (event.target))) setMenu(false, -2);
     for (const [role, action] of clickActions) {
       const hit = closestRole(event.target, root, role);
       if (hit) {
@@ -470,60 +579,106 @@ export function render({ model, el }) {
     }
   }
 
-  function doUndo() {
+  /**
+   * Focus after undo / redo from a toolbar button: that button while it still works, else
+   * the other one, else the builder.
+   * @param {string} here
+   * @param {boolean} stillHere
+   * @param {string} other
+   * @param {boolean} otherWorks
+   */
+  const afterHistory = (here, stillHere, other, otherWorks) => (stillHere ? here : otherWorks ? other : null);
+
+  /** @param {boolean} [fromButton] */
+  function doUndo(fromButton = false) {
     if (!canUndo(state.history)) return;
     state.history = undo(state.history);
+    state.draft = null;
     checkEditor();
     sendTree();
+    if (fromButton) state.focusNext = afterHistory("undo", canUndo(state.history), "redo", canRedo(state.history));
     paint();
   }
 
-  function doRedo() {
+  /** @param {boolean} [fromButton] */
+  function doRedo(fromButton = false) {
     if (!canRedo(state.history)) return;
     state.history = redo(state.history);
+    state.draft = null;
     checkEditor();
     sendTree();
+    if (fromButton) state.focusNext = afterHistory("redo", canRedo(state.history), "undo", canUndo(state.history));
     paint();
+  }
+
+  /**
+   * Ctrl+Z, Ctrl+Shift+Z and Ctrl+Y: undo / redo; true when the key was one of them.
+   * @param {KeyboardEvent} event
+   * @returns {boolean}
+   */
+  function historyKey(event) {
+    const key = event.key;
+    if (!(event.ctrlKey || event.metaKey) || event.altKey) return false;
+    const z = key === "z" || key === "Z";
+    const y = key === "y" || key === "Y";
+    if (!z && !y) return false;
+    event.preventDefault();
+    event.stopPropagation();
+    if (y || event.shiftKey) doRedo();
+    else doUndo();
+    return true;
   }
 
   /** @param {KeyboardEvent} event */
   function onKeydown(event) {
     const target = /** @type {Element} */ (event.target);
     const key = event.key;
+    if (saveSlot.contains(target)) {
+      // the figure control's own fields keep their keys; its button passes undo / redo on
+      if (!typesText(target)) historyKey(event);
+      return;
+    }
     const input = closestRole(target, root, "name-input");
     if (input) {
+      const node = findNode(present(), input.getAttribute("data-node-id") || "");
+      const typed = /** @type {HTMLInputElement} */ (input).value.trim() !== (node ? node.name || "" : "");
+      // nothing typed since the last rename: Ctrl+Z undoes the rename itself
+      if (!typed && historyKey(event)) return;
       if (key === "Enter") {
         event.preventDefault();
         applyName(input);
       } else if (key === "Escape") {
         event.preventDefault();
-        const node = findNode(present(), input.getAttribute("data-node-id") || "");
         /** @type {HTMLInputElement} */ (input).value = node ? node.name || "" : "";
+        state.draft = null;
       }
       event.stopPropagation(); // typing in the name must not reach notebook shortcuts
       return;
     }
-    const mod = event.ctrlKey || event.metaKey;
-    if (mod && (key === "z" || key === "Z")) {
-      event.preventDefault();
-      event.stopPropagation();
-      if (event.shiftKey) doRedo();
-      else doUndo();
-      return;
-    }
-    if (mod && (key === "y" || key === "Y")) {
-      event.preventDefault();
-      event.stopPropagation();
-      doRedo();
-      return;
+    if (historyKey(event)) return;
+    if (menu.box.contains(target)) {
+      const items = menu.items;
+      const current = items.indexOf(/** @type {HTMLElement} */ (target));
+      const next = menuStep(key, current, items.length);
+      if (next !== null && (current >= 0 || key === "ArrowDown" || key === "ArrowUp")) {
+        event.preventDefault();
+        event.stopPropagation();
+        setMenu(true, next);
+        return;
+      }
+      if (key === "Escape" && state.menuOpen) {
+        event.preventDefault();
+        event.stopPropagation();
+        setMenu(false);
+        return;
+      }
+      if (key === "Tab" && state.menuOpen) setMenu(false, -2);
+      return; // Enter and Space click the focused button
     }
     if (key === "Escape" && state.openLeaf) {
       event.preventDefault();
       event.stopPropagation();
-      const id = state.openLeaf;
-      closeEditor();
-      paint();
-      focusKey(`leaf:${id}`);
+      cancelSplit(state.openLeaf);
       return;
     }
     const chip = closestRole(target, root, "chip");
@@ -548,16 +703,25 @@ export function render({ model, el }) {
       if (leaf) {
         event.preventDefault();
         event.stopPropagation();
-        openLeaf(leaf.getAttribute("data-node-id") || "");
-        paint();
-        if (state.pending) focusChip("numerator", 0);
-        else focusKey("cancel-split");
+        showLeaf(leaf.getAttribute("data-node-id") || "");
       } else if (balance) {
         event.preventDefault();
         event.stopPropagation();
-        toggleColour(balance.getAttribute("data-node-id") || "");
+        toggleColour(balance.getAttribute("data-node-id") || "", true);
       }
     }
+  }
+
+  /** @param {FocusEvent} event */
+  function onFocusOut(event) {
+    const into = /** @type {Node | null} */ (event.relatedTarget);
+    if (state.menuOpen && !(into && menu.box.contains(into))) setMenu(false, -2);
+  }
+
+  /** @param {Event} event */
+  function onInput(event) {
+    const input = closestRole(event.target, root, "name-input");
+    if (input) state.draft = { key: `name:${input.getAttribute("data-node-id")}`, value: /** @type {HTMLInputElement} */ (input).value };
   }
 
   /** @param {Event} event */
@@ -621,6 +785,8 @@ export function render({ model, el }) {
   const domHandlers = [
     ["click", /** @type {EventListener} */ (onClick)],
     ["keydown", /** @type {EventListener} */ (onKeydown)],
+    ["focusout", /** @type {EventListener} */ (onFocusOut)],
+    ["input", onInput],
     ["change", onChange],
     ["dragstart", /** @type {EventListener} */ (onDragStart)],
     ["dragover", /** @type {EventListener} */ (onDragOver)],
@@ -631,10 +797,14 @@ export function render({ model, el }) {
   for (const [type, fn] of domHandlers) root.addEventListener(type, fn);
 
   paint();
+  showFigureControl();
 
   return () => {
+    disposed = true;
     for (const [type, fn] of domHandlers) root.removeEventListener(type, fn);
     for (const [event, fn] of modelHandlers) model.off(event, fn);
+    if (controlView && typeof controlView.remove === "function") controlView.remove();
+    controlView = null;
     root.remove();
   };
 }

@@ -1,9 +1,10 @@
-// The builder's render({model, el}) driven through a small fake DOM (fakedom.js) and a
-// fake anywidget model: what the user does becomes the right trait changes and messages.
+// The builder's render({model, el}) on jsdom (a standards DOM, see testdom.js) with a fake
+// anywidget model: what the user does becomes the right trait changes and messages, the
+// keyboard focus stays in the builder, every control has an accessible name.
 import assert from "node:assert/strict";
 import { test } from "node:test";
 
-import { FakeDocument, FakeEvent, fakeModel } from "./fakedom.js";
+import { click, drag, fakeModel, keydown, page, type } from "./testdom.js";
 import { render, matchStats } from "./widget.js";
 
 const HTML_PART = "<img src=x onerror=alert(1)>";
@@ -11,8 +12,7 @@ const PARTS = ["Aa", "Bb", "Cc", HTML_PART];
 const ROOT = { id: "n0", parts: PARTS, name: "", children: [] };
 
 function setup(extra = {}) {
-  const doc = new FakeDocument();
-  const el = doc.createElement("div");
+  const { window, document, el } = page();
   const model = fakeModel({
     parts: PARTS,
     tree: ROOT,
@@ -29,17 +29,15 @@ function setup(extra = {}) {
     ...extra,
   });
   const cleanup = render({ model, el });
-  const byRole = (role) => el.querySelectorAll(`[data-role="${role}"]`);
+  const byRole = (role) => [...el.querySelectorAll(`[data-role="${role}"]`)];
   const one = (role) => {
     const found = byRole(role);
     assert.equal(found.length, 1, `one element with data-role=${role}`);
     return found[0];
   };
-  return { doc, el, model, cleanup, byRole, one };
-}
-
-function key(node, name, mods = {}) {
-  return node.dispatchEvent(new FakeEvent("keydown", { key: name, ...mods }));
+  const active = () => document.activeElement;
+  const builder = el.querySelector('[data-role="builder"]');
+  return { window, document, el, model, cleanup, byRole, one, active, builder };
 }
 
 /** The tree of a split of the root, as the kernel would accept it. */
@@ -78,33 +76,42 @@ function statsFor(tree, variance = 0.5) {
   ];
 }
 
-test("first render: count, total variance, one leaf, part names as text only", () => {
-  const { doc, el, one, byRole } = setup();
-  assert.equal(one("n-selected").textContent, "n selected: 7");
+/** Open the root leaf and apply the split the editor proposes (first half | second half). */
+function splitByKeyboard(t) {
+  const leaf = t.one("leaf");
+  leaf.focus();
+  keydown(leaf, "Enter");
+  t.one("apply-split").focus();
+  click(t.one("apply-split"));
+}
+
+test("first render: counts with their units, total variance, one leaf, part names as text only", () => {
+  const { el, one, byRole } = setup();
+  assert.equal(one("n-selected").textContent, "7 rows selected");
   assert.equal(one("total-variance").textContent, "total variance: 2.5");
   assert.equal(one("rows-used").textContent, "", "no n_rows given: nothing is said");
   const leaf = one("leaf");
   assert.equal(leaf.getAttribute("data-node-id"), "n0");
   const labels = byRole("part-label").map((n) => n.textContent);
-  assert.ok(labels.some((t) => t.startsWith("<img src=x")), "the markup is shown as text");
-  assert.ok(!doc.created.includes("img"), "no element was made from the part name");
-  assert.ok(!doc.created.includes("script"));
+  assert.ok(labels.some((text) => text.startsWith("<img src=x")), "the markup is shown as text");
+  assert.ok(leaf.getAttribute("aria-label").includes(HTML_PART), "in full in the leaf's name");
+  // jsdom parses markup set as HTML: no element may have come from the part name
+  assert.equal(el.querySelectorAll("img, script").length, 0);
   assert.ok(el.textContent.includes("no balance yet"));
 });
 
 test("click a leaf, toggle a chip, split: the view proposes the tree to the kernel", () => {
   const { model, one, byRole } = setup();
-  one("leaf").click();
+  click(one("leaf"));
   const chips = byRole("chip");
   assert.deepEqual(chips.map((c) => c.textContent), PARTS);
   assert.deepEqual(chips.map((c) => c.getAttribute("data-side")), ["numerator", "numerator", "denominator", "denominator"]);
-  // move Bb to the denominator side
-  chips[1].click();
+  click(chips[1]); // move Bb to the denominator side
   const after = byRole("chip");
   const side = (name) => after.find((c) => c.textContent === name).getAttribute("data-side");
   assert.equal(side("Bb"), "denominator");
   assert.equal(one("split-preview").textContent, `new balance: Aa | Bb,Cc,${HTML_PART}`);
-  one("apply-split").click();
+  click(one("apply-split"));
   const sent = model.sets.filter((s) => s.name === "tree");
   assert.equal(sent.length, 1);
   assert.equal(model.saves, 1);
@@ -114,14 +121,16 @@ test("click a leaf, toggle a chip, split: the view proposes the tree to the kern
   assert.equal(byRole("splitter").length, 0, "the editor closes after the split");
 });
 
-test("the split button is disabled while a side is empty", () => {
-  const { one, byRole } = setup();
-  one("leaf").click();
+test("the split button is disabled while a side is empty, and a disabled button does nothing", () => {
+  const { model, one, byRole } = setup();
+  click(one("leaf"));
   for (const chip of byRole("chip").filter((c) => c.getAttribute("data-side") === "denominator")) {
-    byRole("chip").find((c) => c.textContent === chip.textContent).click();
+    click(byRole("chip").find((c) => c.textContent === chip.textContent));
   }
-  assert.ok(one("apply-split").hasAttribute("disabled"));
+  assert.ok(one("apply-split").disabled);
   assert.equal(one("split-preview").textContent, "each side needs at least one part");
+  click(one("apply-split")); // the DOM does not dispatch clicks on disabled buttons
+  assert.equal(model.sets.length, 0);
 });
 
 test("kernel statistics fill the table and the dendrogram; stale statistics are ignored", () => {
@@ -134,93 +143,92 @@ test("kernel statistics fill the table and the dendrogram; stale statistics are 
   assert.equal(one("denominator").textContent, `Cc, ${HTML_PART}`);
   assert.equal(byRole("balance").length, 1);
   assert.equal(byRole("leaf").length, 2);
-  // statistics of another split of the same node id do not describe this tree
   const other = splitRoot(["Aa"]);
   assert.equal(matchStats(other, statsFor(tree)).size, 0);
   assert.equal(matchStats(tree, statsFor(tree)).size, 1);
 });
 
 test("a refused edit: the kernel sends the old tree back, the error shows, no undo step is left", () => {
-  const { model, one } = setup();
-  one("leaf").click();
-  one("apply-split").click();
-  assert.equal(one("undo").hasAttribute("disabled"), false);
-  model.kernel({ tree: ROOT, error: "change refused: a reason <b>not bold</b>." });
-  assert.equal(one("error").textContent, "change refused: a reason <b>not bold</b>.");
-  assert.equal(one("error").hasAttribute("hidden"), false);
-  assert.ok(one("undo").hasAttribute("disabled"), "the refused state was dropped");
-  assert.ok(one("redo").hasAttribute("disabled"));
+  const t = setup();
+  splitByKeyboard(t);
+  assert.equal(t.one("undo").disabled, false);
+  t.model.kernel({ tree: ROOT, error: "change refused: a reason <b>not bold</b>." });
+  assert.equal(t.one("error").textContent, "change refused: a reason <b>not bold</b>.");
+  assert.equal(t.el.querySelectorAll("b").length, 0);
+  assert.equal(t.one("error").hidden, false);
+  assert.ok(t.one("undo").disabled, "the refused state was dropped");
+  assert.ok(t.one("redo").disabled);
+  // the new balance the focus went to is gone: the focus stays in the builder
+  assert.ok(t.builder.contains(t.active()), `focus on ${t.active().tagName}`);
 });
 
-test("undo and redo (buttons and Ctrl+Z / Ctrl+Shift+Z) send the trees again", () => {
-  const { model, one, el } = setup();
-  one("leaf").click();
-  one("apply-split").click();
+test("undo and redo (buttons and Ctrl+Z / Ctrl+Shift+Z / Ctrl+Y) send the trees again", () => {
+  const { model, one, builder } = setup();
+  click(one("leaf"));
+  click(one("apply-split"));
   const split = model.sets.at(-1).value;
-  one("undo").click();
+  click(one("undo"));
   assert.deepEqual(model.sets.at(-1).value, ROOT);
-  one("redo").click();
+  click(one("redo"));
   assert.deepEqual(model.sets.at(-1).value, split);
-  const root = el.firstChild;
-  const prevented = !key(root, "z", { ctrlKey: true });
-  assert.ok(prevented);
+  assert.equal(keydown(builder, "z", { ctrlKey: true }), false, "the key is taken by the builder");
   assert.deepEqual(model.sets.at(-1).value, ROOT);
-  key(root, "Z", { ctrlKey: true, shiftKey: true });
+  keydown(builder, "Z", { ctrlKey: true, shiftKey: true });
+  assert.deepEqual(model.sets.at(-1).value, split);
+  keydown(builder, "z", { metaKey: true });
+  keydown(builder, "y", { ctrlKey: true });
   assert.deepEqual(model.sets.at(-1).value, split);
 });
 
-test("a tree from the kernel (a suggestion) becomes an undoable step", () => {
+test("a tree from the kernel (an automatic partition) becomes an undoable step", () => {
   const { model, one } = setup();
   const tree = splitRoot(["Cc"]);
   model.kernel({ tree, stats: statsFor(tree) });
-  assert.equal(one("undo").hasAttribute("disabled"), false);
-  one("undo").click();
+  assert.equal(one("undo").disabled, false);
+  click(one("undo"));
   assert.deepEqual(model.sets.at(-1).value, ROOT);
 });
 
 test("new active parts from the kernel start a fresh history", () => {
   const { model, one } = setup();
-  one("leaf").click();
-  one("apply-split").click();
+  click(one("leaf"));
+  click(one("apply-split"));
   model.kernel({ parts: ["Aa", "Bb"], tree: { id: "n0", parts: ["Aa", "Bb"], name: "", children: [] } });
-  assert.ok(one("undo").hasAttribute("disabled"));
+  assert.ok(one("undo").disabled);
 });
 
 test("keyboard: Enter opens a leaf, arrows move between chips, Escape cancels", () => {
-  const { doc, one, byRole } = setup();
+  const { active, one, byRole } = setup();
   const leaf = one("leaf");
-  key(leaf, "Enter");
+  leaf.focus();
+  keydown(leaf, "Enter");
   assert.equal(byRole("splitter").length, 1);
-  const first = doc.activeElement;
-  assert.equal(first.getAttribute("data-role"), "chip");
-  assert.equal(first.textContent, "Aa");
-  key(first, "ArrowDown");
-  assert.equal(doc.activeElement.textContent, "Bb");
-  key(doc.activeElement, "ArrowRight");
-  assert.equal(doc.activeElement.getAttribute("data-side"), "denominator");
-  assert.equal(doc.activeElement.textContent, HTML_PART);
-  key(doc.activeElement, "ArrowLeft");
-  assert.equal(doc.activeElement.getAttribute("data-side"), "numerator");
-  // Enter / Space on a focused button is a click: the chip changes side and keeps focus
-  doc.activeElement.click();
-  assert.equal(doc.activeElement.getAttribute("data-side"), "denominator");
-  key(doc.activeElement, "Escape");
+  assert.equal(active().getAttribute("data-role"), "chip");
+  assert.equal(active().textContent, "Aa");
+  keydown(active(), "ArrowDown");
+  assert.equal(active().textContent, "Bb");
+  keydown(active(), "ArrowRight");
+  assert.equal(active().getAttribute("data-side"), "denominator");
+  assert.equal(active().textContent, HTML_PART);
+  keydown(active(), "ArrowLeft");
+  assert.equal(active().getAttribute("data-side"), "numerator");
+  click(active()); // Enter / Space on a focused button is a click: the chip changes side, keeps focus
+  assert.equal(active().getAttribute("data-side"), "denominator");
+  keydown(active(), "Escape");
   assert.equal(byRole("splitter").length, 0);
-  assert.equal(doc.activeElement.getAttribute("data-role"), "leaf");
+  assert.equal(active().getAttribute("data-role"), "leaf");
 });
 
 test("drag and drop moves a chip to the other column", () => {
   const { one, byRole } = setup();
-  one("leaf").click();
+  click(one("leaf"));
   const chip = byRole("chip").find((c) => c.textContent === "Aa");
   const data = new Map();
   const dataTransfer = { setData: (k, v) => data.set(k, v), getData: (k) => data.get(k) || "", effectAllowed: "", dropEffect: "" };
-  chip.dispatchEvent(new FakeEvent("dragstart", { dataTransfer }));
+  drag(chip, "dragstart", dataTransfer);
   const target = byRole("side").find((s) => s.getAttribute("data-side") === "denominator");
-  const over = new FakeEvent("dragover", { dataTransfer });
-  target.dispatchEvent(over);
-  assert.ok(over.defaultPrevented, "the column accepts the drop");
-  target.dispatchEvent(new FakeEvent("drop", { dataTransfer }));
+  assert.ok(drag(target, "dragover", dataTransfer).defaultPrevented, "the column accepts the drop");
+  drag(target, "drop", dataTransfer);
   const moved = byRole("chip").find((c) => c.textContent === "Aa");
   assert.equal(moved.getAttribute("data-side"), "denominator");
 });
@@ -229,68 +237,314 @@ test("clicking a balance row or bar toggles the colour balance", () => {
   const { model, one } = setup();
   const tree = splitRoot(["Aa", "Bb"]);
   model.kernel({ tree, stats: statsFor(tree) });
-  one("balance-row").click();
+  click(one("balance-row"));
   assert.equal(model.sets.at(-1).name, "colour_balance");
   assert.equal(model.sets.at(-1).value, "n0");
-  one("bar").click();
+  click(one("bar"));
   assert.equal(model.sets.at(-1).value, "");
 });
 
-test("rename: Enter applies the name to the tree; clicks in the input do not toggle colour", () => {
-  const { model, one } = setup();
+test("rename: Enter applies the name; clicks in the input do not toggle colour; Ctrl+Z undoes it", () => {
+  const t = setup();
   const tree = splitRoot(["Aa", "Bb"]);
-  model.kernel({ tree, stats: statsFor(tree) });
-  const input = one("name-input");
+  t.model.kernel({ tree, stats: statsFor(tree) });
+  let input = t.one("name-input");
   assert.equal(input.placeholder, "Aa,Bb | Cc," + HTML_PART);
-  input.click();
-  assert.equal(model.sets.length, 0);
-  input.value = "  first balance ";
-  key(input, "Enter");
-  const sent = model.sets.at(-1);
+  click(input);
+  assert.equal(t.model.sets.length, 0);
+  type(input, "  first balance ");
+  keydown(input, "Enter");
+  const sent = t.model.sets.at(-1);
   assert.equal(sent.name, "tree");
   assert.equal(sent.value.name, "first balance");
+  input = t.one("name-input");
+  assert.equal(t.active(), input, "the focus stays in the (redrawn) name field");
+  // the kernel confirms: still there
+  t.model.kernel({ tree: sent.value, stats: statsFor(sent.value) });
+  assert.equal(t.active(), t.one("name-input"));
+  // nothing typed since: Ctrl+Z undoes the rename
+  keydown(t.active(), "z", { ctrlKey: true });
+  assert.equal(t.model.sets.at(-1).value.name, "");
+  assert.equal(t.one("name-input").value, "");
+  assert.ok(t.builder.contains(t.active()));
+});
+
+test("a name being typed survives a redraw from the kernel; Ctrl+Z there is left to the field", () => {
+  const t = setup();
+  const tree = splitRoot(["Aa", "Bb"]);
+  t.model.kernel({ tree, stats: statsFor(tree) });
+  type(t.one("name-input"), "half typed");
+  t.model.kernel({ n_selected: 3 }); // a redraw
+  assert.equal(t.active(), t.one("name-input"));
+  assert.equal(t.one("name-input").value, "half typed");
+  const before = t.model.sets.length;
+  assert.equal(keydown(t.active(), "z", { ctrlKey: true }), true, "not prevented: the field's own undo");
+  assert.equal(t.model.sets.length, before);
 });
 
 test("unsplit and merge send the collapsed tree", () => {
   const { model, one, byRole } = setup();
   const tree = splitRoot(["Aa", "Bb"]);
   model.kernel({ tree, stats: statsFor(tree) });
-  one("unsplit").click();
+  click(one("unsplit"));
   assert.deepEqual(model.sets.at(-1).value, ROOT);
   model.kernel({ tree, stats: statsFor(tree) });
-  byRole("leaf")[0].click();
-  one("merge").click();
+  click(byRole("leaf")[0]);
+  click(one("merge"));
   assert.deepEqual(model.sets.at(-1).value.children, []);
 });
 
-test("suggestion buttons send a request; busy disables them and shows the progress", () => {
-  const { model, byRole, one } = setup();
-  const [principal, ward] = byRole("suggest");
-  principal.click();
-  ward.click();
-  assert.deepEqual(model.sent, [
-    { type: "suggest", method: "principal" },
-    { type: "suggest", method: "ward" },
-  ]);
-  model.kernel({ busy: true, progress: "principal balances: 1.0 of 3 balances found (33 %)" });
-  assert.equal(one("progress").textContent, "principal balances: 1.0 of 3 balances found (33 %)");
-  assert.ok(byRole("suggest").every((b) => b.hasAttribute("disabled")));
-  model.kernel({ busy: false, progress: "" });
-  assert.ok(one("progress").hasAttribute("hidden"));
+test("focus stays in the builder after every action, so the next Ctrl+Z works", () => {
+  const t = setup();
+  const inBuilder = (what) => assert.ok(t.builder.contains(t.active()), `${what}: focus on ${t.active().outerHTML.slice(0, 60)}`);
+  // split: the focus goes to the new balance in the dendrogram
+  splitByKeyboard(t);
+  inBuilder("split");
+  assert.equal(t.active().getAttribute("data-role"), "balance");
+  assert.equal(t.active().getAttribute("data-node-id"), "n0");
+  const split = t.model.sets.at(-1).value;
+  t.model.kernel({ tree: split, stats: statsFor(split) }); // the kernel's answer redraws
+  assert.equal(t.active().getAttribute("data-focus-key"), "balance:n0");
+  // Ctrl+Z right away undoes the split; the balance is gone, the focus is on the builder
+  keydown(t.active(), "z", { ctrlKey: true });
+  assert.deepEqual(t.model.sets.at(-1).value, ROOT);
+  inBuilder("undo by key");
+  // Ctrl+Shift+Z redoes it, from wherever the focus now is
+  keydown(t.active(), "z", { ctrlKey: true, shiftKey: true });
+  assert.deepEqual(t.model.sets.at(-1).value, split);
+  inBuilder("redo by key");
+  // the undo button: it is the last step, so the button gets disabled and redo takes the focus
+  t.one("undo").focus();
+  click(t.one("undo"));
+  assert.equal(t.active(), t.one("redo"));
+  click(t.one("redo"));
+  assert.equal(t.active(), t.one("undo"), "redo has no step left: undo takes the focus");
+  // unsplit from the table: the focus goes to the leaf that came back
+  t.model.kernel({ tree: split, stats: statsFor(split) });
+  t.one("unsplit").focus();
+  click(t.one("unsplit"));
+  assert.equal(t.active().getAttribute("data-focus-key"), "leaf:n0");
+  keydown(t.active(), "z", { ctrlKey: true });
+  assert.deepEqual(t.model.sets.at(-1).value, split);
+  inBuilder("undo after unsplit");
+  // merge: the focus goes to the merged leaf
+  t.model.kernel({ tree: split, stats: statsFor(split) });
+  click(t.byRole("leaf")[0]);
+  t.one("merge").focus();
+  click(t.one("merge"));
+  assert.equal(t.active().getAttribute("data-focus-key"), "leaf:n0");
+  // a colour toggle by keyboard keeps the focus on its balance
+  keydown(t.active(), "z", { ctrlKey: true });
+  t.model.kernel({ tree: split, stats: statsFor(split) });
+  const bar = t.one("balance");
+  bar.focus();
+  keydown(bar, "Enter");
+  assert.equal(t.active().getAttribute("data-focus-key"), "balance:n0");
 });
 
-test("cleanup removes every listener and the view", () => {
-  const { model, el, cleanup } = setup();
-  const root = el.firstChild;
-  assert.ok(model.handlerCount() > 0 && root.listenerCount() > 0);
+test("one control offers the automatic partitions, with their method names and what they do", () => {
+  const t = setup();
+  const open = t.one("suggest-open");
+  const popup = t.one("suggest-popup");
+  assert.equal(popup.hidden, true);
+  assert.equal(open.getAttribute("aria-haspopup"), "menu");
+  assert.equal(open.getAttribute("aria-expanded"), "false");
+  const items = t.byRole("suggest");
+  assert.deepEqual(items.map((i) => i.getAttribute("data-method")), ["principal", "ward"]);
+  assert.deepEqual(items.map((i) => i.getAttribute("role")), ["menuitem", "menuitem"]);
+  const names = items.map((i) => i.querySelector(".cw-menu-name").textContent);
+  assert.deepEqual(names, ["principal balances", "Ward clustering of parts"]);
+  for (const item of items) assert.ok(item.querySelector(".cw-menu-note").textContent.length > 20, "a one-line explanation");
+  assert.equal(t.byRole("suggest-menu")[0].getAttribute("id"), open.getAttribute("aria-controls"));
+  // keyboard: ArrowDown opens on the first entry, arrows wrap, Escape goes back to the button
+  open.focus();
+  keydown(open, "ArrowDown");
+  assert.equal(popup.hidden, false);
+  assert.equal(open.getAttribute("aria-expanded"), "true");
+  assert.equal(t.active(), items[0]);
+  keydown(t.active(), "ArrowDown");
+  assert.equal(t.active(), items[1]);
+  keydown(t.active(), "ArrowDown");
+  assert.equal(t.active(), items[0]);
+  keydown(t.active(), "ArrowUp");
+  assert.equal(t.active(), items[1]);
+  keydown(t.active(), "Escape");
+  assert.equal(popup.hidden, true);
+  assert.equal(t.active(), open);
+  // a click opens it; picking an entry sends the request, closes the menu, focus on the button
+  click(open);
+  assert.equal(t.active(), items[0]);
+  click(items[1]);
+  assert.deepEqual(t.model.sent, [{ type: "suggest", method: "ward" }]);
+  assert.equal(popup.hidden, true);
+  assert.equal(t.active(), open);
+  click(open);
+  click(items[0]);
+  assert.deepEqual(t.model.sent.at(-1), { type: "suggest", method: "principal" });
+  // a click elsewhere in the builder closes an open menu
+  click(open);
+  click(t.one("legend"));
+  assert.equal(popup.hidden, true);
+});
+
+test("while the kernel works the menu button keeps the focus, says it is unavailable and sends nothing", () => {
+  const t = setup();
+  const open = t.one("suggest-open");
+  click(open);
+  click(t.byRole("suggest")[0]);
+  assert.equal(t.active(), open);
+  t.model.kernel({ busy: true, progress: "principal balances: 1.0 of 3 balances found (33 %)" });
+  assert.equal(t.one("progress").textContent, "principal balances: 1.0 of 3 balances found (33 %)");
+  assert.equal(open.getAttribute("aria-disabled"), "true");
+  assert.equal(t.active(), open, "not disabled, so the focus is not lost");
+  click(open);
+  assert.equal(t.one("suggest-popup").hidden, true, "does not open while busy");
+  const tree = splitRoot(["Cc"]);
+  t.model.kernel({ busy: false, progress: "", tree, stats: statsFor(tree) });
+  assert.ok(t.one("progress").hidden);
+  assert.equal(open.getAttribute("aria-disabled"), "false");
+  assert.equal(t.active(), open);
+  keydown(t.active(), "z", { ctrlKey: true }); // the automatic partition is undone
+  assert.deepEqual(t.model.sets.at(-1).value, ROOT);
+  assert.equal(t.model.sent.length, 1);
+});
+
+/**
+ * The accessible name of an element, by the rules that apply to these controls (accname
+ * 1.2, from memory): aria-labelledby, aria-label, a label element, the text content of a
+ * button-like element, title as the last resort.
+ */
+function accessibleName(node) {
+  const doc = node.ownerDocument;
+  const by = node.getAttribute("aria-labelledby");
+  if (by) return by.split(/\s+/).map((id) => doc.getElementById(id)?.textContent || "").join(" ").trim();
+  const label = node.getAttribute("aria-label");
+  if (label && label.trim()) return label.trim();
+  if (node.labels && node.labels.length) return [...node.labels].map((l) => l.textContent).join(" ").trim();
+  const role = node.getAttribute("role");
+  if (node.tagName === "BUTTON" || role === "button" || role === "menuitem") {
+    const text = node.textContent.trim();
+    if (text) return text;
+  }
+  return (node.getAttribute("title") || "").trim();
+}
+
+test("every control has an accessible name", () => {
+  const t = setup({ n_rows: 50 });
+  const tree = splitRoot(["Aa", "Bb"]);
+  t.model.kernel({ tree, stats: statsFor(tree) });
+  click(t.byRole("leaf")[0]); // the editor with its chips and buttons
+  click(t.one("suggest-open")); // the menu entries
+  const controls = t.el.querySelectorAll("button, input, select, textarea, [tabindex], [role=button], [role=menuitem]");
+  assert.ok(controls.length >= 12, `${controls.length} controls`);
+  for (const node of controls) {
+    if (node.getAttribute("tabindex") === "-1" && !node.getAttribute("role")) continue;
+    assert.ok(accessibleName(node), `no accessible name: ${node.outerHTML.slice(0, 120)}`);
+  }
+  // the name of the dendrogram's balance says which balance it is
+  assert.ok(accessibleName(t.one("balance")).startsWith("Aa,Bb | Cc,"));
+});
+
+test("a figure request is answered with a standalone SVG holding the table text only as text", () => {
+  const t = setup({ groups: [{ code: 0, name: "g", colour: "#336699" }] });
+  const tree = splitRoot(["Aa", "Bb"]);
+  t.model.kernel({ tree, stats: statsFor(tree) });
+  t.model.custom({ type: "figure-request", id: "r1", format: "svg", scale: 2 });
+  return new Promise((resolve) => setTimeout(resolve, 0)).then(() => {
+    const reply = t.model.messages.find((m) => m.content.type === "figure");
+    assert.ok(reply, "an answer was sent");
+    assert.equal(reply.content.id, "r1");
+    assert.equal(reply.content.error, undefined);
+    assert.equal(reply.buffers.length, 1);
+    const text = new TextDecoder().decode(reply.buffers[0]);
+    const doc = new t.window.DOMParser().parseFromString(text, "image/svg+xml");
+    assert.equal(doc.getElementsByTagName("parsererror").length, 0, "well-formed XML");
+    const svgRoot = doc.documentElement;
+    assert.equal(svgRoot.localName, "svg");
+    assert.equal(svgRoot.namespaceURI, "http://www.w3.org/2000/svg");
+    assert.equal(Number(svgRoot.getAttribute("width")), reply.content.width);
+    // every part name is the text of a <text> element, and in no attribute
+    const texts = [...doc.getElementsByTagName("text")].map((n) => n.textContent);
+    for (const part of PARTS) assert.ok(texts.some((text) => text.startsWith(part.slice(0, 12))), `${part} drawn`);
+    for (const node of doc.getElementsByTagName("*")) {
+      for (const attr of node.attributes) {
+        assert.ok(!PARTS.some((p) => attr.value.includes(p) && p.length > 2), `${attr.name}="${attr.value}"`);
+        assert.ok(!/^(on|aria-|data-|role$|tabindex$|class$|style$)/.test(attr.name), `kept ${attr.name}`);
+      }
+      assert.ok(!["title", "script", "foreignObject"].includes(node.localName), `kept <${node.localName}>`);
+    }
+    // nothing interactive was copied (no click targets), the live figure is unchanged
+    assert.equal(doc.getElementsByTagName("rect")[0].getAttribute("fill"), "#ffffff", "a white background");
+    assert.ok(t.el.querySelector('svg[data-role="dendrogram"] [data-role="balance"]'));
+  });
+});
+
+test("a PNG request where no canvas exists is answered with a reason, and bad requests too", () => {
+  const t = setup();
+  t.model.custom({ type: "figure-request", id: "p1", format: "png", scale: 2 });
+  t.model.custom({ type: "figure-request", id: "p2", format: "pdf", scale: 1 });
+  return new Promise((resolve) => setTimeout(resolve, 20)).then(() => {
+    const replies = new Map(t.model.messages.filter((m) => m.content.type === "figure").map((m) => [m.content.id, m]));
+    assert.match(replies.get("p1").content.error, /canvas/);
+    assert.equal(replies.get("p1").buffers.length, 0);
+    assert.match(replies.get("p2").content.error, /unknown figure format pdf/);
+  });
+});
+
+test("the figure control made by the page's widget manager is shown under the dendrogram", async () => {
+  const { window, el } = page();
+  const made = [];
+  const viewEl = window.document.createElement("div");
+  viewEl.setAttribute("class", "stand-in-control");
+  const manager = {
+    get_model: async (id) => ({ id }),
+    create_view: async (child) => {
+      const view = {
+        el: viewEl,
+        child,
+        removed: false,
+        messages: [],
+        remove() {
+          this.removed = true;
+        },
+      };
+      // a Lumino widget: it hears that it is attached, after its node is in the page
+      view.luminoWidget = { processMessage: (m) => view.messages.push([m.type, viewEl.isConnected]) };
+      made.push(view);
+      return view;
+    },
+  };
+  const model = fakeModel({ parts: PARTS, tree: ROOT, stats: [], selection_stats: [], figure_control: "IPY_MODEL_abc123" });
+  model.widget_manager = manager;
+  const cleanup = render({ model, el });
+  await new Promise((resolve) => setTimeout(resolve, 0));
+  assert.equal(made.length, 1);
+  assert.deepEqual(made[0].child, { id: "abc123" });
+  assert.equal(el.querySelector('[data-role="figure-save"]').firstChild, viewEl);
+  assert.deepEqual(made[0].messages, [
+    ["before-attach", false],
+    ["after-attach", true],
+  ]);
+  cleanup();
+  assert.equal(made[0].removed, true);
+});
+
+test("cleanup removes the view and stops reacting to the page and the kernel", () => {
+  const { model, el, cleanup, builder, one } = setup();
+  const leaf = one("leaf");
+  assert.ok(model.handlerCount() > 0);
   cleanup();
   assert.equal(model.handlerCount(), 0);
-  assert.equal(root.listenerCount(), 0);
   assert.equal(el.childNodes.length, 0);
+  click(leaf);
+  keydown(builder, "z", { ctrlKey: true });
+  assert.equal(model.sets.length, 0);
+  assert.equal(builder.querySelectorAll('[data-role="chip"]').length, 0, "no editor opened");
 });
 
-test("the toolbar says how many rows the statistics leave out", () => {
-  const { one } = setup({ n_samples: 37, n_rows: 40 });
-  assert.equal(one("rows-used").textContent, "statistics on 37 of 40 rows (3 missing or zero in an active part)");
-  assert.equal(one("rows-used").getAttribute("hidden"), null);
+test("the toolbar says how many rows the statistics leave out, naming the unit of every count", () => {
+  const { one } = setup({ n_samples: 37, n_rows: 40, n_selected: 1 });
+  assert.equal(one("rows-used").textContent, "statistics on 37 of 40 rows (3 rows missing or zero in an active part)");
+  assert.equal(one("rows-used").hidden, false);
+  assert.equal(one("n-selected").textContent, "1 row selected");
 });

@@ -1,6 +1,8 @@
-"""Shared hypothesis strategies for tests of compositional data.
+"""Shared hypothesis strategies for tests of compositional data, and a recording comm.
 
 Import from other test files with ``from conftest import positive_compositions``.
+The ``recording_comms`` fixture gives every widget made in a test a comm that keeps what
+the kernel sends (``widget.comm.sent``).
 
 Compositions are drawn as ``exp(log-values)`` with the log-values in a bounded
 range, so every part is strictly positive and ratios stay well conditioned
@@ -9,10 +11,31 @@ range, so every part is strictly positive and ratios stay well conditioned
 
 from __future__ import annotations
 
+import comm
 import numpy as np
+import pytest
 from hypothesis import HealthCheck, settings
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
+
+
+class RecordingComm(comm.DummyComm):
+    """A comm that keeps every message the kernel sends to the front end."""
+
+    def __init__(self, *args, **kwargs):
+        self.sent: list[dict] = []
+        super().__init__(*args, **kwargs)
+
+    def publish_msg(self, msg_type, data=None, metadata=None, buffers=None, **keys):
+        if msg_type == "comm_msg":
+            self.sent.append(data)
+
+
+@pytest.fixture
+def recording_comms(monkeypatch):
+    """Widgets made in the test get a :class:`RecordingComm`."""
+    monkeypatch.setattr(comm, "create_comm", lambda *a, **k: RecordingComm(*a, **k))
+
 
 #: Log-values are drawn in [-LOG_BOUND, LOG_BOUND].
 LOG_BOUND = 5.0

@@ -35,7 +35,8 @@ PARTS5 = ["SiO2", "Al2O3", "CaO", "Cr", "Zr"]
 
 @pytest.fixture(scope="module")
 def composition():
-    return read_composition(demo.stream_sediments(n=240, seed=11))
+    # index_col=False keeps sample_id among the metadata, for the id_column of the hover
+    return read_composition(demo.stream_sediments(n=240, seed=11), index_col=False)
 
 
 @pytest.fixture

@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import json
 
-import comm
 import numpy as np
 import pandas as pd
 import pytest
@@ -36,21 +35,7 @@ PARTS = ["Aa", "Bb", "Cc", "Dd", HTML_PART]
 N = 60
 
 
-class RecordingComm(comm.DummyComm):
-    """A comm that keeps every message the kernel sends to the front end."""
-
-    def __init__(self, *args, **kwargs):
-        self.sent: list[dict] = []
-        super().__init__(*args, **kwargs)
-
-    def publish_msg(self, msg_type, data=None, metadata=None, buffers=None, **keys):
-        if msg_type == "comm_msg":
-            self.sent.append(data)
-
-
-@pytest.fixture(autouse=True)
-def recording_comms(monkeypatch):
-    monkeypatch.setattr(comm, "create_comm", lambda *a, **k: RecordingComm(*a, **k))
+pytestmark = pytest.mark.usefixtures("recording_comms")
 
 
 def _values() -> np.ndarray:
@@ -558,13 +543,13 @@ def test_statistics_and_suggestions_use_the_complete_rows(recording_comms):
 def test_too_few_complete_rows_is_said_and_the_tree_still_works(recording_comms):
     model = _model_with_missing([0, 1], n=3)
     b = BalanceBuilder(model)
-    assert "only 1 row(s)" in b.error
+    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
     assert b.total_variance is None
     from_front_end(b, tree=first_split())
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
     assert b.stats[0]["variance"] is None
     assert b.stats[0]["numerator"] == PARTS[:2]
-    assert "only 1 row(s)" in b.error
+    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
     b._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
     assert b.error.startswith("no suggestion:")
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
@@ -593,6 +578,65 @@ def test_redefined_amalgamation_refreshes_the_statistics(builder, model):
     logs = np.log(redefined)
     b = np.sqrt(2 / 3) * (logs[:, 0] - logs[:, 1:].mean(axis=1))
     assert builder.stats[0]["variance"] == pytest.approx(np.var(b, ddof=1))
+
+
+# --------------------------------------------------------------------------- figures
+
+
+def custom_messages(widget) -> list[dict]:
+    return [m["content"] for m in widget.comm.sent if m.get("method") == "custom"]
+
+
+def answer_figure(widget, request: dict, data: bytes | None = None, error: str = "") -> None:
+    """Deliver the front end's answer to a figure request, as ipywidgets does."""
+    content = {"type": "figure", "id": request["id"], "format": request["format"]}
+    if error:
+        content["error"] = error
+    widget._handle_custom_msg(content, [memoryview(data)] if data is not None else [])
+
+
+def test_the_builder_carries_its_figure_control(builder):
+    control = builder.figure_control
+    assert control.file_name.value == "balance-dendrogram.png"
+    # synced as a widget reference the front end turns into a view
+    assert builder.get_state()["figure_control"] == f"IPY_MODEL_{control.model_id}"
+
+
+def test_save_figure_asks_the_page_and_writes_its_answer(builder, tmp_path):
+    svg = b'<?xml version="1.0"?><svg xmlns="http://www.w3.org/2000/svg"/>'
+    path = builder.save_figure(tmp_path / "dendro.svg")
+    assert path == tmp_path / "dendro.svg"
+    assert builder.figure_control.format.value == "svg"
+    (request,) = custom_messages(builder)
+    assert request["type"] == "figure-request" and request["format"] == "svg"
+    assert not path.exists()  # written when the page answers
+    answer_figure(builder, request, svg)
+    assert path.read_bytes() == svg
+    assert builder.figure_control.message.value.startswith("Saved dendro.svg (SVG")
+    # a second view answering the same request changes nothing
+    answer_figure(builder, request, b"other")
+    assert path.read_bytes() == svg
+
+
+def test_save_figure_png_scale_and_refusals(builder, tmp_path):
+    assert builder.save_figure(tmp_path / "d.png", scale=3) is None
+    assert "scale 3" in builder.figure_control.message.value
+    assert custom_messages(builder) == []
+    builder.save_figure(tmp_path / "d.png", scale=4)
+    (request,) = custom_messages(builder)
+    assert (request["format"], request["scale"]) == ("png", 4)
+    answer_figure(builder, request, error="this browser cannot draw the PNG (no canvas)")
+    assert builder.figure_control.message.value == (
+        "No figure saved: this browser cannot draw the PNG (no canvas)."
+    )
+    assert not (tmp_path / "d.png").exists()
+
+
+def test_closing_the_builder_closes_its_figure_control(model):
+    b = BalanceBuilder(model)
+    control = b.figure_control
+    b.close()
+    assert control.comm is None
 
 
 # --------------------------------------------------------------------- group separation

@@ -313,6 +313,7 @@ def test_intake_reads_the_demo(text: pd.DataFrame, clean: pd.DataFrame) -> None:
         assert result.detection_limits["Cu"].iloc[0] == pytest.approx(2e-4)
     # Grossly wrong totals (mis-weighed samples) are flagged by intake.
     total = analytical_total(clean)
-    gross = text.index[(total < 95.0) | (total > 105.0)]
+    # intake names the rows by the sample ids (the detected id column)
+    gross = text["sample_id"][(total < 95.0) | (total > 105.0)]
     assert len(gross) > 0
     assert set(gross) <= set(result.flags.index)

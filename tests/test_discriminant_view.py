@@ -44,7 +44,7 @@ def model(composition):
 
 @pytest.fixture
 def view(model):
-    v = DiscriminantView(model, id_column="sample_id")
+    v = DiscriminantView(model)
     yield v
     v.close()
 
@@ -131,7 +131,7 @@ def test_hover_shows_the_posteriors(model, view):
     row = int(view._mark_rows[pos])
     view._on_hover(view.scatter, {"event": "hover", "point": {"index": pos}})
     lines = [label.value for label in view._tooltip_lines if label.value]
-    assert lines[0] == str(model.metadata["sample_id"].iloc[row])
+    assert lines[0] == str(model.index[row])  # the sample id (the intake made it the index)
     at = int(np.searchsorted(view.rule.rows, row))
     post = view.rule.posteriors[at]
     best = int(np.argmax(post))

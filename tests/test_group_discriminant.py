@@ -83,8 +83,8 @@ def test_confusion_frame_equals_cross_val_predict_and_cells_are_model_rows(model
 def test_classify_a_new_batch_matches_the_rule_and_keeps_every_row(model, rule):
     batch = cw.demo.stream_sediments(n=40, seed=77)
     out = rule.classify(batch)
-    assert out.index.equals(batch.index)
     comp = cw.read_composition(batch, detection_limits=cw.demo.DETECTION_LIMITS)
+    assert out.index.equals(comp.values.index) and len(out) == len(batch)  # every row kept
     values = rule.part_frame(comp).to_numpy()
     ok = np.all(np.isfinite(values) & (values > 0), axis=1)
     post = rule.fit.posteriors(rule.fit.coordinates(values[ok]))

@@ -100,7 +100,17 @@ def test_explicit_parts_give_the_same_result(comp):
         detection_limits=DL,
     )
     pd.testing.assert_frame_equal(other.values, comp.values)
-    pd.testing.assert_frame_equal(other.report, comp.report)
+    # the same cells reported; the column entries say why each column is what it is, and
+    # that differs (named in parts= / detected from its header)
+    cells = other.report["action"] != "column"
+    pd.testing.assert_frame_equal(
+        other.report[cells].reset_index(drop=True),
+        comp.report[comp.report["action"] != "column"].reset_index(drop=True),
+    )
+    pd.testing.assert_series_equal(other.column_account["role"], comp.column_account["role"])
+    assert set(other.column_account["code"][other.column_account["role"] == "part"]) == {
+        "part_named"
+    }
 
 
 def test_status_per_cell(comp):
@@ -141,7 +151,7 @@ def _cells(report, action):
 
 def test_report_names_every_cell_by_its_original_label(comp):
     r = comp.report
-    assert list(r.columns) == ["row", "column", "action", "original", "value", "detail"]
+    assert list(r.columns) == ["row", "column", "action", "code", "original", "value", "detail"]
     assert _cells(r, "missing") == {("S-004", "Fe2O3", ""), ("S-004", "Cu", "-")}
     below = {
         ("S-002", "Zr", "<5"),
@@ -163,12 +173,18 @@ def test_report_names_every_cell_by_its_original_label(comp):
     flagged = r[r["action"] == "flagged"]
     assert list(flagged["row"]) == ["S-003", "S-004"]
     assert set(r["action"]) == {
+        "column",
         "missing",
         "below_detection",
         "unit_converted",
         "replaced",
+        "scaled",
         "flagged",
     }
+    # one entry per input column, saying what became of it
+    columns = r[r["action"] == "column"]
+    assert list(columns["column"]) == list(survey().columns)
+    assert list(columns["original"]) == ["metadata"] * 3 + ["part"] * 8
 
 
 def test_every_non_observed_cell_is_in_the_report(comp):
@@ -403,7 +419,10 @@ def test_multiplicative_replacement_properties(data):
 def test_total_window_flags_with_reason_and_total(comp):
     f = comp.flags
     assert list(f.index) == ["S-003", "S-004"]
-    assert list(f.columns) == ["reason", "total"]
+    assert list(f.columns) == ["reason", "code", "total", "stated_total"]
+    assert f.loc["S-003", "code"] == "total_outside_window"
+    assert f.loc["S-004", "code"] == "missing_parts;total_outside_window"
+    assert np.isnan(f["stated_total"]).all()  # the table has no total column
     assert f.loc["S-003", "reason"] == "analytical total 96.22 wt% outside 98.5-101.5"
     assert f.loc["S-004", "reason"] == (
         "missing part(s): Fe2O3, Cu; analytical total 95.02 wt% outside 98.5-101.5"
@@ -685,8 +704,16 @@ def test_the_input_frame_is_intact_after_an_error():
 
 
 def _assert_same(a: Composition, b: Composition) -> None:
-    for name in ("values", "raw", "detection_limits", "report", "flags"):
+    for name in ("values", "raw", "detection_limits", "flags"):
         pd.testing.assert_frame_equal(getattr(a, name), getattr(b, name), check_index_type=False)
+    # a file holds the labels in a column of its own, which the report accounts for
+    a_labels = a.column_account.index[a.column_account["role"] == "index"]
+    assert list(a_labels) == ["sample"] and b.column_account["role"].ne("index").all()
+    pd.testing.assert_frame_equal(
+        a.report[a.report["column"] != "sample"].reset_index(drop=True),
+        b.report,
+        check_index_type=False,
+    )
     pd.testing.assert_frame_equal(
         a.status.astype(object), b.status.astype(object), check_index_type=False
     )

@@ -134,6 +134,8 @@ def test_ilr_export_matches_the_export_module(bar, model, tmp_path):
     reference = export.save_ilr_csv(model, tmp_path / "reference.csv")
     assert written.read_bytes() == reference.read_bytes()
     assert str(written) in bar.message.value and "40 rows" in bar.message.value
+    # every count names what it counts (one row of the frame lacks a part)
+    assert "40 rows x 4 balances; 1 of the rows is incomplete" in bar.message.value
     # first balance by its definition (Egozcue & Pawlowsky-Glahn 2005): Sand, Silt | rest
     data = pd.read_csv(written, index_col=0)
     x = frame()[PARTS].to_numpy()

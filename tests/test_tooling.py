@@ -1,7 +1,8 @@
 """Style and front-end checks that run with the test suite.
 
 ruff (lint and format check, configured in pyproject.toml) and the JavaScript
-unit tests (Node's built-in runner, ``node --test js/``) are part of every run.
+unit tests (Node's built-in runner, ``node --test js/``, on jsdom from the repository's
+package.json: ``npm ci`` installs it; ``.ci/run`` does) are part of every run.
 """
 
 import os
@@ -37,6 +38,11 @@ def test_javascript_unit_tests_pass():
         if os.environ.get("CI") == "true":
             pytest.fail("node is required in CI to run the JavaScript tests (node --test js/)")
         pytest.skip("node is not installed; the JavaScript tests need Node.js >= 18")
+    if not (ROOT / "node_modules" / "jsdom" / "package.json").is_file():
+        message = "the JavaScript tests need jsdom: run `npm ci` at the repository root"
+        if os.environ.get("CI") == "true":
+            pytest.fail(message)
+        pytest.skip(message)
     tests = sorted(str(p.relative_to(ROOT)) for p in (ROOT / "js").glob("*.test.js"))
     assert tests, "no JavaScript test files found in js/"
     result = subprocess.run([node, "--test", *tests], cwd=ROOT, capture_output=True, text=True)

@@ -53,9 +53,17 @@ def test_grouping_column_defaults_to_a_categorical_metadata_column(table, bench)
     assert default_id_column(meta[["depth", "site"]]) == ""
 
 
-def test_hover_names_samples_by_their_id_column(bench):
-    assert bench.model.metadata["sample_id"].is_unique
-    assert all(v.id_column == "sample_id" for v in (*bench.ternaries, bench.biplot))
+def test_hover_names_samples_by_their_id(table, bench):
+    # intake makes the sample-id column the row labels, so the hover heads with them
+    assert bench.model.index.name == "sample_id"
+    assert list(bench.model.index) == list(table["sample_id"])
+    assert "sample_id" not in bench.model.metadata.columns
+    for view in (*bench.ternaries, bench.biplot):
+        assert view.id_column == ""
+        assert view._hover_heading(3)[0] == table["sample_id"].iloc[3]
+    # read without the labels, the id column of the metadata names the samples
+    kept = cw.explore(table, index_col=False)
+    assert all(v.id_column == "sample_id" for v in (*kept.ternaries, kept.biplot))
 
 
 def test_default_ternaries_show_the_most_variable_pair_among_major_parts(bench):

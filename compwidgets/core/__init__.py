@@ -33,7 +33,11 @@ from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
 from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
 from .subcomp import amalgamate, subcomposition
 from .transforms import alr, alr_inv, clr, clr_inv, default_basis, ilr, ilr_inv
-from .zeros import DEFAULT_FRACTION, multiplicative_replacement
+from .zeros import (
+    DEFAULT_FRACTION,
+    multiplicative_replacement,
+    multiplicative_replacement_rows,
+)
 
 __all__ = [
     "Biplot",
@@ -61,6 +65,7 @@ __all__ = [
     "link_length",
     "logratio_sd",
     "multiplicative_replacement",
+    "multiplicative_replacement_rows",
     "perturb",
     "power",
     "principal_balances",

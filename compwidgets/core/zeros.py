@@ -56,6 +56,77 @@ def detection_limit_matrix(detection_limits, shape: tuple[int, int], parts) -> n
     return dl.copy()
 
 
+def _replacement_parts(X, detection_limits, fraction, below, total):
+    """Checked input of the multiplicative replacement: table, mask, deltas, totals, loads."""
+    if not 0 < fraction < 1:
+        raise CompositionError(f"fraction must lie strictly between 0 and 1, got {fraction!r}")
+    t = as_table(X, min_parts=2)
+    require_finite(t)
+    v = t.values
+    parts = t.part_names()
+    if (v < 0).any():
+        r, c = np.argwhere(v < 0)[0]
+        raise CompositionError(
+            f"negative value {float(v[r, c])!r} at row {t.row_labels([r])[0]!r}, "
+            f"column {parts[c]!r}; "
+            "mark values below detection as 0 or with `below`"
+        )
+    mask = (v == 0) if below is None else np.asarray(below, dtype=bool)
+    if mask.shape != v.shape:
+        raise CompositionError(f"below: shape {mask.shape} does not match the data {v.shape}")
+    dl = detection_limit_matrix(detection_limits, v.shape, parts)
+    bad = mask & ~(np.isfinite(dl) & (dl > 0))
+    if bad.any():
+        r, c = np.argwhere(bad)[0]
+        raise CompositionError(
+            f"no positive detection limit for the value below detection at row "
+            f"{t.row_labels([r])[0]!r}, column {parts[c]!r}"
+        )
+    delta = np.where(mask, fraction * np.where(mask, dl, 0.0), 0.0)
+    observed = np.where(mask, 0.0, v)
+    c = observed.sum(axis=1) if total is None else np.full(v.shape[0], float(total))
+    return t, mask, delta, observed, c, delta.sum(axis=1)
+
+
+def multiplicative_replacement_rows(
+    X,
+    detection_limits,
+    fraction: float = DEFAULT_FRACTION,
+    below=None,
+    total: float | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Multiplicative replacement row by row, leaving out the rows where it is impossible.
+
+    The arithmetic of :func:`multiplicative_replacement` (Martin-Fernandez et
+    al. 2003; same arguments), but a row whose replacements would reach its
+    total ``c`` (``sum(delta) >= c``, e.g. a row without an observed part) is
+    not refused: it is returned unreplaced with a NaN factor.
+
+    Returns
+    -------
+    values : ndarray of shape (n, D)
+        Replaced values; rows that cannot be replaced keep their observed
+        values and hold NaN in the cells below detection.
+    factors : ndarray of shape (n,)
+        The factor ``1 - sum(delta) / c`` each row's observed parts were
+        multiplied by (1.0 for rows without a value below detection, NaN where
+        the replacement is impossible).
+    """
+    _, values, factors = _replace_rows(X, detection_limits, fraction, below, total)
+    return values, factors
+
+
+def _replace_rows(X, detection_limits, fraction, below, total):
+    t, mask, delta, observed, c, load = _replacement_parts(
+        X, detection_limits, fraction, below, total
+    )
+    feasible = load < c
+    factors = np.where(feasible, 1.0 - load / np.where(feasible, c, 1.0), np.nan)
+    values = np.where(mask, np.where(feasible[:, None], delta, np.nan), observed)
+    values[feasible] *= np.where(mask[feasible], 1.0, factors[feasible, None])
+    return t, values, factors
+
+
 def multiplicative_replacement(
     X,
     detection_limits,
@@ -86,41 +157,17 @@ def multiplicative_replacement(
     Returns
     -------
     Same form as ``X``.
+
+    See Also
+    --------
+    multiplicative_replacement_rows : the same, with the factor of each row, and rows
+        where the replacement is impossible left out instead of refused.
     """
-    if not 0 < fraction < 1:
-        raise CompositionError(f"fraction must lie strictly between 0 and 1, got {fraction!r}")
-    t = as_table(X, min_parts=2)
-    require_finite(t)
-    v = t.values
-    parts = t.part_names()
-    if (v < 0).any():
-        r, c = np.argwhere(v < 0)[0]
-        raise CompositionError(
-            f"negative value {float(v[r, c])!r} at row {t.row_labels([r])[0]!r}, "
-            f"column {parts[c]!r}; "
-            "mark values below detection as 0 or with `below`"
-        )
-    mask = (v == 0) if below is None else np.asarray(below, dtype=bool)
-    if mask.shape != v.shape:
-        raise CompositionError(f"below: shape {mask.shape} does not match the data {v.shape}")
-    dl = detection_limit_matrix(detection_limits, v.shape, parts)
-    bad = mask & ~(np.isfinite(dl) & (dl > 0))
-    if bad.any():
-        r, c = np.argwhere(bad)[0]
-        raise CompositionError(
-            f"no positive detection limit for the value below detection at row "
-            f"{t.row_labels([r])[0]!r}, column {parts[c]!r}"
-        )
-    delta = np.where(mask, fraction * np.where(mask, dl, 0.0), 0.0)
-    observed = np.where(mask, 0.0, v)
-    c = observed.sum(axis=1) if total is None else np.full(v.shape[0], float(total))
-    load = delta.sum(axis=1)
-    over = load >= c
-    if over.any():
-        rows = np.flatnonzero(over)
+    t, values, factors = _replace_rows(X, detection_limits, fraction, below, total)
+    if np.isnan(factors).any():
+        rows = np.flatnonzero(np.isnan(factors))
         raise CompositionError(
             f"rows {_listing(t.row_labels(rows), len(rows))}: the replacement values add up to "
             "the whole row total; too few observed parts for multiplicative replacement"
         )
-    factor = 1.0 - load / c
-    return t.wrap(np.where(mask, delta, observed * factor[:, None]))
+    return t.wrap(values)

@@ -5,8 +5,9 @@ length = variance of each balance, with the distribution of each balance on
 its axis; Egozcue & Pawlowsky-Glahn 2005, and Pawlowsky-Glahn & Egozcue 2011,
 Exploring compositional data with the CoDa-dendrogram, Austrian Journal of
 Statistics 40, from memory) and a table of the balances. The user splits groups of parts, undoes
-splits, merges leaves back, renames balances and asks for suggestions
-(principal balances, Ward clustering). The front end (``js/``) draws and edits;
+splits, merges leaves back, renames balances, starts from an automatic partition
+(principal balances, Ward clustering of parts) and saves the dendrogram as a figure
+(PNG or SVG, see :mod:`compwidgets.views._figure_save`). The front end (``js/``) draws and edits;
 every proposed tree is validated here with :mod:`compwidgets.core.tree`, every
 number comes from :mod:`compwidgets.core`, and each valid tree becomes the
 model's SBP, so the other views follow.
@@ -16,10 +17,13 @@ from __future__ import annotations
 
 import copy
 import time
+import uuid
 from collections.abc import Callable
+from pathlib import Path
 from typing import NamedTuple
 
 import anywidget
+import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
@@ -31,6 +35,7 @@ from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
 from ..model import CompositionModel, ModelError
 from ._common import group_colours
 from ._esm import bundle, read_asset
+from ._figure_save import FigureSaveControl
 
 __all__ = ["BalanceBuilder"]
 
@@ -137,10 +142,16 @@ class BalanceBuilder(anywidget.AnyWidget):
     colour_balance : str
         Id of the split node whose balance colours the other views ("" = none);
         mirrored to ``model.colour_by`` as that balance's name.
+    figure_control : FigureSaveControl
+        The "Save figure" control (format, scale, file name) the front end shows
+        under the dendrogram; see :meth:`save_figure`.
 
-    Custom messages from the front end
-    ----------------------------------
-    ``{"type": "suggest", "method": "principal" | "ward"}``: see :meth:`suggest`.
+    Custom messages
+    ---------------
+    From the front end: ``{"type": "suggest", "method": "principal" | "ward"}`` (see
+    :meth:`suggest`) and ``{"type": "figure", "id", ...}`` with the figure's bytes as
+    the one buffer (or an ``error``), the answer to the kernel's
+    ``{"type": "figure-request", "id", "format", "scale"}`` (see :meth:`request_figure`).
     """
 
     _esm = bundle()
@@ -159,6 +170,9 @@ class BalanceBuilder(anywidget.AnyWidget):
     busy = t.Bool(False).tag(sync=True)
     progress = t.Unicode("").tag(sync=True)
     colour_balance = t.Unicode("").tag(sync=True)
+    figure_control = t.Instance(FigureSaveControl, allow_none=True).tag(
+        sync=True, **widgets.widget_serialization
+    )
 
     #: A suggestion running longer than this (seconds) shows ``busy`` and ``progress``.
     progress_delay: float = 1.0
@@ -184,7 +198,9 @@ class BalanceBuilder(anywidget.AnyWidget):
         self._n_ok = 0
         self._separation: dict[bytes, dict] = {}  # SBP row -> separation, same rows and groups
         self._separation_parts: list = []  # the active parts (and members) it was found for
+        self._figure_replies: dict[str, Callable[[bytes | None, str], None]] = {}
         super().__init__(n_rows=model.n_rows, **kwargs)
+        self.figure_control = FigureSaveControl(self, default_name="balance-dendrogram")
         self.observe(self._on_tree, names=["tree"])
         self.observe(self._on_parts, names=["parts"])
         self.observe(self._on_colour_balance, names=["colour_balance"])
@@ -264,14 +280,62 @@ class BalanceBuilder(anywidget.AnyWidget):
         """Back to one group holding every active part (the model's SBP is cleared)."""
         self._propose(_leaf(list(self.parts)))
 
+    def request_figure(
+        self, fmt: str, scale: int, reply: Callable[[bytes | None, str], None]
+    ) -> None:
+        """Ask the front end for the dendrogram as a figure file (a figure source).
+
+        Parameters
+        ----------
+        fmt : {"png", "svg"}
+            An SVG document (table text only as text nodes) or its PNG.
+        scale : int
+            PNG size = the dendrogram's size on screen x ``scale``.
+        reply : callable
+            Called as ``reply(data, "")`` with the file's bytes, or ``reply(None, why)``,
+            when the page answers. Only a builder shown in the page answers; the first
+            answer counts when it is shown more than once.
+        """
+        request_id = uuid.uuid4().hex
+        self._figure_replies[request_id] = reply
+        self.send({"type": "figure-request", "id": request_id, "format": fmt, "scale": scale})
+
+    def save_figure(self, path: str | Path, scale: int = 2) -> Path | None:
+        """Save the dendrogram: what the "Save figure" control does, from code.
+
+        Parameters
+        ----------
+        path : str or Path
+            File name ending in ``.png`` or ``.svg`` (relative to the working folder).
+        scale : {1, 2, 4}, default 2
+            PNG size factor (ignored for SVG).
+
+        Returns
+        -------
+        Path or None
+            The file the figure goes to; it is written when the page answers (the
+            builder must be shown in the page). None when the name is refused;
+            ``figure_control.message`` says why.
+        """
+        control = self.figure_control
+        control.file_name.value = str(path)
+        if int(scale) not in [value for _, value in control.scale.options]:
+            control.message.value = f"No figure saved: scale {scale} is not one of 1, 2, 4."
+            return None
+        control.scale.value = int(scale)
+        return control.save()
+
     def close(self) -> None:
-        """Stop following the model, then close the widget."""
+        """Stop following the model, then close the widget and its figure control."""
         for handler, names in getattr(self, "_model_handlers", []):
             try:
                 self.model.unobserve(handler, names=names)
             except ValueError:
                 pass
         self._model_handlers = []
+        control = getattr(self, "figure_control", None)
+        if control is not None:
+            control.close()
         super().close()
 
     # ------------------------------------------------------- tree validation
@@ -496,8 +560,17 @@ class BalanceBuilder(anywidget.AnyWidget):
             self._pushing = False
 
     def _on_msg(self, widget, content, buffers) -> None:
-        if isinstance(content, dict) and content.get("type") == "suggest":
+        if not isinstance(content, dict):
+            return
+        if content.get("type") == "suggest":
             self.suggest(str(content.get("method", "")))
+        elif content.get("type") == "figure":
+            reply = self._figure_replies.pop(str(content.get("id", "")), None)
+            if reply is None:
+                return  # a second view's answer, or one nobody waits for
+            error = str(content.get("error") or "")
+            data = bytes(buffers[0]) if buffers and not error else None
+            reply(data, error)
 
     # ------------------------------------------------------------- statistics
     def _compute(self) -> str:
@@ -515,8 +588,8 @@ class BalanceBuilder(anywidget.AnyWidget):
         warning = ""
         if n_ok <= core.DDOF:
             warning = (
-                f"only {n_ok} row(s) have a positive value in every active part; "
-                f"a variance needs at least {core.DDOF + 1}"
+                f"only {n_ok} {'row has' if n_ok == 1 else 'rows have'} a positive value in "
+                f"every active part; a variance needs at least {core.DDOF + 1} rows"
             )
         else:
             values = m.part_values()[ok]

@@ -147,7 +147,12 @@ class SelectionBar(w.VBox):
 
             save_ilr_csv(self.model, path)
             n, ok = self.model.n_rows, int(self.model.complete_rows().sum())
-            gaps = f", {n - ok:,} of them incomplete (empty balances)" if ok < n else ""
+            verb = "is" if n - ok == 1 else "are"
+            gaps = (
+                f"; {n - ok:,} of the rows {verb} incomplete (their balances are empty)"
+                if ok < n
+                else ""
+            )
             return f"{n:,} rows x {len(self.model.balance_names)} balances{gaps}"
 
         return self._export("ilr coordinates", ".csv", write)

@@ -31,6 +31,7 @@ from ..core.outliers import (
     robust_distances,
     robust_distances_by_group,
 )
+from ..intake import codes
 
 __all__ = ["CAUTION", "TriageItem", "TriagePanel", "intake_items"]
 
@@ -96,13 +97,18 @@ def _span(values: np.ndarray) -> str:
     return f"{_number(lo)} to {_number(hi)}"
 
 
-def _reason_kind(piece: str) -> str:
-    piece = piece.strip()
-    if piece.startswith("missing part(s)"):
-        return "missing part(s)"
-    if piece.startswith("analytical total"):
-        return "analytical total outside the window"
-    return piece
+def _flag_codes(flags: pd.DataFrame) -> list[str]:
+    """The reason codes present in the flags, in the order of :data:`codes.FLAG_CODES`."""
+    if "code" not in flags.columns:
+        return []
+    found = {
+        code
+        for joined in flags["code"].astype(str).unique()
+        for code in joined.split(codes.CODE_SEPARATOR)
+    }
+    return [k for k in codes.FLAG_CODES if k in found] + sorted(
+        found - set(codes.FLAG_CODES) - {""}
+    )
 
 
 def intake_items(composition) -> list[TriageItem]:
@@ -115,8 +121,10 @@ def intake_items(composition) -> list[TriageItem]:
     Returns
     -------
     list of TriageItem
-        Flagged rows (all, then by kind of reason), analytical totals below
-        and above the window, then per part: missing values, values below
+        Flagged rows (all, then by reason code, see
+        :mod:`compwidgets.intake.codes`), analytical totals below and above the
+        window and stated totals that differ from the sum of the parts (read
+        from the codes, not the text), then per part: missing values, values below
         detection, replaced values (positions from ``status`` and
         ``composition.replaced``, i.e. the cells of the report's "replaced"
         entries). Items with no rows are left out.
@@ -130,27 +138,34 @@ def intake_items(composition) -> list[TriageItem]:
         items.append(
             TriageItem("Flagged rows", "all flagged rows", _positions(index, flags.index))
         )
-        kinds: dict[str, list] = {}
-        for label, reason in zip(flags.index, flags["reason"].astype(str), strict=True):
-            for piece in reason.split(";"):
-                if piece.strip():
-                    kinds.setdefault(_reason_kind(piece), []).append(label)
-        for kind, labels in kinds.items():
-            items.append(TriageItem("Flagged rows", f"flagged: {kind}", _positions(index, labels)))
+        for code in _flag_codes(flags):
+            labels = c.flagged_rows(code)
+            text = codes.REASONS.get(code, code)
+            items.append(TriageItem("Flagged rows", f"flagged: {text}", _positions(index, labels)))
 
-    settings = c.settings or {}
-    window = settings.get("total_window")
-    if settings.get("total_checked") and window is not None and len(flags):
-        lo, hi = float(window[0]), float(window[1])
-        totals = pd.to_numeric(flags["total"], errors="coerce").to_numpy(dtype=float)
+    lo, hi = (float(x) for x in (c.settings or {}).get("total_window", (np.nan, np.nan)))
+    outside = c.flagged_rows(codes.TOTAL_OUTSIDE_WINDOW)
+    if len(outside):
+        totals = pd.to_numeric(flags.loc[outside, "total"], errors="coerce").to_numpy(float)
         for text, mask in (
             (f"analytical total below {lo:g} wt%", totals < lo),
             (f"analytical total above {hi:g} wt%", totals > hi),
         ):
             if mask.any():
                 items.append(
-                    TriageItem("Analytical totals", text, _positions(index, flags.index[mask]))
+                    TriageItem("Analytical totals", text, _positions(index, outside[mask]))
                 )
+    mismatch = c.flagged_rows(codes.TOTAL_MISMATCH)
+    if len(mismatch):
+        tolerance = (c.settings or {}).get("total_tolerance")
+        items.append(
+            TriageItem(
+                "Analytical totals",
+                "stated total differs from the sum of the parts"
+                + (f" by more than {tolerance:g} wt%" if tolerance is not None else ""),
+                _positions(index, mismatch),
+            )
+        )
 
     status = c.status.to_numpy()
     for j, part in enumerate(c.parts):

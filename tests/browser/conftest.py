@@ -308,18 +308,23 @@ bench
 """
 
 
-def xss_notebook_json() -> str:
+def one_cell_notebook(source: str, cell_id: str) -> str:
+    """A notebook (JSON text) of one code cell, for the Python 3 kernel."""
     import nbformat
     from nbformat.v4 import new_code_cell, new_notebook
 
     nb = new_notebook(
-        cells=[new_code_cell(XSS_SOURCE)],
+        cells=[new_code_cell(source)],
         metadata={
             "kernelspec": {"display_name": "Python 3", "language": "python", "name": "python3"}
         },
     )
-    nb.cells[0]["id"] = "xss-probe"
+    nb.cells[0]["id"] = cell_id
     return nbformat.writes(nb)
+
+
+def xss_notebook_json() -> str:
+    return one_cell_notebook(XSS_SOURCE, "xss-probe")
 
 
 @pytest.fixture(scope="session")

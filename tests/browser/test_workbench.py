@@ -71,6 +71,11 @@ const countOf = (text) => {
 """
 
 
+def builder_count(n: int) -> str:
+    """The builder's count of selected rows, as it words it."""
+    return f"{n:,} row selected" if n == 1 else f"{n:,} rows selected"
+
+
 def tag_and_wait(nb) -> dict:
     """Tag the views, then wait until each draws all its points and the builder has drawn."""
     info = nb.kernel_json("_cw_info", setup=TAG_VIEWS)
@@ -89,7 +94,7 @@ def tag_and_wait(nb) -> dict:
         const root = document.querySelector(".cw-builder");
         const count = root && root.querySelector('[data-role="n-selected"]');
         return Boolean(root && root.querySelector('[data-role="dendrogram"]') && count
-          && /^n selected: \\d+$/.test(count.textContent));
+          && /^[\\d,]+ rows? selected$/.test(count.textContent));
         """,
         what="the balance builder to render",
     )
@@ -167,7 +172,7 @@ def test_quick_start_renders_every_view(quick_start):
     assert n > 0
     counts = dom_counts(nb)
     assert counts["bar"] == n
-    assert counts["builder"] == f"n selected: {n}"
+    assert counts["builder"] == builder_count(n)
 
     shots = {
         "ternary-0": ".cwtest-ternary-0",
@@ -253,7 +258,7 @@ for (const [name, info] of Object.entries(arg.views)) {
   watch(name, mark, () => countStyled(mark, info.selected_style) > 0);
 }
 const count = document.querySelector('.cw-builder [data-role="n-selected"]');
-watch("builder", count, () => count.textContent !== "n selected: 0");
+watch("builder", count, () => count.textContent !== "0 rows selected");
 const bar = document.querySelector(".cwtest-selection-bar");
 watch("selection bar", bar, () => (countOf(bar.textContent) || 0) > 0);
 return true;
@@ -271,7 +276,7 @@ def test_brush_in_one_ternary_selects_in_every_view(quick_start):
         MARK_JS
         + """
         const count = document.querySelector('.cw-builder [data-role="n-selected"]');
-        if (count.textContent !== "n selected: 0") return false;
+        if (count.textContent !== "0 rows selected") return false;
         const bar = document.querySelector(".cwtest-selection-bar");
         if (countOf(bar.textContent) !== 0) return false;
         return Object.entries(arg).every(([name, info]) =>
@@ -356,7 +361,7 @@ def test_brush_in_one_ternary_selects_in_every_view(quick_start):
         assert dom["selected"] == view["mark_selected"], (name, dom, check)
         assert dom["unselected"] == dom["dots"] - view["mark_selected"], (name, dom, check)
     assert check["builder"] == n and check["bar"] == n
-    assert shown["builder"] == f"n selected: {n}"
+    assert shown["builder"] == builder_count(n)
     assert shown["bar"] == n
 
 
