@@ -238,3 +238,5 @@ def test_ternary_boundaries_are_drawn_on_toggle_with_equal_scores(model):
     t.boundaries = False
     assert t.boundary_lines.x.shape[0] == 0 and "decision boundaries" not in t.notes.value
     t.close()
+    assert t._boundary_toggle.comm is None and t.boundary_controls.comm is None
+    t.close()  # twice is fine

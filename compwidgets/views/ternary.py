@@ -160,6 +160,17 @@ class TernaryView(ScatterView):
         children = list(self.children)
         self.children = [*children[:1], self.boundary_controls, *children[1:]]
 
+    def close(self) -> None:
+        """Stop following the model and close every widget of the view (twice is fine)."""
+        for link in getattr(self, "_boundary_links", []):
+            link.unlink()
+        self._boundary_links = []
+        for name in ("boundary_controls", "_boundary_toggle", "_boundary_menu"):
+            widget = getattr(self, name, None)
+            if widget is not None:
+                widget.close()
+        super().close()
+
     # --------------------------------------------------------------- options
     def _followed_parts(self) -> list[str]:
         active = list(self.model.active_parts)
