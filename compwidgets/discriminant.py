@@ -29,6 +29,7 @@ Example
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 from functools import cached_property
 
@@ -242,14 +243,7 @@ class GroupDiscriminant:
             seed=self.seed,
             max_rows=self.max_cv_rows,
         )
-        return cd.CrossValidation(
-            rows=self.rows[cv.rows],
-            true=cv.true,
-            predicted=cv.predicted,
-            confusion=cv.confusion,
-            n_splits=cv.n_splits,
-            seed=cv.seed,
-        )
+        return dataclasses.replace(cv, rows=self.rows[cv.rows])
 
     @cached_property
     def distances(self) -> cd.GroupDistances:

@@ -303,6 +303,12 @@ def test_rows_without_a_group_take_no_part():
         fit.posteriors(fit.coordinates(X)), ref.posteriors(ref.coordinates(X)), atol=1e-12
     )
     assert fit.n_available.sum() == X.shape[0] - 10
+    # labels not among the classes given take no part either
+    two = cd.fit_discriminant(X, labels, classes=["south", "north"])
+    assert two.classes == ["south", "north"]
+    np.testing.assert_array_equal(
+        two.n_available, [(labels == "south").sum(), (labels == "north").sum()]
+    )
 
 
 # ------------------------------------------------------------- geometric invariants

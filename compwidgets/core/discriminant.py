@@ -276,22 +276,16 @@ def stratified_rows(codes, max_rows: int | None, seed: int = 0, minimum: int = 1
 
 
 def _group_codes(groups, n: int, classes: Sequence[str] | None) -> tuple[np.ndarray, list[str]]:
-    labels = pd.Series(np.asarray(groups, dtype=object) if not hasattr(groups, "cat") else groups)
+    """A code per row (-1: no label, or a label not among ``classes``) and the group names."""
+    labels = pd.Series(np.asarray(groups, dtype=object))
     if labels.size != n:
         raise CompositionError(f"{labels.size} group labels for {n} rows")
-    known = labels.notna().to_numpy()
-    text = labels.astype("object").where(labels.notna(), None)
-    if classes is None:
-        cat = pd.Categorical(text)
-        names = [str(c) for c in cat.categories]
-        codes = cat.codes.astype(np.int64)
-    else:
-        names = [str(c) for c in classes]
-        lookup = {name: k for k, name in enumerate(names)}
-        codes = np.array(
-            [lookup.get(str(v), -1) if ok else -1 for v, ok in zip(text, known, strict=True)]
-        )
-    return codes, names
+    text = labels.astype(str).where(labels.notna(), None)
+    names = None if classes is None else [str(c) for c in classes]
+    if names is not None:
+        text = text.where(text.isin(names), None)
+    cat = pd.Categorical(text.to_numpy(dtype=object), categories=names)
+    return cat.codes.astype(np.int64), [str(c) for c in cat.categories]
 
 
 def fit_discriminant(
@@ -322,8 +316,8 @@ def fit_discriminant(
         Orthonormal contrasts of the ilr coordinates (default: the pivot
         basis); the assignments do not depend on it.
     classes : sequence of str, optional
-        The groups, in the order of their codes (default: the sorted labels,
-        or the categories of a categorical). Labels not listed take no part.
+        The groups, in the order of their codes (default: the labels, sorted).
+        Rows whose label is not listed take no part.
     min_group_rows : int, optional
         Groups with fewer rows are left out (named in ``left_out``); default
         :func:`default_min_group_rows` with 5 folds.
