@@ -1,11 +1,12 @@
 """compwidgets: linked Jupyter widgets for exploring compositional data.
 
-Quick start::
+Quick start (in a notebook; display ``bench`` in a cell to see the linked views):
 
-    import compwidgets as cw
-    bench = cw.explore(cw.demo.stream_sediments())   # a linked workbench
-    bench                                            # display it in a notebook
-    bench.model.select_labels([...])                 # keep working in code
+>>> import compwidgets as cw
+>>> bench = cw.explore(cw.demo.stream_sediments())  # a linked workbench
+>>> bench.model.select_labels(bench.model.index[:5])  # keep working in code
+>>> int(bench.model.selection.size)
+5
 
 The maths lives in :mod:`compwidgets.core` (pure numpy / scipy / pandas).
 Widget modules are imported lazily, so ``import compwidgets.core`` pulls in no

@@ -21,10 +21,18 @@ validated methods and local practice, not on this rule alone.
 
 Example
 -------
->>> rule = GroupDiscriminant(model)                 # the model's groups, active parts
->>> rule.confusion_frame()                          # cross-validated counts
->>> rule.classify(new_table)                        # group, posteriors, far flag
->>> pipe = rule.pipeline()                          # scikit-learn Pipeline
+>>> import compwidgets as cw
+>>> table = cw.demo.stream_sediments(n=400)  # invented survey, five catchments
+>>> model = cw.CompositionModel(cw.read_composition(table), group_column="catchment")
+>>> model.active_parts = ["SiO2", "Al2O3", "MgO", "CaO", "Na2O", "K2O"]
+>>> rule = GroupDiscriminant(model)  # the model's groups, on its active parts
+>>> rule.confusion_frame().shape  # cross-validated counts, true x assigned
+(5, 5)
+>>> new = rule.classify(cw.demo.stream_sediments(n=5, seed=3))  # read like the survey
+>>> list(new.columns[:6])
+['group', 'posterior', 'far', 'distance', 'nearest', 'note']
+>>> rule.pipeline().named_steps["balances"]  # doctest: +ELLIPSIS
+BalanceTransformer(...)
 """
 
 from __future__ import annotations

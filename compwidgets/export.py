@@ -21,8 +21,16 @@ The JSON document (format ``"compwidgets-sbp"``, version 1)::
       "amalgamations": {"FeOt": ["FeO", "Fe2O3"]}  # the amalgamated parts among "parts"
     }
 
-Reading it uses :func:`json.load` only (no pickle, no eval) and checks every key.
-All numbers come from :mod:`compwidgets.core`; this module only arranges them.
+Reading it uses :mod:`json` only (no pickle, no eval) and checks every key at every
+level (the top, each balance, each tree node, the replacement block, the
+amalgamations): a key it does not know, a key given twice, a value of the wrong
+type, a document larger than :data:`MAX_DOCUMENT_BYTES` or nested deeper than
+:data:`MAX_DEPTH` is refused with a :class:`DocumentError` naming it.
+
+This module reads the model through its public API and changes it only with
+:meth:`CompositionModel.set_partition`; the model never imports this module. All
+numbers come from :mod:`compwidgets.core`; this module only arranges them. Every
+refusal is an :class:`ExportError`, a :class:`compwidgets.core.CompositionError`.
 """
 
 from __future__ import annotations
@@ -36,17 +44,28 @@ import numpy as np
 import pandas as pd
 
 from . import core
-from .core.tree import leaf_groups, sbp_to_tree, tree_to_sbp, validate_tree
+from .core.tree import sbp_to_tree, tree_to_sbp, validate_tree
 
 FORMAT = "compwidgets-sbp"
 VERSION = 1
 _REQUIRED = ("format", "version", "parts", "tree", "balances")
 _OPTIONAL = ("unit", "replacement", "amalgamations")
+_BALANCE_KEYS = ("name", "numerator", "denominator")
 #: Intake settings copied into the document's "replacement" entry (when present).
 _REPLACEMENT_KEYS = ("replacement", "fraction", "detection_limits", "negative_is_below_detection")
+#: The keys of the "replacement" entry (intake's "replacement" is written as "strategy").
+_REPLACEMENT_ENTRY = ("strategy", "fraction", "detection_limits", "negative_is_below_detection")
+#: Largest document read (bytes of a file; a chain of splits over 200 parts, written with
+#: indentation, takes about 7.5 MB).
+MAX_DOCUMENT_BYTES = 16_000_000
+#: Deepest nesting of JSON objects and lists read (a chain of splits over D parts nests
+#: about 2 D deep, so this allows partitions of 200 parts in any shape).
+MAX_DEPTH = 400
+#: Most JSON values (objects, lists, strings, numbers) a document given as a dict may hold.
+MAX_VALUES = 500_000
 
 
-class ExportError(ValueError):
+class ExportError(core.CompositionError):
     """An export that cannot be made as asked (e.g. no SBP, or a partial one)."""
 
 
@@ -55,15 +74,20 @@ class DocumentError(ExportError):
 
 
 # ------------------------------------------------------------------ frames
-def _require_sbp(model) -> np.ndarray:
-    if model.sbp is None:
-        raise ExportError("no SBP is set; build one in the balance builder or call set_sbp")
-    return model.sbp
+def _require_sbp(model, complete: bool = False, hint: str = "") -> np.ndarray:
+    """The model's SBP (``core.require_sbp``); its refusal becomes an :class:`ExportError`."""
+    try:
+        return core.require_sbp(model.sbp, model.active_parts, complete=complete)
+    except core.SBPError as err:
+        raise ExportError(f"{err}{hint}") from None
 
 
-def _open_groups(sbp: np.ndarray, parts: list[str]) -> list[list[str]]:
-    """Groups of a partial SBP still to be split."""
-    return [g for g in leaf_groups(sbp_to_tree(sbp, parts)) if len(g) > 1]
+def _as_export_error(method, *args, **kwargs):
+    """Call a table method of the model; its refusal becomes an :class:`ExportError`."""
+    try:
+        return method(*args, **kwargs)
+    except core.CompositionError as err:
+        raise ExportError(str(err)) from None
 
 
 def ilr_frame(
@@ -72,26 +96,13 @@ def ilr_frame(
     include_selection: bool = False,
     require_complete: bool = True,
 ) -> pd.DataFrame:
-    """Balances of the model's SBP as a DataFrame, one row per row of the table.
+    """Balances of the model's SBP as a DataFrame (:meth:`CompositionModel.ilr_frame`).
 
     Parameters
     ----------
     model : CompositionModel
-    include_metadata : bool, default False
-        Put the metadata columns first.
-    include_selection : bool, default False
-        Add a boolean ``"selected"`` column (after the metadata).
-    require_complete : bool, default True
-        Raise for a partial SBP (fewer than D-1 balances). With False a
-        partial SBP gives its balances.
-
-    Returns
-    -------
-    DataFrame
-        Index = the table's original index; one column per balance, named as
-        ``model.balance_names``. Every row of the table is there: rows with a
-        missing or non-positive value in an active part have NaN balances
-        (nothing is dropped; ``model.complete_rows()`` marks the others).
+    include_metadata, include_selection, require_complete : bool
+        As for :meth:`CompositionModel.ilr_frame`.
 
     Raises
     ------
@@ -99,54 +110,20 @@ def ilr_frame(
         No SBP; a partial SBP with ``require_complete``; a balance name that
         is also a metadata column (or ``"selected"``).
     """
-    sbp = _require_sbp(model)
-    parts = list(model.active_parts)
-    if require_complete and sbp.shape[0] != len(parts) - 1:
-        groups = "; ".join("{" + ", ".join(g) + "}" for g in _open_groups(sbp, parts))
-        raise ExportError(
-            f"the SBP is partial: {sbp.shape[0]} of {len(parts) - 1} balances; groups still to "
-            f"split: {groups}. Finish it, or pass require_complete=False"
-        )
-    names = list(model.balance_names)
-    frame = pd.DataFrame(np.array(model.balances()), index=model.index.copy(), columns=names)
-    pieces = []
-    if include_metadata:
-        pieces.append(model.metadata)
-    if include_selection:
-        pieces.append(pd.DataFrame({"selected": model.selected_mask().copy()}, index=frame.index))
-    if pieces:
-        front = pd.concat(pieces, axis=1)
-        clash = [c for c in front.columns if c in set(names)]
-        if clash:
-            raise ExportError(
-                f"balance name(s) {clash} are also metadata/selection column names; "
-                "rename the balances"
-            )
-        frame = pd.concat([front, frame], axis=1)
-    return frame
+    _require_sbp(model, require_complete, " (or pass require_complete=False)")
+    return _as_export_error(model.ilr_frame, include_metadata, include_selection, require_complete)
 
 
 def sbp_frame(model) -> pd.DataFrame:
-    """The signed SBP: balances as rows (index = names), active parts as columns, +1/-1/0."""
-    sbp = _require_sbp(model)
-    return pd.DataFrame(
-        sbp.astype(int),
-        index=pd.Index(list(model.balance_names), name="balance"),
-        columns=pd.Index(list(model.active_parts), name="part"),
-    )
+    """The signed SBP, balances as rows (:meth:`CompositionModel.sbp_frame`)."""
+    _require_sbp(model)
+    return _as_export_error(model.sbp_frame)
 
 
 def contrast_frame(model) -> pd.DataFrame:
-    """Orthonormal contrasts of the SBP (``core.sbp_basis``), shaped as :func:`sbp_frame`.
-
-    Each row sums to zero and has unit length; ``clr(x) @ row`` is the balance.
-    """
-    sbp = _require_sbp(model)
-    return pd.DataFrame(
-        core.sbp_basis(sbp, complete=False),
-        index=pd.Index(list(model.balance_names), name="balance"),
-        columns=pd.Index(list(model.active_parts), name="part"),
-    )
+    """Orthonormal contrasts of the SBP (:meth:`CompositionModel.contrast_frame`)."""
+    _require_sbp(model)
+    return _as_export_error(model.contrast_frame)
 
 
 # -------------------------------------------------------------- CSV files
@@ -290,19 +267,79 @@ def _reject_constant(name: str):
     raise DocumentError(f"SBP document: {name} is not a number JSON allows")
 
 
+def _unique_keys(pairs: list) -> dict:
+    """``object_pairs_hook`` of the reader: a key given twice in one object is refused."""
+    out: dict = {}
+    for key, value in pairs:
+        if key in out:
+            raise DocumentError(f"SBP document: the key {key!r} is given twice in one object")
+        out[key] = value
+    return out
+
+
+def _plain_copy(doc) -> dict:
+    """A checked copy of a document given as a dict: JSON types only, bounded in size and depth.
+
+    Walks without recursion, so no nesting (or a dict that contains itself) can
+    exhaust the stack; the copy means the caller's dict is never kept or changed.
+    """
+    if not isinstance(doc, dict):
+        raise DocumentError("SBP document: expected a JSON object at the top")
+    root: dict = {}
+    stack = [(doc, root, 1, "the document")]
+    count = 0
+    while stack:
+        source, target, depth, where = stack.pop()
+        if depth > MAX_DEPTH:
+            raise DocumentError(
+                f"SBP document: nested deeper than {MAX_DEPTH} levels (at {where}); "
+                "not a partition this reader takes"
+            )
+        items = source.items() if isinstance(source, dict) else enumerate(source)
+        for key, value in items:
+            count += 1
+            if count > MAX_VALUES:
+                raise DocumentError(f"SBP document: more than {MAX_VALUES} values; too large")
+            if isinstance(source, dict) and not isinstance(key, str):
+                raise DocumentError(f"SBP document: key {key!r} in {where} is not a string")
+            inner = f"{where} / {key!r}"
+            if isinstance(value, (dict, list)):
+                copy = {} if isinstance(value, dict) else [None] * len(value)
+                stack.append((value, copy, depth + 1, inner))
+            elif value is None or isinstance(value, (str, bool, int)):
+                copy = value
+            elif isinstance(value, float) and np.isfinite(value):
+                copy = value
+            else:
+                raise DocumentError(
+                    f"SBP document: {inner} holds {value!r} ({type(value).__name__}), which "
+                    "is not a JSON value (text, finite number, true/false, null, list, object)"
+                )
+            target[key] = copy
+    return root
+
+
 def _read(path_or_dict) -> dict:
     if isinstance(path_or_dict, dict):
-        return path_or_dict
+        return _plain_copy(path_or_dict)
     if not isinstance(path_or_dict, (str, os.PathLike)):
         raise DocumentError(
             f"load_sbp: expected a path or a dict, got {type(path_or_dict).__name__}"
         )
     path = Path(path_or_dict)
     try:
-        with path.open(encoding="utf-8") as handle:
-            doc = json.load(handle, parse_constant=_reject_constant)
+        size = path.stat().st_size
+        if size > MAX_DOCUMENT_BYTES:
+            raise DocumentError(
+                f"SBP document {path.name}: {size:,} bytes; documents of more than "
+                f"{MAX_DOCUMENT_BYTES:,} bytes are not read"
+            )
+        text = path.read_bytes().decode("utf-8")
+        doc = json.loads(text, parse_constant=_reject_constant, object_pairs_hook=_unique_keys)
     except FileNotFoundError:
         raise DocumentError(f"SBP document: no file {str(path)!r}") from None
+    except IsADirectoryError:
+        raise DocumentError(f"SBP document: {str(path)!r} is a folder, not a file") from None
     except UnicodeDecodeError as err:
         raise DocumentError(f"SBP document {path.name}: not UTF-8 text ({err})") from None
     except json.JSONDecodeError as err:
@@ -310,9 +347,13 @@ def _read(path_or_dict) -> dict:
             f"SBP document {path.name}: not valid JSON (line {err.lineno}, column {err.colno}: "
             f"{err.msg})"
         ) from None
+    except RecursionError:
+        raise DocumentError(
+            f"SBP document {path.name}: nested too deeply to be a partition"
+        ) from None
     if not isinstance(doc, dict):
         raise DocumentError(f"SBP document {path.name}: expected a JSON object at the top")
-    return doc
+    return _plain_copy(doc)  # the same bounds as for a dict
 
 
 def _string_list(value, what: str) -> list[str]:
@@ -321,15 +362,117 @@ def _string_list(value, what: str) -> list[str]:
     return list(value)
 
 
+def _known_keys(entry: dict, allowed, what: str) -> None:
+    unknown = [k for k in entry if k not in allowed]
+    if unknown:
+        raise DocumentError(
+            f"SBP document: unknown key(s) {', '.join(map(repr, unknown))} in {what}; "
+            f"known: {', '.join(allowed)}"
+        )
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _read_replacement(block) -> dict:
+    """The "replacement" entry: how values below detection were replaced (checked key by key)."""
+    if not isinstance(block, dict):
+        raise DocumentError("SBP document: 'replacement' must be an object")
+    _known_keys(block, _REPLACEMENT_ENTRY, "'replacement'")
+    if "strategy" in block and not isinstance(block["strategy"], str):
+        raise DocumentError("SBP document: 'replacement' / 'strategy' must be a string")
+    if "fraction" in block and block["fraction"] is not None:
+        if not _is_number(block["fraction"]) or not 0 < block["fraction"] < 1:
+            raise DocumentError(
+                "SBP document: 'replacement' / 'fraction' must be a number between 0 and 1, "
+                f"got {block['fraction']!r}"
+            )
+    limits = block.get("detection_limits")
+    if limits is not None and not _is_number(limits):
+        if not isinstance(limits, dict) or not all(_is_number(v) for v in limits.values()):
+            raise DocumentError(
+                "SBP document: 'replacement' / 'detection_limits' must be a number or an "
+                "object of part -> number"
+            )
+    negative = block.get("negative_is_below_detection")
+    if negative is not None and not isinstance(negative, bool):
+        raise DocumentError(
+            "SBP document: 'replacement' / 'negative_is_below_detection' must be true or false"
+        )
+    return block
+
+
+def _read_balances(balances, parts: list[str]) -> tuple[list[np.ndarray], list[str]]:
+    if not isinstance(balances, list) or not balances:
+        raise DocumentError("SBP document: 'balances' must be a non-empty list")
+    rows, names = [], []
+    column = {p: j for j, p in enumerate(parts)}
+    for k, entry in enumerate(balances, start=1):
+        if not isinstance(entry, dict) or set(entry) != set(_BALANCE_KEYS):
+            got = f" (keys {', '.join(map(repr, entry))})" if isinstance(entry, dict) else ""
+            raise DocumentError(
+                f"SBP document: balance {k} must be an object with keys name, numerator, "
+                f"denominator{got}"
+            )
+        if not isinstance(entry["name"], str):
+            raise DocumentError(f"SBP document: balance {k}: 'name' must be a string")
+        num = _string_list(entry["numerator"], f"balance {k} ({entry['name']!r}) numerator")
+        den = _string_list(entry["denominator"], f"balance {k} ({entry['name']!r}) denominator")
+        strangers = [p for p in num + den if p not in column]
+        if strangers:
+            raise DocumentError(
+                f"SBP document: balance {k} ({entry['name']!r}) uses part(s) "
+                f"{', '.join(strangers)} that are not in 'parts'"
+            )
+        twice = sorted({p for p in num + den if (num + den).count(p) > 1})
+        if twice:
+            raise DocumentError(
+                f"SBP document: balance {k} ({entry['name']!r}) lists part(s) "
+                f"{', '.join(twice)} twice"
+            )
+        row = np.zeros(len(parts), dtype=np.int8)
+        row[[column[p] for p in num]] = 1
+        row[[column[p] for p in den]] = -1
+        rows.append(row)
+        names.append(entry["name"])
+    return rows, names
+
+
+def _read_amalgamations(block, parts: list[str]) -> dict:
+    if not isinstance(block, dict):
+        raise DocumentError("SBP document: 'amalgamations' must be an object")
+    out = {}
+    for name, members in block.items():
+        if name not in parts:
+            raise DocumentError(
+                f"SBP document: amalgamation {name!r} is not one of 'parts' "
+                "(only the amalgamations among the parts are written)"
+            )
+        members = _string_list(members, f"amalgamation {name!r}")
+        if not members:
+            raise DocumentError(f"SBP document: amalgamation {name!r} has no members")
+        out[name] = members
+    return out
+
+
 def read_document(path_or_dict) -> LoadedSBP:
     """Read and check an SBP document (path or dict) without applying it.
 
     Raises
     ------
     DocumentError
-        Wrong format or version, missing or unknown keys, wrong types,
-        a tree or balances inconsistent with the parts or with each other.
+        Wrong format or version; missing, unknown or repeated keys at any level;
+        wrong types; a document too large or nested too deeply; a tree or
+        balances inconsistent with the parts or with each other.
     """
+    try:
+        return _read_document(path_or_dict)
+    except RecursionError:  # the bounds above should make this impossible; never leak it
+        raise DocumentError("SBP document: nested too deeply to be a partition") from None
+
+
+def _read_document(path_or_dict) -> LoadedSBP:
     doc = _read(path_or_dict)
     if doc.get("format") != FORMAT:
         raise DocumentError(
@@ -355,38 +498,7 @@ def read_document(path_or_dict) -> LoadedSBP:
         tree_rows, tree_names, _ = tree_to_sbp(doc["tree"], parts)
     except core.SBPError as err:
         raise DocumentError(f"SBP document: 'tree' does not fit 'parts': {err}") from None
-    balances = doc["balances"]
-    if not isinstance(balances, list) or not balances:
-        raise DocumentError("SBP document: 'balances' must be a non-empty list")
-    rows, names = [], []
-    column = {p: j for j, p in enumerate(parts)}
-    for k, entry in enumerate(balances, start=1):
-        if not isinstance(entry, dict) or set(entry) != {"name", "numerator", "denominator"}:
-            raise DocumentError(
-                f"SBP document: balance {k} must be an object with keys name, numerator, "
-                "denominator"
-            )
-        if not isinstance(entry["name"], str):
-            raise DocumentError(f"SBP document: balance {k}: 'name' must be a string")
-        num = _string_list(entry["numerator"], f"balance {k} ({entry['name']!r}) numerator")
-        den = _string_list(entry["denominator"], f"balance {k} ({entry['name']!r}) denominator")
-        strangers = [p for p in num + den if p not in column]
-        if strangers:
-            raise DocumentError(
-                f"SBP document: balance {k} ({entry['name']!r}) uses part(s) "
-                f"{', '.join(strangers)} that are not in 'parts'"
-            )
-        twice = sorted({p for p in num + den if (num + den).count(p) > 1})
-        if twice:
-            raise DocumentError(
-                f"SBP document: balance {k} ({entry['name']!r}) lists part(s) "
-                f"{', '.join(twice)} twice"
-            )
-        row = np.zeros(len(parts), dtype=np.int8)
-        row[[column[p] for p in num]] = 1
-        row[[column[p] for p in den]] = -1
-        rows.append(row)
-        names.append(entry["name"])
+    rows, names = _read_balances(doc["balances"], parts)
     try:
         sbp = core.validate_sbp(np.array(rows), parts, complete=False)
     except core.SBPError as err:
@@ -400,18 +512,11 @@ def read_document(path_or_dict) -> LoadedSBP:
                 f"SBP document: balance {k} is named {name!r} but its tree node "
                 f"{by_split[row.tobytes()]!r}"
             )
-    amalgamations = doc.get("amalgamations", {})
-    if not isinstance(amalgamations, dict):
-        raise DocumentError("SBP document: 'amalgamations' must be an object")
-    amalgamations = {
-        str(k): _string_list(v, f"amalgamation {k!r}") for k, v in amalgamations.items()
-    }
+    amalgamations = _read_amalgamations(doc.get("amalgamations", {}), parts)
     unit = doc.get("unit")
     if unit is not None and not isinstance(unit, str):
         raise DocumentError("SBP document: 'unit' must be a string")
-    replacement = doc.get("replacement", {})
-    if not isinstance(replacement, dict):
-        raise DocumentError("SBP document: 'replacement' must be an object")
+    replacement = _read_replacement(doc.get("replacement", {}))
     return LoadedSBP(parts, sbp, names, doc["tree"], amalgamations, unit, replacement)
 
 
@@ -421,11 +526,12 @@ def load_sbp(model_or_parts, path_or_dict) -> LoadedSBP:
     Parameters
     ----------
     model_or_parts : CompositionModel or sequence of str
-        A model: its active parts (and needed amalgamations) are set to the
-        document's and its SBP and names are rebuilt (``model.set_sbp``).
-        A list of part names: only checked against, nothing applied.
+        A model: its active parts (and needed amalgamations) become the
+        document's and its SBP and names are rebuilt, in one change
+        (:meth:`CompositionModel.set_partition`). A list of part names: only
+        checked against, nothing applied.
     path_or_dict : path or dict
-        The document (read with :func:`json.load`; no pickle, no eval).
+        The document (read with :mod:`json`; no pickle, no eval).
 
     Returns
     -------
@@ -440,42 +546,33 @@ def load_sbp(model_or_parts, path_or_dict) -> LoadedSBP:
         (``"parts not in this table: Cr2O3, V"``). The model is left unchanged.
     """
     loaded = read_document(path_or_dict)
-    is_model = hasattr(model_or_parts, "set_sbp")
+    is_model = hasattr(model_or_parts, "set_partition")
     if is_model:
-        model = model_or_parts
-        table_parts = list(model.parts)
-        known = set(model.available_parts)  # parts and the model's own amalgamations
-        current_amalgamations = dict(model.amalgamations)
+        table_parts = list(model_or_parts.parts)
+        known = set(model_or_parts.available_parts)  # parts and the model's own amalgamations
     else:
         if isinstance(model_or_parts, str):
             raise DocumentError("load_sbp: give a model or a list of part names, not a string")
         table_parts = [str(p) for p in model_or_parts]
         known = set(table_parts)
-        current_amalgamations = {}
     needed = {p: loaded.amalgamations[p] for p in loaded.parts if p in loaded.amalgamations}
     members = [m for group in needed.values() for m in group]
     absent = [m for m in dict.fromkeys(members) if m not in table_parts]
     absent += [p for p in loaded.parts if p not in needed and p not in known and p not in absent]
     if absent:
         raise DocumentError(f"parts not in this table: {', '.join(absent)}")
-    clash = [
-        name
-        for name, group in needed.items()
-        if name in current_amalgamations and list(current_amalgamations[name]) != list(group)
-    ]
-    if clash:
-        raise DocumentError(
-            f"amalgamation(s) {', '.join(clash)} are defined differently in this model"
-        )
-    loaded.notes = _notes(loaded, model_or_parts if is_model else None)
     if is_model:
-        _apply(model, loaded, needed, current_amalgamations)
+        loaded.notes = _notes(loaded, model_or_parts)
+        try:
+            model_or_parts.set_partition(loaded.sbp, loaded.parts, loaded.names, needed)
+        except core.CompositionError as err:
+            raise DocumentError(
+                f"the SBP document could not be applied to this model: {err}"
+            ) from None
     return loaded
 
 
 def _notes(loaded: LoadedSBP, model) -> list[str]:
-    if model is None:
-        return []
     notes = []
     unit = str(getattr(model.composition, "unit", ""))
     if loaded.unit and unit and loaded.unit != unit:
@@ -486,27 +583,3 @@ def _notes(loaded: LoadedSBP, model) -> list[str]:
     if made is not None and here is not None and made != here:
         notes.append(f"values below detection were replaced with {made!r} there and {here!r} here")
     return notes
-
-
-def _apply(model, loaded: LoadedSBP, needed: dict, current: dict) -> None:
-    """Set amalgamations, active parts and SBP; restore the model if a step fails.
-
-    Done one step at a time (not under ``hold_trait_notifications``): the
-    model drops its SBP when the active parts change, which must happen
-    before the new SBP is set.
-    """
-    saved = (dict(current), list(model.active_parts), model.sbp, list(model.balance_names))
-    try:
-        if any(name not in current for name in needed):
-            model.amalgamations = {**current, **needed}
-        if list(model.active_parts) != list(loaded.parts):
-            model.active_parts = list(loaded.parts)
-        model.set_sbp(loaded.sbp, loaded.names)
-    except Exception as err:
-        if dict(model.amalgamations) != saved[0]:
-            model.amalgamations = saved[0]
-        if list(model.active_parts) != saved[1]:
-            model.active_parts = saved[1]
-        if saved[2] is not None:
-            model.set_sbp(saved[2], saved[3])
-        raise DocumentError(f"the SBP document could not be applied to this model: {err}") from err

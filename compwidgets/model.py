@@ -27,19 +27,69 @@ from .composition import Composition
 _EMPTY = np.zeros(0, dtype=np.uint32)
 
 
-class ModelError(ValueError):
-    """An invalid change to the model (the model is left unchanged)."""
+class ModelError(core.CompositionError, t.TraitError):
+    """An invalid change to the model (the model is left unchanged).
 
-
-class _RowPositions(t.Instance):
-    """An ndarray trait that does not notify when an equal array is assigned.
-
-    traitlets compares old and new values with ``==``, which for arrays is
-    element-wise and so always counts as a change.
+    A :class:`compwidgets.core.CompositionError` (so a ``ValueError``): one
+    ``except CompositionError`` catches every refusal, wherever it enters. It is
+    also a ``traitlets.TraitError``, which traitlets needs to undo a batch of
+    changes made under ``hold_trait_notifications``.
     """
 
-    def __init__(self, **kwargs):
-        super().__init__(np.ndarray, **kwargs)
+
+class _NotAComposition(core.CompositionError, TypeError):
+    """The model was given something other than a Composition."""
+
+
+def _checked(rule, *args, **kwargs):
+    """Call one of the :mod:`compwidgets.core` rules; its refusal becomes a :class:`ModelError`."""
+    try:
+        return rule(*args, **kwargs)
+    except ModelError:
+        raise
+    except core.CompositionError as err:
+        raise ModelError(str(err)) from None
+
+
+class _Refusing:
+    """Mixin for the model's traits: a value of the wrong type raises :class:`ModelError`."""
+
+    def error(self, obj, value, error=None, info=None):
+        try:
+            super().error(obj, value, error, info)
+        except ModelError:
+            raise
+        except t.TraitError as err:
+            raise ModelError(*err.args) from None
+
+
+class _List(_Refusing, t.List):
+    pass
+
+
+class _Dict(_Refusing, t.Dict):
+    pass
+
+
+class _Text(_Refusing, t.Unicode):
+    pass
+
+
+class _Count(_Refusing, t.Int):
+    pass
+
+
+class _RowPositions(_Refusing, t.TraitType):
+    """Row positions: any 1-D integer array-like or boolean mask, stored as sorted unique uint32.
+
+    Assigning an equal set of rows does not notify (traitlets compares old and new
+    values with ``==``, which for arrays is element-wise and so always a change).
+    """
+
+    info_text = "row positions (1-D integers in 0..n-1) or a boolean mask of n values"
+
+    def validate(self, obj, value):
+        return obj._as_positions(value)
 
     def set(self, obj, value):
         new = self._validate(obj, value)
@@ -50,8 +100,54 @@ class _RowPositions(t.Instance):
         obj._notify_trait(self.name, old, new)
 
 
+class _Partition(_Refusing, t.TraitType):
+    """The SBP: None, or a read-only int8 matrix (balances x active parts).
+
+    Any array-like or DataFrame may be assigned; the model's validator checks it
+    against the active parts (a DataFrame by its column labels). Assigning an
+    equal matrix does not notify.
+    """
+
+    default_value = None
+    allow_none = True
+    info_text = "an SBP matrix (balances x active parts) or None"
+
+    def set(self, obj, value):
+        new = self._validate(obj, value)
+        old = obj._trait_values.get(self.name, self.default_value)
+        same = (
+            isinstance(old, np.ndarray)
+            and isinstance(new, np.ndarray)
+            and old.shape == new.shape
+            and np.array_equal(old, new)
+        )
+        if same:  # nothing to announce; it now stands over the current parts
+            obj._sbp_for = _sbp_key(old, obj.active_parts)
+            return
+        if old is None and new is None:
+            return
+        obj._trait_values[self.name] = new
+        obj._notify_trait(self.name, old, new)
+
+
+def _sbp_key(sbp: np.ndarray, parts) -> tuple:
+    """What an SBP means: its matrix and the parts its columns are."""
+    return (sbp.shape, sbp.tobytes(), tuple(parts))
+
+
+def _frame_names(sbp) -> list[str] | None:
+    """Balance names carried by the index of an SBP table (as :func:`export.sbp_frame` writes)."""
+    if isinstance(sbp, pd.DataFrame) and not isinstance(sbp.index, pd.RangeIndex):
+        if all(isinstance(n, str) for n in sbp.index):
+            return list(sbp.index)
+    return None
+
+
 class CompositionModel(t.HasTraits):
     """Shared state of a compwidgets workbench.
+
+    Every refused change raises :class:`ModelError`, a
+    :class:`compwidgets.core.CompositionError`, and leaves the model unchanged.
 
     Parameters
     ----------
@@ -65,31 +161,36 @@ class CompositionModel(t.HasTraits):
     Traits (observe them with ``model.observe(handler, names=[...])``)
     ------
     active_parts : list of str
-        Parts (or amalgamation names) under study; at least 2.
+        Parts (or amalgamation names) under study; at least 2, distinct, no part
+        of the table counted twice (``core.check_parts``).
     amalgamations : dict of str -> list of str
         New parts defined as sums of parts of the composition.
     selection : ndarray of uint32
-        Sorted unique row positions; assigning an equal array does not notify.
+        Sorted unique row positions; row positions in any order (repeats count
+        once) or a boolean mask may be assigned; an equal set of rows does not notify.
     group_column : str
         Metadata column for colours ("" = no grouping).
     sbp : ndarray of int8 or None
-        Signed SBP matrix (D-1, D) over ``active_parts``.
+        Signed SBP matrix (k, D) over ``active_parts`` (read-only; ``core.check_sbp``).
+        Prefer :meth:`set_sbp`; a matrix or SBP table assigned directly is checked
+        the same way and gets the default balance names. A change of the active
+        parts drops it.
     balance_names : list of str
-        One name per SBP row.
+        One distinct name per SBP row (``""`` assigned = the default name).
     colour_by : str
         "" to colour by ``group_column``; a balance name to colour by its value.
     metadata_version : int
         Incremented when a column is added to the metadata (e.g. a group made from a selection).
     """
 
-    active_parts = t.List(t.Unicode())
-    amalgamations = t.Dict()
+    active_parts = _List(t.Unicode())
+    amalgamations = _Dict()
     selection = _RowPositions()
-    group_column = t.Unicode("")
-    sbp = t.Instance(np.ndarray, allow_none=True, default_value=None)
-    balance_names = t.List(t.Unicode())
-    colour_by = t.Unicode("")
-    metadata_version = t.Int(0)
+    group_column = _Text("")
+    sbp = _Partition()
+    balance_names = _List(t.Unicode())
+    colour_by = _Text("")
+    metadata_version = _Count(0)
 
     #: How many derived matrices the cache keeps (closed, clr, ilr per set of parts).
     cache_size = 24
@@ -102,7 +203,7 @@ class CompositionModel(t.HasTraits):
         **kwargs,
     ):
         if not isinstance(composition, Composition):
-            raise TypeError(
+            raise _NotAComposition(
                 "CompositionModel needs a Composition; build one with "
                 f"compwidgets.read_composition (got {type(composition).__name__})"
             )
@@ -110,8 +211,14 @@ class CompositionModel(t.HasTraits):
         self._extra_metadata = pd.DataFrame(index=composition.values.index)
         self._cache: OrderedDict = OrderedDict()
         self._selected_mask: np.ndarray | None = None
+        self._sbp_for: tuple | None = None  # what the current SBP was checked against
+        self._named: tuple | None = None  # (SBP key, names) last given for an SBP
         super().__init__(selection=_EMPTY.copy(), **kwargs)
-        self.active_parts = list(active_parts) if active_parts is not None else composition.parts
+        if active_parts is None:
+            active_parts = composition.parts
+        elif not isinstance(active_parts, str):
+            active_parts = list(active_parts)
+        self.active_parts = active_parts
         if group_column:
             self.group_column = group_column
 
@@ -146,58 +253,46 @@ class CompositionModel(t.HasTraits):
         return self._cache[key]
 
     # ------------------------------------------------------------ validation
+    # Every rule is asked of compwidgets.core (core.rules); these validators only
+    # turn its refusals into ModelError.
+    def _valid_amalgamations(self, value, active: Sequence[str]) -> dict:
+        """Checked amalgamations; with them, ``active`` must not count a part twice."""
+        groups = dict(value)
+        for name, members in groups.items():
+            named = not isinstance(members, (str, bytes)) and isinstance(members, Sequence)
+            if not named or not all(isinstance(m, str) for m in members):
+                raise ModelError(
+                    f"amalgamation {name!r}: give a list of part names, got {members!r}"
+                )
+        if groups:
+            _checked(core.subcomp.check_amalgamations, groups, self.parts)
+        groups = {k: [str(m) for m in v] for k, v in groups.items()}
+        clash = [g for g in groups if g in self.parts]
+        if clash:
+            raise ModelError(f"amalgamation name(s) {clash} already name a part")
+        # redefining an active amalgamation must not count a part twice
+        active = [p for p in active if p in self.parts or p in groups]
+        try:
+            core.check_parts(active, self.parts, groups, count=len(active))
+        except core.CompositionError as err:
+            raise ModelError(
+                f"with these amalgamations, {err}; change the active parts first"
+            ) from None
+        return groups
+
     @t.validate("active_parts")
     def _check_active(self, proposal):
-        parts = list(proposal["value"])
-        known = set(self.available_parts)
-        unknown = [p for p in parts if p not in known]
-        if unknown:
-            raise t.TraitError(
-                f"unknown part(s) {unknown}; available: {', '.join(self.available_parts)}"
-            )
-        if len(parts) < 2:
-            raise t.TraitError(f"at least 2 active parts are needed, got {parts}")
-        if len(set(parts)) != len(parts):
-            raise t.TraitError(f"a part is listed twice in {parts}")
-        members = [m for p in parts for m in self.members(p)]
-        if len(set(members)) != len(members):
-            raise t.TraitError(
-                "an amalgamation shares parts with another active part; "
-                f"active parts {parts} would count a part twice"
-            )
-        return parts
+        return _checked(core.check_parts, proposal["value"], self.parts, self.amalgamations)
 
     @t.validate("amalgamations")
     def _check_amalgamations(self, proposal):
-        groups = {str(k): [str(m) for m in v] for k, v in dict(proposal["value"]).items()}
-        if groups:
-            try:
-                core.subcomp.check_amalgamations(groups, self.parts)
-            except core.CompositionError as err:
-                raise t.TraitError(str(err)) from None
-        clash = [g for g in groups if g in self.parts]
-        if clash:
-            raise t.TraitError(f"amalgamation name(s) {clash} already name a part")
-        # redefining an active amalgamation must not count a part twice
-        active = [p for p in self.active_parts if p in self.parts or p in groups]
-        members = [m for p in active for m in (groups[p] if p in groups else [p])]
-        twice = sorted({m for m in members if members.count(m) > 1})
-        if twice:
-            raise t.TraitError(
-                f"with these amalgamations the active parts {active} would count "
-                f"{', '.join(twice)} twice; change the active parts first"
-            )
-        return groups
-
-    @t.validate("selection")
-    def _check_selection(self, proposal):
-        return self._as_positions(proposal["value"])
+        return self._valid_amalgamations(proposal["value"], self.active_parts)
 
     @t.validate("group_column")
     def _check_group(self, proposal):
         name = proposal["value"]
         if name and name not in self.metadata.columns:
-            raise t.TraitError(
+            raise ModelError(
                 f"unknown grouping column {name!r}; metadata columns: "
                 f"{', '.join(map(str, self.metadata.columns))}"
             )
@@ -208,19 +303,76 @@ class CompositionModel(t.HasTraits):
         value = proposal["value"]
         if value is None:
             return None
-        try:
-            return core.validate_sbp(value, self.active_parts, complete=False)
-        except core.CompositionError as err:
-            raise t.TraitError(str(err)) from None
+        S = _checked(core.check_sbp, value, self.active_parts, complete=False)
+        S.flags.writeable = False
+        self._sbp_for = _sbp_key(S, self.active_parts)
+        return S
+
+    @t.validate("balance_names")
+    def _check_balance_names(self, proposal):
+        names = list(proposal["value"])
+        if self.sbp is None:
+            if names:
+                raise ModelError(f"balance names {names} need an SBP; {core.rules.NO_SBP}")
+            return []
+        return self._valid_names(names, self.sbp, self.active_parts)
+
+    def _valid_names(self, names, sbp, parts) -> list[str]:
+        """Checked balance names (``core.check_balance_names``), none a column of the table.
+
+        A balance named like a part or a metadata column could not sit next to it in
+        the exports (``export.ilr_frame(include_metadata=True)``, the selected-rows CSV).
+        """
+        names = _checked(core.check_balance_names, names, sbp, parts)
+        taken = set(self.parts) | {str(c) for c in self.metadata.columns}
+        clash = [n for n in names if n in taken]
+        if clash:
+            raise ModelError(
+                f"balance name(s) {clash} are already column names of the table (parts or "
+                "metadata); choose other names"
+            )
+        return names
+
+    @t.validate("colour_by")
+    def _check_colour_by(self, proposal):
+        name = proposal["value"]
+        if name and name not in self.balance_names:
+            raise ModelError(f"unknown balance {name!r}; balances: {self.balance_names}")
+        return name
 
     @t.observe("active_parts")
     def _on_active_parts(self, change):
-        # An SBP is a partition of exactly the active parts: a new set of parts drops it.
-        if self.sbp is not None and list(change["old"] or []) != list(change["new"]):
-            with self.hold_trait_notifications():
-                self.sbp = None
+        # An SBP is a partition of exactly the parts it was made over: other parts drop it.
+        if self.sbp is None:
+            return
+        if self._sbp_for != _sbp_key(self.sbp, change["new"]):
+            self.sbp = None
+        else:  # kept: it was set over these very parts
+            self._follow_names()
+
+    @t.observe("sbp")
+    def _on_sbp(self, change):
+        if change["new"] is None:
+            if self.balance_names:
                 self.balance_names = []
-                self.colour_by = ""
+        else:
+            self._follow_names()
+
+    def _follow_names(self) -> None:
+        """Keep the names given for exactly this SBP over these parts; else the default names."""
+        key = _sbp_key(self.sbp, self.active_parts)
+        if self._named == (key, list(self.balance_names)):
+            return
+        names = core.balance_names(self.sbp, self.active_parts, complete=False)
+        if list(self.balance_names) != names:
+            self.balance_names = names
+
+    @t.observe("balance_names")
+    def _on_balance_names(self, change):
+        if self.sbp is not None:
+            self._named = (_sbp_key(self.sbp, self.active_parts), list(change["new"]))
+        if self.colour_by and self.colour_by not in change["new"]:
+            self.colour_by = ""
 
     @t.observe("amalgamations")
     def _on_amalgamations(self, change):
@@ -232,26 +384,31 @@ class CompositionModel(t.HasTraits):
             self.active_parts = kept if len(kept) >= 2 else self.parts
 
     def _as_positions(self, rows) -> np.ndarray:
-        arr = np.asarray(rows)
+        if isinstance(rows, (int, np.integer)) and not isinstance(rows, (bool, np.bool_)):
+            rows = [rows]  # one row position
+        try:
+            arr = np.asarray(rows)
+        except (TypeError, ValueError) as err:
+            raise ModelError(f"a selection is row positions or a boolean mask ({err})") from None
         if arr.dtype == bool:
             if arr.shape != (self.n_rows,):
-                raise t.TraitError(
+                raise ModelError(
                     f"a boolean selection mask needs {self.n_rows} values, got shape {arr.shape}"
                 )
             return np.flatnonzero(arr).astype(np.uint32)
         if arr.size == 0:
             return _EMPTY.copy()
         if arr.ndim != 1 or not np.issubdtype(arr.dtype, np.integer):
-            raise t.TraitError(
+            raise ModelError(
                 "a selection is a 1-D array of integer row positions or a boolean mask; "
                 f"got dtype {arr.dtype}, shape {arr.shape}"
             )
         lo, hi = int(arr.min()), int(arr.max())
         if lo < 0 or hi >= self.n_rows:
             bad = lo if lo < 0 else hi
-            raise t.TraitError(f"row position {bad} is outside 0..{self.n_rows - 1}")
+            raise ModelError(f"row position {bad} is outside 0..{self.n_rows - 1}")
         out = arr.astype(np.uint32, copy=False)
-        if np.any(out[1:] <= out[:-1]):
+        if np.any(out[1:] <= out[:-1]):  # unsorted or repeated: each row once, in order
             out = np.unique(out)
         return out.copy() if out is arr else out
 
@@ -278,11 +435,37 @@ class CompositionModel(t.HasTraits):
         self.selection = new  # the trait itself ignores an equal array
 
     def select_labels(self, labels, mode: str = "replace") -> None:
-        """Select rows by their original index labels (unknown labels raise)."""
-        pos = self.index.get_indexer(pd.Index(labels))
+        """Select rows by their original index labels.
+
+        Parameters
+        ----------
+        labels : label or sequence of labels
+            One label (a string, a number, or a tuple that is a label of the
+            index) or several; repeats count once.
+        mode : {"replace", "add", "remove", "intersect"}
+
+        Raises
+        ------
+        ModelError
+            Naming the labels that are not in the index.
+        """
+        single = isinstance(labels, (str, bytes)) or not pd.api.types.is_list_like(labels)
+        if isinstance(labels, tuple):
+            try:
+                single = labels in self.index
+            except (TypeError, ValueError):
+                single = False
+        try:
+            wanted = pd.Index([labels] if single else list(labels), tupleize_cols=False)
+            pos = self.index.get_indexer_for(wanted)
+        except (TypeError, ValueError) as err:
+            raise ModelError(f"select_labels: cannot look up {labels!r} ({err})") from None
         if (pos < 0).any():
-            missing = list(pd.Index(labels)[pos < 0][:5])
-            raise ModelError(f"unknown row label(s) {missing}")
+            missing = list(dict.fromkeys(wanted[pos < 0]))
+            shown = ", ".join(map(repr, missing[:5])) + (
+                f" and {len(missing) - 5} more" if len(missing) > 5 else ""
+            )
+            raise ModelError(f"unknown row label(s) {shown}; the index has {self.n_rows} rows")
         self.select(pos, mode)
 
     def clear_selection(self) -> None:
@@ -326,8 +509,10 @@ class CompositionModel(t.HasTraits):
         """
         if not isinstance(name, str) or not name.strip():
             raise ModelError("a group column needs a non-empty name")
-        if name in self.metadata.columns or name in self.parts:
-            raise ModelError(f"a column named {name!r} exists already; choose another name")
+        if name in self.metadata.columns or name in self.parts or name in self.balance_names:
+            raise ModelError(
+                f"a column or balance named {name!r} exists already; choose another name"
+            )
         if selected_label == other_label:
             raise ModelError("the selected and other labels must differ")
         labels = np.where(self.selected_mask(), selected_label, other_label)
@@ -428,9 +613,7 @@ class CompositionModel(t.HasTraits):
 
     def balances(self) -> np.ndarray:
         """Balances of the current SBP over the active parts, (n, D-1); NaN rows incomplete."""
-        if self.sbp is None:
-            raise ModelError("no SBP is set; build one in the balance builder or call set_sbp")
-        sbp = self.sbp
+        sbp = _checked(core.require_sbp, self.sbp)
         return self._derived(
             "balances:" + sbp.tobytes().hex(),
             None,
@@ -445,38 +628,170 @@ class CompositionModel(t.HasTraits):
         return self.balances()[:, self.balance_names.index(name)]
 
     def set_sbp(self, sbp, names: Sequence[str] | None = None) -> None:
-        """Set the SBP over the active parts (validated) and its balance names."""
-        try:
-            S = core.validate_sbp(sbp, self.active_parts, complete=False)
-        except core.CompositionError as err:
-            raise ModelError(str(err)) from None
-        if S.shape[1] != len(self.active_parts):
+        """Set an SBP over the active parts and its balance names (all checked first).
+
+        Parameters
+        ----------
+        sbp : array-like or DataFrame of shape (k, D)
+            +1 numerator, -1 denominator, 0 outside; k = D - 1 for a complete
+            partition, fewer rows for one still being built. A DataFrame (e.g.
+            ``export.sbp_frame`` of another model) is matched to the active parts
+            by its column labels and reordered to them; unknown or missing labels
+            are refused by name. An array's columns are the active parts in order.
+        names : sequence of str, optional
+            One name per balance; ``""`` keeps the default name. Default: the
+            index of an SBP table when it holds names, else the default names
+            (``"num1,num2 | den1"``).
+
+        Raises
+        ------
+        ModelError
+            An invalid SBP or names; the model is left unchanged.
+        """
+        self.set_partition(sbp, self.active_parts, names)
+
+    def set_partition(
+        self,
+        sbp,
+        parts: Sequence[str] | None = None,
+        names: Sequence[str] | None = None,
+        amalgamations: dict | None = None,
+    ) -> None:
+        """Set the active parts, the amalgamations they need and an SBP over them at once.
+
+        All or nothing: everything is checked before the model changes, and the
+        views are notified once, of the whole change. This is how a saved
+        partition (``export.load_sbp``) is applied to a model.
+
+        Parameters
+        ----------
+        sbp : array-like or DataFrame of shape (k, len(parts))
+            As for :meth:`set_sbp`, over ``parts`` instead of the active parts.
+        parts : sequence of str, optional
+            The new active parts. Default: the columns of an SBP table, else
+            the current active parts.
+        names : sequence of str, optional
+            As for :meth:`set_sbp`.
+        amalgamations : dict of str -> list of str, optional
+            Amalgamations to add to the model's (e.g. those among ``parts``); one
+            already defined with other members is refused.
+
+        Raises
+        ------
+        ModelError
+            Naming what does not fit; the model is left unchanged.
+        """
+        if parts is None:
+            own = isinstance(sbp, pd.DataFrame) and not core._arrays.is_unlabelled(sbp.columns)
+            parts = [str(c) for c in sbp.columns] if own else list(self.active_parts)
+        groups = dict(self.amalgamations)
+        extra = dict(amalgamations or {})
+        clash = [g for g, m in extra.items() if g in groups and list(groups[g]) != list(m)]
+        if clash:
             raise ModelError(
-                f"the SBP has {S.shape[1]} parts but {len(self.active_parts)} parts are active"
+                f"amalgamation(s) {', '.join(map(str, clash))} are defined differently in this "
+                "model; remove or rename them first"
             )
-        defaults = core.balance_names(S, self.active_parts, complete=False)
-        if names is None:
-            names = defaults
-        elif len(names) != S.shape[0]:
-            raise ModelError(f"{len(names)} balance names for {S.shape[0]} balances")
-        else:  # "" (or None) keeps the default name of that balance
-            names = [str(n) if n else d for n, d in zip(names, defaults, strict=True)]
-        if len(set(names)) != len(names):
-            raise ModelError(f"balance names must be unique, got {names}")
+        groups.update(extra)
+        groups = self._valid_amalgamations(groups, parts)
+        parts = _checked(core.check_parts, parts, self.parts, groups)
+        S = _checked(core.check_sbp, sbp, parts, complete=False)
+        names = self._valid_names(_frame_names(sbp) if names is None else names, S, parts)
+        S.flags.writeable = False
         with self.hold_trait_notifications():
-            if self.sbp is None or not np.array_equal(self.sbp, S):
-                self.sbp = S
-            if list(self.balance_names) != list(names):
-                self.balance_names = list(names)
+            if groups != dict(self.amalgamations):
+                self.amalgamations = groups
+            if parts != list(self.active_parts):
+                self.active_parts = parts
+            self.sbp = S
+            self._sbp_for = _sbp_key(S, parts)
+            self._named = (self._sbp_for, names)
+            if list(self.balance_names) != names:
+                self.balance_names = names
             if self.colour_by and self.colour_by not in names:
                 self.colour_by = ""
 
-    @t.validate("colour_by")
-    def _check_colour_by(self, proposal):
-        name = proposal["value"]
-        if name and name not in self.balance_names:
-            raise t.TraitError(f"unknown balance {name!r}; balances: {self.balance_names}")
-        return name
+    def clear_sbp(self) -> None:
+        """Remove the SBP (and its balance names)."""
+        self.sbp = None
+
+    # ------------------------------------------------------- tables of the SBP
+    def sbp_frame(self) -> pd.DataFrame:
+        """The signed SBP: balances as rows (index = names), active parts as columns, +1/-1/0.
+
+        Applied to another model with :meth:`set_sbp`, it is matched by its column
+        labels, so it keeps its meaning whatever the order of that model's parts.
+        """
+        sbp = _checked(core.require_sbp, self.sbp, self.active_parts)
+        return pd.DataFrame(
+            sbp.astype(int),
+            index=pd.Index(list(self.balance_names), name="balance"),
+            columns=pd.Index(list(self.active_parts), name="part"),
+        )
+
+    def contrast_frame(self) -> pd.DataFrame:
+        """Orthonormal contrasts of the SBP (``core.sbp_basis``), shaped as :meth:`sbp_frame`.
+
+        Each row sums to zero and has unit length; ``clr(x) @ row`` is the balance.
+        """
+        sbp = _checked(core.require_sbp, self.sbp, self.active_parts)
+        return pd.DataFrame(
+            core.sbp_basis(sbp, complete=False),
+            index=pd.Index(list(self.balance_names), name="balance"),
+            columns=pd.Index(list(self.active_parts), name="part"),
+        )
+
+    def ilr_frame(
+        self,
+        include_metadata: bool = False,
+        include_selection: bool = False,
+        require_complete: bool = True,
+    ) -> pd.DataFrame:
+        """Balances of the SBP as a DataFrame, one row per row of the table.
+
+        Parameters
+        ----------
+        include_metadata : bool, default False
+            Put the metadata columns (those made in this session included) first.
+        include_selection : bool, default False
+            Add a boolean ``"selected"`` column (after the metadata).
+        require_complete : bool, default True
+            Refuse a partial SBP (fewer than D-1 balances); with False a
+            partial SBP gives its balances.
+
+        Returns
+        -------
+        DataFrame
+            Index = the table's original index; one column per balance, named as
+            :attr:`balance_names`. Every row is there: rows with a missing or
+            non-positive value in an active part have NaN balances.
+
+        Raises
+        ------
+        ModelError
+            No SBP; a partial SBP with ``require_complete``; a balance name that
+            is also a metadata column (or ``"selected"``).
+        """
+        _checked(core.require_sbp, self.sbp, self.active_parts, complete=require_complete)
+        names = list(self.balance_names)
+        frame = pd.DataFrame(np.array(self.balances()), index=self.index.copy(), columns=names)
+        pieces = []
+        if include_metadata:
+            pieces.append(self.metadata)
+        if include_selection:
+            pieces.append(
+                pd.DataFrame({"selected": self.selected_mask().copy()}, index=frame.index)
+            )
+        if pieces:
+            front = pd.concat(pieces, axis=1)
+            clash = [c for c in front.columns if c in set(names)]
+            if clash:
+                raise ModelError(
+                    f"balance name(s) {clash} are also metadata/selection column names; "
+                    "rename the balances"
+                )
+            frame = pd.concat([front, frame], axis=1)
+        return frame
 
     def variation_matrix(self, parts: Sequence[str] | None = None) -> pd.DataFrame:
         """Variation matrix of ``parts`` over the complete rows (ddof = 1)."""
@@ -487,46 +802,3 @@ class CompositionModel(t.HasTraits):
             frame = pd.DataFrame(self.part_values(parts)[ok], columns=parts)
             self._store(key, core.variation_matrix(frame))
         return self._cache[key]
-
-    # ---------------------------------------------------------------- exports
-    def ilr_frame(self, **options) -> pd.DataFrame:
-        """Balances of the SBP as a DataFrame (see :func:`compwidgets.export.ilr_frame`)."""
-        from .export import ilr_frame
-
-        return ilr_frame(self, **options)
-
-    def sbp_frame(self) -> pd.DataFrame:
-        """The SBP as a signed matrix, balances as rows (:func:`compwidgets.export.sbp_frame`)."""
-        from .export import sbp_frame
-
-        return sbp_frame(self)
-
-    def contrast_frame(self) -> pd.DataFrame:
-        """Orthonormal contrast matrix of the SBP (:func:`compwidgets.export.contrast_frame`)."""
-        from .export import contrast_frame
-
-        return contrast_frame(self)
-
-    def save_sbp(self, path):
-        """Write the SBP as a JSON document (:func:`compwidgets.export.save_sbp`)."""
-        from .export import save_sbp
-
-        return save_sbp(self, path)
-
-    def load_sbp(self, path_or_document):
-        """Rebuild an SBP from a JSON document (:func:`compwidgets.export.load_sbp`)."""
-        from .export import load_sbp
-
-        return load_sbp(self, path_or_document)
-
-    def save_ilr_csv(self, path, **options):
-        """Write the balances to CSV (:func:`compwidgets.export.save_ilr_csv`)."""
-        from .export import save_ilr_csv
-
-        return save_ilr_csv(self, path, **options)
-
-    def save_selected_csv(self, path, **options):
-        """Write the selected rows to CSV (:func:`compwidgets.export.save_selected_csv`)."""
-        from .export import save_selected_csv
-
-        return save_selected_csv(self, path, **options)

@@ -1,11 +1,18 @@
 """A scikit-learn transformer from compositions to balances (ilr coordinates of an SBP).
 
-Example::
+Example (an invented table of two groups that differ in ln(CaO / MgO)):
 
-    from sklearn.pipeline import make_pipeline
-    from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
-    pipe = make_pipeline(BalanceTransformer(sbp, parts), LinearDiscriminantAnalysis())
-    pipe.fit(table[parts], table["group"])
+>>> import numpy as np, pandas as pd
+>>> from sklearn.pipeline import make_pipeline
+>>> from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
+>>> rng = np.random.default_rng(0)
+>>> parts = ["SiO2", "MgO", "CaO"]
+>>> logs = rng.normal(0, 0.1, size=(40, 3)) + np.r_[[[2, 0, 0]] * 20, [[2, 0, 1]] * 20]
+>>> table = pd.DataFrame(np.exp(logs), columns=parts).assign(group=["a"] * 20 + ["b"] * 20)
+>>> sbp = [[1, -1, -1], [0, 1, -1]]  # SiO2 against MgO, CaO; then MgO against CaO
+>>> pipe = make_pipeline(BalanceTransformer(sbp, parts), LinearDiscriminantAnalysis())
+>>> pipe.fit(table[parts], table["group"]).score(table[parts], table["group"])
+1.0
 """
 
 from __future__ import annotations
@@ -19,6 +26,26 @@ from sklearn.base import BaseEstimator, TransformerMixin
 from sklearn.utils.validation import check_array, check_is_fitted
 
 from . import core
+from .core._arrays import is_unlabelled as _unlabelled
+from .core._arrays import match_columns
+
+
+class TransformerInputError(core.CompositionError):
+    """Input that scikit-learn's own checks refuse (shape, feature names, non-numbers).
+
+    The same message as scikit-learn's ``ValueError``, raised as a
+    :class:`compwidgets.core.CompositionError` (itself a ``ValueError``).
+    """
+
+
+def _sklearn_checked(check, *args, **kwargs):
+    try:
+        return check(*args, **kwargs)
+    except core.CompositionError:
+        raise
+    except ValueError as err:
+        raise TransformerInputError(str(err)) from err
+
 
 try:  # scikit-learn >= 1.6
     from sklearn.utils.validation import validate_data as _validate_data
@@ -108,14 +135,10 @@ class BalanceTransformer(TransformerMixin, BaseEstimator):
         ``X`` then needs columns named as ``model.active_parts`` (e.g.
         ``pd.DataFrame(model.closed(), columns=model.active_parts)``).
         """
-        if model.sbp is None:
-            raise core.SBPError("the model has no SBP; build one first")
-        D = len(model.active_parts)
-        if model.sbp.shape[0] != D - 1:
-            raise core.SBPError(
-                f"the model's SBP is partial ({model.sbp.shape[0]} of {D - 1} balances); "
-                "a transformer needs a complete SBP"
-            )
+        try:
+            core.require_sbp(model.sbp, model.active_parts, complete=True)
+        except core.SBPError as err:
+            raise core.SBPError(f"the model's SBP cannot make a transformer: {err}") from None
         return cls(
             sbp=np.array(model.sbp, dtype=np.int8),
             parts=list(model.active_parts),
@@ -130,38 +153,26 @@ class BalanceTransformer(TransformerMixin, BaseEstimator):
             if isinstance(self.parts, str):
                 raise core.SBPError("parts must be a list of part names, not one string")
             parts = [str(p) for p in self.parts]
-        elif isinstance(self.sbp, pd.DataFrame):
+        elif isinstance(self.sbp, pd.DataFrame) and not _unlabelled(self.sbp.columns):
             parts = [str(c) for c in self.sbp.columns]
         else:
             parts = seen if seen is not None else [f"x{j + 1}" for j in range(n_features)]
-        if len(set(parts)) != len(parts):
-            raise core.SBPError(f"a part is named twice in {parts}")
         if seen is not None:
             missing = [p for p in parts if p not in seen]
             if missing:
                 raise core.SBPError(f"part(s) {missing} are not columns of X; columns: {seen}")
-            return parts, np.array([seen.index(p) for p in parts], dtype=int)
-        if len(parts) != n_features:
+        elif len(parts) != n_features:
             raise core.SBPError(f"{len(parts)} parts named but X has {n_features} columns")
+        parts = core.check_parts(parts, parts, what="BalanceTransformer parts")
+        if seen is not None:
+            return parts, np.array([seen.index(p) for p in parts], dtype=int)
         return parts, np.arange(n_features)
 
     def _resolve_sbp(self, parts: list[str]) -> np.ndarray:
         if self.sbp is None:
             return pivot_sbp(len(parts))
-        sbp = self.sbp
-        if isinstance(sbp, pd.DataFrame):
-            columns = [str(c) for c in sbp.columns]
-            missing = [p for p in parts if p not in columns]
-            extra = [c for c in columns if c not in parts]
-            if missing or extra:
-                raise core.SBPError(
-                    f"SBP columns do not match the parts: missing {missing}, extra {extra}"
-                )
-            sbp = sbp.set_axis(columns, axis=1)[parts]
-        S = core.validate_sbp(sbp, parts)
-        if S.shape[1] != len(parts):
-            raise core.SBPError(f"the SBP has {S.shape[1]} columns for {len(parts)} parts")
-        return S
+        # a DataFrame is matched to the parts by its column labels (core.check_sbp)
+        return core.check_sbp(self.sbp, parts, complete=True)
 
     def _frame(self, X, values: np.ndarray) -> pd.DataFrame:
         """The parts of ``X`` as a DataFrame (so core errors name rows and parts).
@@ -184,20 +195,12 @@ class BalanceTransformer(TransformerMixin, BaseEstimator):
 
     def fit(self, X, y=None):
         """Check the SBP and the parts against ``X`` (strictly positive compositions)."""
-        values = _validate_data(
-            self, X, reset=True, ensure_all_finite=False, ensure_min_features=2
+        values = _sklearn_checked(
+            _validate_data, self, X, reset=True, ensure_all_finite=False, ensure_min_features=2
         )
         self.parts_, self.columns_ = self._resolve_parts(values.shape[1])
         self.sbp_ = self._resolve_sbp(self.parts_)
-        if self.names is None:
-            self.names_ = core.balance_names(self.sbp_, self.parts_)
-        else:
-            names = [str(n) for n in self.names]
-            if len(names) != self.sbp_.shape[0]:
-                raise core.SBPError(f"{len(names)} names for {self.sbp_.shape[0]} balances")
-            if len(set(names)) != len(names):
-                raise core.SBPError(f"balance names must be unique, got {names}")
-            self.names_ = names
+        self.names_ = core.check_balance_names(self.names, self.sbp_, self.parts_)
         self.basis_ = core.sbp_basis(self.sbp_)
         core.balances(self._frame(X, values), self.sbp_)  # raises naming bad rows/parts
         return self
@@ -206,18 +209,22 @@ class BalanceTransformer(TransformerMixin, BaseEstimator):
     def transform(self, X) -> np.ndarray:
         """Balances (n, D-1) of ``X``: ``core.balances`` with ``sbp_``."""
         check_is_fitted(self, "sbp_")
-        values = _validate_data(self, X, reset=False, ensure_all_finite=False)
+        values = _sklearn_checked(_validate_data, self, X, reset=False, ensure_all_finite=False)
         B = core.balances(self._frame(X, values), self.sbp_, names=self.names_)
         return B.to_numpy(dtype=float)
 
     def inverse_transform(self, X):
         """Closed compositions of ``parts_`` from balances: ``core.ilr_inv`` with ``basis_``.
 
-        A DataFrame input gives a DataFrame (same index, columns ``parts_``).
+        A DataFrame input gives a DataFrame (same index, columns ``parts_``); its
+        columns are matched by label to the balance names ``names_`` (reordered;
+        unknown or missing names refused), unless they are unnamed (``0..k-1``).
         """
         check_is_fitted(self, "sbp_")
         index = X.index if isinstance(X, pd.DataFrame) else None
-        Y = check_array(X, dtype=float, **{_FINITE: False})  # core names bad rows
+        if isinstance(X, pd.DataFrame) and not _unlabelled(X.columns):
+            X = match_columns(X, self.names_, "inverse_transform", kind="balance")
+        Y = _sklearn_checked(check_array, X, dtype=float, **{_FINITE: False})  # core names rows
         k = self.sbp_.shape[0]
         if Y.shape[1] != k:
             raise core.CompositionError(
@@ -236,9 +243,9 @@ class BalanceTransformer(TransformerMixin, BaseEstimator):
             seen = getattr(self, "feature_names_in_", None)
             expected = list(seen) if seen is not None else None
             if expected is not None and given != [str(c) for c in expected]:
-                raise ValueError("input_features is not equal to feature_names_in_")
+                raise TransformerInputError("input_features is not equal to feature_names_in_")
             if expected is None and len(given) != self.n_features_in_:
-                raise ValueError(
+                raise TransformerInputError(
                     f"input_features should have length equal to number of features "
                     f"({self.n_features_in_}), got {len(given)}"
                 )

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from .composition import Composition
+from .core import CompositionError
 from .intake import read_composition
 from .model import CompositionModel
 
@@ -76,7 +77,7 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
     """
     active = list(model.active_parts)
     if len(active) < 3:
-        raise ValueError(f"a ternary view needs 3 active parts, got {active}")
+        raise CompositionError(f"a ternary view needs 3 active parts, got {active}")
     share = np.nanmedian(model.closed(active), axis=0)
     parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
     if len(parts) < 3:

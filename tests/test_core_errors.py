@@ -322,7 +322,7 @@ CASES = [
         "sbp-frame-parts-mismatch",
         lambda: core.balances(X3, pd.DataFrame(SBP3_OK, columns=["a", "b", "zz"])),
         SBPError,
-        r"missing \['c'\], not in the data \['zz'\]",
+        r"column\(s\) 'zz' are not among the parts; part\(s\) 'c' have no column",
     ),
     (
         "sbp-names-wrong-length",

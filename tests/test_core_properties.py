@@ -395,3 +395,13 @@ def test_partial_sbp_gives_the_leading_balances(case, data):
         assert f"{k} rows for {X.shape[1]} parts" in str(err)
     else:
         raise AssertionError("a partial SBP was accepted without complete=False")
+
+
+@PROPERTY_SETTINGS
+@given(positive_compositions(), st.floats(0.5, 1.0))
+def test_closure_is_scale_invariant_up_to_the_float_maximum(X, top):
+    # closure(c x) = closure(x) for every c > 0 (Aitchison 1986), also when the largest
+    # part of each row sits at the float maximum and the plain row sum overflows
+    scaled = X / X.max(axis=1, keepdims=True) * (np.finfo(float).max * top)
+    assert_close(core.closure(scaled), close_rows(X), rtol=1e-12, atol=0)
+    assert_close(core.perturb(scaled, X), close_rows(X * X), rtol=1e-9, atol=1e-300)

@@ -8,6 +8,7 @@ published definition worked by hand in the test, or a fact of the trade
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import pandas as pd
@@ -315,6 +316,23 @@ def test_multiplicative_replacement_in_percent_with_explicit_total():
     pd.testing.assert_frame_equal(got, expected, rtol=1e-12)
 
 
+def test_multiplicative_replacement_uses_the_given_total_not_the_row_sum():
+    # Martin-Fernandez et al. (2003) formula with c = 100 on rows whose observed parts
+    # sum to less (the other 10 wt% are parts not in the table): the factor is
+    # 1 - delta / c with c = 100, not 1 - delta / 90. Worked by hand.
+    X = pd.DataFrame({"Fe": [60.0, 55.0], "Mn": [0.0, 5.0], "Zn": [30.0, 0.0]}, index=["a", "b"])
+    got = core.multiplicative_replacement(X, {"Mn": 0.5, "Fe": 1.0, "Zn": 2.0}, 0.5, total=100)
+    # row a: delta = 0.25, factor 1 - 0.25/100 = 0.9975; row b: delta = 1.0, factor 0.99
+    expected = pd.DataFrame(
+        {"Fe": [60 * 0.9975, 55 * 0.99], "Mn": [0.25, 5 * 0.99], "Zn": [30 * 0.9975, 1.0]},
+        index=["a", "b"],
+    )
+    pd.testing.assert_frame_equal(got, expected, rtol=1e-12)
+    # without total= each row keeps its own observed sum (90 and 60) instead
+    own = core.multiplicative_replacement(X, {"Mn": 0.5, "Fe": 1.0, "Zn": 2.0}, 0.5)
+    np.testing.assert_allclose(own.sum(axis=1), [90.0, 60.0], rtol=1e-12)
+
+
 def test_multiplicative_replacement_with_below_mask():
     # Martin-Fernandez, Barcelo-Vidal & Pawlowsky-Glahn (2003), worked by hand: cells
     # flagged "below" are replaced even when they hold a number (here a reported value
@@ -475,3 +493,54 @@ def test_closure_rows_sum_to_total(X, total):
     out = core.closure(X, total)
     np.testing.assert_allclose(out.sum(axis=1), total, rtol=1e-12)
     np.testing.assert_allclose(out / X, (out / X)[:, :1] * np.ones_like(X), rtol=1e-12)
+
+
+# --------------------------------------------------------------------------------------
+# Closure at the edges of the float range, against exact rational arithmetic
+# (Python's fractions module on the very same floats).
+
+
+def _exact_closure(row, total=1) -> list[float]:
+    values = [v if isinstance(v, Fraction) else Fraction(float(v)) for v in row]
+    whole = sum(values)
+    return [float(total * v / whole) for v in values]
+
+
+BIG = np.finfo(float).max
+
+
+@pytest.mark.parametrize(
+    "row",
+    [
+        [BIG, BIG / 2, BIG / 4],  # the plain sum overflows to inf
+        [BIG, BIG, 1e300],
+        [1e308, 1e308, 1e308, 1e308],
+        [1e-320, 3e-320, 5e-324],  # subnormal parts
+        [2.0, 1.0, 1.0],  # an ordinary row among them
+    ],
+)
+def test_closure_near_the_float_limits_matches_exact_arithmetic(row):
+    X = np.array([row, [2.0, 1.0, 1.0, 4.0][: len(row)]])
+    got = core.closure(X)
+    np.testing.assert_allclose(got[0], _exact_closure(row), rtol=1e-14)
+    np.testing.assert_allclose(got[1], _exact_closure(X[1]), rtol=1e-14)
+    np.testing.assert_allclose(core.closure(X, 100)[0], _exact_closure(row, 100), rtol=1e-14)
+    sub = core.subcomposition(X, [0, 1])
+    np.testing.assert_allclose(sub[0], _exact_closure(row[:2]), rtol=1e-14)
+    # the ternary projection closes the same way (a point of the triangle, not NaN)
+    if len(row) == 3:
+        from compwidgets.core import ternary
+
+        x, y = ternary.ternary_to_xy(X[:1])
+        assert np.isfinite(x).all() and np.isfinite(y).all()
+
+
+def test_perturbation_beyond_the_float_range_matches_exact_arithmetic():
+    # Products of the parts overflow (1e300 * 1e300) or underflow; the closed result
+    # must still be the exact one (fractions module on the same floats).
+    X = np.array([[1e300, 1e300, 1.0], [1e-300, 1.0, 1e-200]])
+    Y = np.array([[1e300, 1.0, 2.0], [1e-300, 1e-100, 1.0]])
+    got = core.perturb(X, Y)
+    for x, y, g in zip(X, Y, got, strict=True):
+        exact = _exact_closure([Fraction(a) * Fraction(b) for a, b in zip(x, y, strict=True)])
+        np.testing.assert_allclose(g, exact, rtol=1e-10, atol=0)

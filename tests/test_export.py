@@ -133,11 +133,18 @@ def test_ilr_frame_partial_and_missing_sbp():
     np.testing.assert_allclose(out.iloc[:, 1].to_numpy()[5:], balance_direct(values[5:], SBP[1]))
 
 
-def test_ilr_frame_name_clash():
+def test_a_balance_named_like_a_column_is_refused_when_named_not_when_exported():
+    # so that every export works in every state the model accepts
     model = make_model()
-    model.set_sbp(SBP, names=["site", "", "", "", ""])
-    with pytest.raises(ExportError, match="site"):
-        ilr_frame(model, include_metadata=True)
+    for taken in ("site", "SiO2"):
+        with pytest.raises(core.CompositionError, match=f"'{taken}'.*already column names"):
+            model.set_sbp(SBP, names=[taken, "", "", "", ""])
+    assert model.sbp is None
+    model.set_sbp(SBP, names=["felsic", "", "", "", ""])
+    with pytest.raises(core.CompositionError, match="exists already"):
+        model.selection_to_group("felsic")
+    out = ilr_frame(model, include_metadata=True, include_selection=True)
+    assert list(out.columns[:2]) == ["site", "selected"]
 
 
 # --------------------------------------------------- sbp / contrast frames
@@ -314,6 +321,30 @@ MALFORMED = [
     (lambda d: d["tree"].update(name="other"), "balance 1 is named"),
     (lambda d: d.update(amalgamations=[]), "'amalgamations' must be an object"),
     (lambda d: d.update(unit=3), "'unit' must be a string"),
+    # every key at every level: tree nodes (deep ones too), balances, replacement
+    (lambda d: d["tree"].update(colour="red"), r"tree node 'n0': unknown key\(s\) 'colour'"),
+    (
+        lambda d: d["tree"]["children"][1]["children"][0].update(note=1),
+        r"unknown key\(s\) 'note'",
+    ),
+    (lambda d: d["balances"][2].update(weight=2), r"balance 3 must be an object.*'weight'"),
+    (lambda d: d["replacement"].update(seed=4), r"unknown key\(s\) 'seed' in 'replacement'"),
+    (lambda d: d["replacement"].update(strategy=1), "'strategy' must be a string"),
+    (lambda d: d["replacement"].update(fraction=1.5), "'fraction' must be a number between"),
+    (lambda d: d["replacement"].update(fraction=True), "'fraction' must be a number between"),
+    (
+        lambda d: d["replacement"].update(detection_limits={"MgO": "low"}),
+        "'detection_limits' must be a number or an object",
+    ),
+    (
+        lambda d: d["replacement"].update(negative_is_below_detection="yes"),
+        "'negative_is_below_detection' must be true or false",
+    ),
+    (lambda d: d.update(replacement=[1]), "'replacement' must be an object"),
+    (lambda d: d.update(amalgamations={"FeMg": ["Fe2O3"]}), "'FeMg' is not one of 'parts'"),
+    (lambda d: d["tree"].update(name=float("nan")), r"holds nan \(float\)"),
+    (lambda d: d["parts"].append(("tuple",)), r"holds \('tuple',\) \(tuple\)"),
+    (lambda d: d.update({3: "x"}), "key 3 in the document is not a string"),
 ]
 
 
@@ -342,6 +373,56 @@ def test_malformed_files(tmp_path):
         read_document(tmp_path / "absent.json")
     with pytest.raises(DocumentError, match="path or a dict"):
         read_document(42)
+
+
+def test_documents_too_large_too_deep_or_repeating_a_key_are_refused(tmp_path, monkeypatch):
+    import compwidgets.export as export_module
+
+    good = json.dumps(_doc())
+    twice = tmp_path / "twice.json"
+    twice.write_text(good.replace('"version": 1', '"version": 1, "version": 1'), "utf-8")
+    with pytest.raises(DocumentError, match="'version' is given twice"):
+        read_document(twice)
+    # a file nested far beyond any partition: refused, never a RecursionError
+    deep = tmp_path / "deep.json"
+    deep.write_text('{"format": "compwidgets-sbp", "tree": ' + "[" * 200_000 + "]" * 200_000 + "}")
+    with pytest.raises(DocumentError, match="nested"):
+        read_document(deep)
+    deep_dict = _doc()
+    inner = deep_dict["replacement"]
+    for _ in range(10_000):  # deeper than the interpreter's recursion limit
+        inner["strategy"] = {}
+        inner = inner["strategy"]
+    with pytest.raises(DocumentError, match="nested deeper than 400"):
+        read_document(deep_dict)
+    looped = _doc()
+    looped["tree"]["children"][0]["children"] = [looped["tree"], looped["tree"]]
+    with pytest.raises(DocumentError, match="nested deeper"):
+        read_document(looped)
+    monkeypatch.setattr(export_module, "MAX_DOCUMENT_BYTES", len(good) - 1)
+    big = tmp_path / "big.json"
+    big.write_text(good, "utf-8")
+    with pytest.raises(DocumentError, match="not read"):
+        read_document(big)
+
+
+def test_the_largest_partition_the_reader_takes_round_trips(tmp_path):
+    # A chain of splits over 190 parts nests about 2 * 190 levels deep: still read.
+    parts = [f"P{i:03d}" for i in range(190)]
+    frame = pd.DataFrame(
+        np.exp(np.random.default_rng(4).normal(size=(5, len(parts)))), columns=parts
+    )
+    model = CompositionModel(read_composition(frame, check_total=False))
+    model.set_sbp(pivot_sbp(len(parts)))
+    loaded = read_document(save_sbp(model, tmp_path / "chain.json"))
+    np.testing.assert_array_equal(loaded.sbp, pivot_sbp(len(parts)))
+
+
+def test_a_document_given_as_a_dict_is_copied_not_kept():
+    doc = _doc()
+    loaded = read_document(doc)
+    loaded.tree["name"] = "changed"
+    assert doc["tree"]["name"] == ""
 
 
 def test_names_are_only_text():

@@ -197,28 +197,44 @@ def test_unknown_group_column_is_refused(model):
     assert model.group_column == "site"
 
 
-def test_every_export_has_a_method_on_the_model(model, tmp_path):
+def test_exports_work_from_the_export_module_and_the_model_does_not_import_it(model, tmp_path):
+    # One direction between the modules: export reads the model; the model never imports
+    # export, so the two cannot call each other. The model builds the tables of its own
+    # SBP (sbp_frame, contrast_frame, ilr_frame); files and documents are export's.
+    import ast
+    import inspect
+
     from compwidgets import export
+    from compwidgets import model as model_module
+
+    tree = ast.parse(inspect.getsource(model_module))
+    imported = [
+        (node.module or "") + ":" + ",".join(a.name for a in node.names)
+        for node in ast.walk(tree)
+        if isinstance(node, ast.ImportFrom)
+    ]
+    assert not [i for i in imported if "export" in i], imported
+    assert not hasattr(model, "load_sbp") and not hasattr(model, "save_ilr_csv")
 
     model.active_parts = ["SiO2", "Al2O3", "FeO", "CaO"]
     model.set_sbp([[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
-    pd.testing.assert_frame_equal(model.ilr_frame(), export.ilr_frame(model))
-    pd.testing.assert_frame_equal(model.sbp_frame(), export.sbp_frame(model))
-    pd.testing.assert_frame_equal(model.contrast_frame(), export.contrast_frame(model))
     # the balances are the core's balances of the same SBP (complete rows)
     ok = model.complete_rows()
     np.testing.assert_allclose(
-        model.ilr_frame().to_numpy()[ok], core.balances(model.part_values()[ok], model.sbp)
+        export.ilr_frame(model).to_numpy()[ok], core.balances(model.part_values()[ok], model.sbp)
     )
-    doc = model.save_sbp(tmp_path / "sbp.json")
+    pd.testing.assert_frame_equal(model.ilr_frame(), export.ilr_frame(model))
+    pd.testing.assert_frame_equal(model.sbp_frame(), export.sbp_frame(model))
+    pd.testing.assert_frame_equal(model.contrast_frame(), export.contrast_frame(model))
+    doc = export.save_sbp(model, tmp_path / "sbp.json")
     model.set_sbp([[1, -1, 1, -1], [1, 0, -1, 0], [0, 1, 0, -1]])
-    model.load_sbp(doc)
+    export.load_sbp(model, doc)
     np.testing.assert_array_equal(model.sbp, [[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
-    csv = model.save_ilr_csv(tmp_path / "ilr.csv")
+    csv = export.save_ilr_csv(model, tmp_path / "ilr.csv")
     back = pd.read_csv(csv, index_col=0)
-    np.testing.assert_allclose(back.to_numpy(), model.ilr_frame().to_numpy(), equal_nan=True)
+    np.testing.assert_allclose(back.to_numpy(), export.ilr_frame(model).to_numpy(), equal_nan=True)
     model.select([0, 1])
-    model.save_selected_csv(tmp_path / "selected.csv")
+    export.save_selected_csv(model, tmp_path / "selected.csv")
     assert pd.read_csv(tmp_path / "selected.csv", index_col=0).index.tolist() == ["R-000", "R-001"]
 
 
@@ -254,3 +270,22 @@ def test_cached_arrays_are_read_only(model):
     for array in (model.selected_mask(), model.part_values(), model.complete_rows()):
         with pytest.raises(ValueError):
             array[0] = array[0]
+
+
+def test_sbp_tables_without_an_sbp_are_refused_as_composition_errors(model):
+    # A table of an SBP that is not set is a refusal the user can catch with one except.
+    for method in (model.sbp_frame, model.contrast_frame, model.ilr_frame):
+        with pytest.raises(core.CompositionError, match="no SBP"):
+            method()
+
+
+def test_sbp_frame_of_one_model_keeps_its_meaning_in_a_model_with_reordered_parts(model):
+    # Balances are defined by which parts sit in numerator and denominator
+    # (Egozcue & Pawlowsky-Glahn 2005), so a label-matched SBP gives the same
+    # balances whatever the column order of the receiving model.
+    model.active_parts = ["SiO2", "Al2O3", "FeO", "CaO"]
+    model.set_sbp([[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
+    other = CompositionModel(model.composition, active_parts=["CaO", "FeO", "SiO2", "Al2O3"])
+    other.set_sbp(model.sbp_frame())
+    np.testing.assert_allclose(other.balances(), model.balances(), equal_nan=True)
+    assert other.balance_names == model.balance_names

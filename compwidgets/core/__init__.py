@@ -13,6 +13,7 @@ from . import (
     outliers,
     principal,
     regions,
+    rules,
     separation,
     summary,
     ternary,
@@ -29,6 +30,7 @@ from .operations import (
     power,
 )
 from .principal import principal_balances, ward_sbp
+from .rules import check_balance_names, check_parts, check_sbp, require_sbp
 from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
 from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
 from .subcomp import amalgamate, subcomposition
@@ -54,6 +56,9 @@ __all__ = [
     "balance_names",
     "balances",
     "center",
+    "check_balance_names",
+    "check_parts",
+    "check_sbp",
     "closure",
     "clr",
     "clr_biplot",
@@ -70,6 +75,7 @@ __all__ = [
     "power",
     "principal_balances",
     "ray_associations",
+    "require_sbp",
     "sbp_basis",
     "subcomposition",
     "total_variance",
@@ -82,6 +88,7 @@ __all__ = [
     "outliers",
     "principal",
     "regions",
+    "rules",
     "separation",
     "summary",
     "ternary",

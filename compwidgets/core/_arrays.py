@@ -208,13 +208,31 @@ def require_non_negative(t: Table) -> None:
     bad = t.values < 0
     if bad.any():
         _raise_cells(t, bad, "negative values")
-    empty = ~(t.values.sum(axis=1) > 0)
+    empty = ~(t.values > 0).any(axis=1)  # (a sum could overflow near the float maximum)
     if empty.any():
         rows = np.flatnonzero(empty)
         raise CompositionError(
             f"{t.name}: rows {_listing(t.row_labels(rows), len(rows))} sum to zero; "
             "they hold no composition"
         )
+
+
+def close_rows(v: np.ndarray, total: float = 1.0) -> np.ndarray:
+    """Rows of a checked non-negative matrix rescaled to sum to ``total``, without overflow.
+
+    A row whose plain sum overflows (parts near the float maximum) is first divided
+    by its largest value, so it still closes correctly; other rows are divided by
+    their sum as they are. Rows must hold a positive value.
+    """
+    v = np.asarray(v, dtype=float)
+    with np.errstate(over="ignore"):
+        sums = v.sum(axis=-1, keepdims=True)
+    over = ~np.isfinite(sums)
+    if over.any():
+        scaled = v / v.max(axis=-1, keepdims=True)
+        v = np.where(over, scaled, v)
+        sums = np.where(over, scaled.sum(axis=-1, keepdims=True), sums)
+    return total * (v / sums)
 
 
 def _raise_cells(t: Table, bad: np.ndarray, what: str) -> None:
@@ -249,3 +267,58 @@ def resolve_parts(t: Table, parts: Sequence, what: str = "part") -> np.ndarray:
     if len(set(positions)) != len(positions):
         raise CompositionError(f"{t.name}: a {what} is named twice in {list(parts)!r}")
     return np.asarray(positions, dtype=int)
+
+
+def is_unlabelled(columns: pd.Index) -> bool:
+    """True for the default column labels 0..k-1 that pandas gives a frame built without names."""
+    return isinstance(columns, pd.RangeIndex) and columns.start == 0 and columns.step == 1
+
+
+def match_columns(
+    frame: pd.DataFrame,
+    labels: Sequence[str],
+    what: str,
+    error: type[CompositionError] = CompositionError,
+    kind: str = "part",
+) -> np.ndarray:
+    """The cells of ``frame`` with its columns matched by label to ``labels``, in that order.
+
+    Every frame-shaped input (an SBP, a contrast matrix, balances given back to a
+    transformer) goes through here, so a table whose columns are in another order
+    is reordered and never read by position. Labels are compared as text. A frame
+    built without column names (columns ``0..k-1``) has no labels to match: its
+    columns are taken in order and must be ``len(labels)``. ``kind`` names what the
+    labels are in messages ("part", "balance").
+
+    Raises
+    ------
+    CompositionError (or ``error``, a subclass)
+        Repeated column labels, or labels that are not in ``labels`` / labels of
+        ``labels`` that are not columns, each listed by name.
+    """
+    labels = [str(p) for p in labels]
+    if is_unlabelled(frame.columns):
+        if frame.shape[1] != len(labels):
+            raise error(
+                f"{what}: {frame.shape[1]} unnamed columns for {len(labels)} {kind}s "
+                f"({_listing(labels)}); name the columns after the {kind}s"
+            )
+        return frame.to_numpy()
+    columns = [str(c) for c in frame.columns]
+    twice = sorted({c for c in columns if columns.count(c) > 1})
+    if twice:
+        raise error(f"{what}: column label(s) {_listing(twice)} appear twice")
+    unknown = [c for c in columns if c not in set(labels)]
+    missing = [p for p in labels if p not in set(columns)]
+    if unknown or missing:
+        problems = []
+        if unknown:
+            problems.append(f"column(s) {_listing(unknown)} are not among the {kind}s")
+        if missing:
+            problems.append(f"{kind}(s) {_listing(missing)} have no column")
+        raise error(
+            f"{what}: the columns do not match the {kind}s {_listing(labels, len(labels))}: "
+            + "; ".join(problems)
+        )
+    order = [columns.index(p) for p in labels]
+    return frame.to_numpy()[:, order]

@@ -9,7 +9,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._arrays import CompositionError, as_table, require_non_negative, require_positive
+from ._arrays import (
+    CompositionError,
+    as_table,
+    close_rows,
+    require_non_negative,
+    require_positive,
+)
 from .transforms import clr_values
 
 
@@ -35,8 +41,7 @@ def closure(X, total: float = 1.0):
         raise CompositionError(f"closure: total must be a positive number, got {total!r}")
     t = as_table(X)
     require_non_negative(t)
-    v = t.values
-    return t.wrap(total * v / v.sum(axis=1, keepdims=True))
+    return t.wrap(close_rows(t.values, total))
 
 
 def perturb(X, Y):
@@ -48,7 +53,9 @@ def perturb(X, Y):
     require_positive(tx)
     require_positive(ty)
     _same_parts(tx, ty)
-    v = tx.values * ty.values
+    # in logarithms, so that products beyond the float range still close correctly
+    logv = np.log(tx.values) + np.log(ty.values)
+    v = np.exp(logv - logv.max(axis=1, keepdims=True))
     return _result_table(tx, ty).wrap(v / v.sum(axis=1, keepdims=True))
 
 

@@ -248,9 +248,10 @@ def compositional_outliers(
     ----------
     X : array-like or DataFrame of shape (n, D)
         Strictly positive compositions (closure is not needed: ilr is scale invariant).
-    basis : array-like of shape (D-1, D), optional
+    basis : array-like or DataFrame of shape (D-1, D), optional
         Orthonormal contrast basis of the ilr (default: the pivot basis); the
-        distances do not depend on it.
+        distances do not depend on it. A DataFrame is matched to ``X``'s columns
+        by label.
     quantile, cutoff, support_fraction, random_state, max_fit_rows
         See :func:`robust_distances`; the default cut-off is
         ``sqrt(chi2.ppf(0.975, D - 1))`` (Filzmoser & Hron 2008).
@@ -264,7 +265,8 @@ def compositional_outliers(
     t = as_table(X, min_parts=2)
     require_positive(t)
     D = t.values.shape[1]
-    V = default_basis(D) if basis is None else check_basis(basis, D)
+    parts = t.part_names() if t.labelled else None
+    V = default_basis(D) if basis is None else check_basis(basis, D, parts)
     coords = clr_values(t) @ V.T
     if t.index is not None:
         coords = pd.DataFrame(coords, index=t.index)

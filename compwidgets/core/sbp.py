@@ -22,7 +22,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from ._arrays import CompositionError, as_table
+from ._arrays import CompositionError, as_table, is_unlabelled, match_columns
 from .transforms import clr_values
 
 
@@ -30,16 +30,29 @@ class SBPError(CompositionError):
     """An SBP matrix that is not a valid sequential binary partition."""
 
 
-def _as_sbp_array(sbp) -> tuple[np.ndarray, list | None]:
-    parts = None
+def _as_sbp_array(sbp, parts: Sequence[str] | None = None) -> tuple[np.ndarray, list | None]:
+    """The SBP as a float matrix and the part names its labels give (None when unlabelled).
+
+    A DataFrame (or a Series, one balance) is matched to ``parts`` by its column
+    labels when both are given, and its columns are reordered to ``parts``.
+    """
+    labels = None
+    if isinstance(sbp, pd.Series):
+        sbp = sbp.to_frame().T
     if isinstance(sbp, pd.DataFrame):
-        parts = [str(c) for c in sbp.columns]
-        sbp = sbp.to_numpy()
+        if parts is not None:
+            labels = [str(p) for p in parts]
+            sbp = match_columns(sbp, labels, "SBP", SBPError)
+        elif not is_unlabelled(sbp.columns):
+            labels = [str(c) for c in sbp.columns]
+            sbp = sbp.to_numpy()
+        else:
+            sbp = sbp.to_numpy()
     try:
         S = np.asarray(sbp, dtype=float)
     except (TypeError, ValueError) as err:
         raise SBPError(f"SBP: cannot read as a matrix of -1/0/+1 ({err})") from None
-    return S, parts
+    return S, labels
 
 
 def validate_sbp(sbp, parts: Sequence[str] | None = None, complete: bool = True) -> np.ndarray:
@@ -48,9 +61,14 @@ def validate_sbp(sbp, parts: Sequence[str] | None = None, complete: bool = True)
     Parameters
     ----------
     sbp : array-like or DataFrame
-        Signed matrix (balances as rows, parts as columns).
+        Signed matrix (balances as rows, parts as columns). A DataFrame is
+        matched to ``parts`` by its column labels and reordered to them; columns
+        it has that are not in ``parts``, or parts it has no column for, are
+        refused by name. (Columns ``0..D-1``, as pandas names a frame built
+        without labels, are taken in order.)
     parts : sequence of str, optional
-        Part names, only used to make error messages readable.
+        The parts, in the order of the result's columns (also named in the
+        messages). Without them a DataFrame keeps its own column order.
     complete : bool, default True
         Require all D-1 rows. With False, a partition still being built
         (its first k rows, 1 <= k <= D-1) is accepted; its balances are
@@ -61,8 +79,8 @@ def validate_sbp(sbp, parts: Sequence[str] | None = None, complete: bool = True)
     SBPError
         With the (1-based) row that is wrong and why.
     """
-    S, frame_parts = _as_sbp_array(sbp)
-    names = list(parts) if parts is not None else frame_parts
+    S, frame_parts = _as_sbp_array(sbp, parts)
+    names = [str(p) for p in parts] if parts is not None else frame_parts
     if S.ndim != 2:
         raise SBPError(f"SBP: expected a 2-D matrix (balances x parts), got {S.ndim}-D")
     n_rows, D = S.shape
@@ -145,27 +163,25 @@ def balances(X, sbp, names: Sequence[str] | None = None, complete: bool = True):
     ----------
     X : array-like or DataFrame of shape (n, D)
     sbp : array-like or DataFrame of shape (D-1, D)
-        When both are DataFrames the SBP's columns are matched to ``X``'s by name.
+        A DataFrame is matched to ``X``'s columns by label (reordered; unknown or
+        missing labels refused by name); with an unlabelled ``X`` its labels name
+        the parts of ``X``'s columns in order.
     names : list of str, optional
         Column names of the result; default :func:`balance_names`.
     complete : bool, default True
         With False, a partial SBP (its first k rows) gives its k balances.
     """
     t = as_table(X, min_parts=2)
-    if isinstance(sbp, pd.DataFrame) and t.labelled:
-        missing = [c for c in t.columns if c not in sbp.columns]
-        extra = [c for c in sbp.columns if c not in t.columns]
-        if missing or extra:
-            raise SBPError(
-                f"SBP parts do not match the data: missing {missing}, not in the data {extra}"
-            )
-        sbp = sbp[list(t.columns)]
-    shape = _as_sbp_array(sbp)[0].shape
-    S = validate_sbp(sbp, t.part_names() if shape[-1:] == (t.values.shape[1],) else None, complete)
-    if S.shape[1] != t.values.shape[1]:
-        raise SBPError(f"SBP has {S.shape[1]} parts but the data have {t.values.shape[1]}")
+    D = t.values.shape[1]
+    parts = t.part_names()
+    matrix, own = _as_sbp_array(sbp)
+    if not t.labelled and own is not None:  # unlabelled data: the SBP's labels name the parts
+        parts = own
+    if (own is None or not t.labelled) and matrix.shape[-1:] != (D,):
+        raise SBPError(f"SBP has {matrix.shape[-1]} parts but the data have {D}")
+    S = validate_sbp(sbp, parts, complete)
     if names is None:
-        names = balance_names(S, t.part_names(), complete)
+        names = balance_names(S, parts, complete)
     elif len(names) != S.shape[0]:
         raise SBPError(f"{len(names)} balance names given for {S.shape[0]} balances")
     return t.wrap(clr_values(t) @ sbp_basis(S, complete).T, list(names))

@@ -7,7 +7,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from ._arrays import CompositionError, as_table, require_non_negative, resolve_parts
+from ._arrays import CompositionError, as_table, close_rows, require_non_negative, resolve_parts
 
 
 def subcomposition(X, parts: Sequence):
@@ -19,7 +19,7 @@ def subcomposition(X, parts: Sequence):
     sub = t.values[:, cols]
     t_sub = type(t)(sub, t.index, None if t.columns is None else t.columns[cols], t.single, t.name)
     require_non_negative(t_sub)
-    return t_sub.wrap(sub / sub.sum(axis=1, keepdims=True))
+    return t_sub.wrap(close_rows(sub))
 
 
 def amalgamate(X, groups: Mapping[str, Sequence], keep_rest: bool = True):

@@ -26,7 +26,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ._arrays import CompositionError
+from ._arrays import CompositionError, close_rows
 from .operations import closure
 from .stats import center
 from .transforms import clr, clr_inv
@@ -378,7 +378,7 @@ def line_through(x1, x2, n_points: int = 201, min_share: float = 1e-3, t=None) -
     if t is None:
         if not 0.0 < min_share < 1.0 / a.shape[1]:
             raise CompositionError(f"min_share must be in (0, 1/D), got {min_share!r}")
-        span = _span(a[0] / a[0].sum(), d, min_share)
+        span = _span(close_rows(a[0]), d, min_share)
         t = np.linspace(-span, span, int(n_points))
     return compositional_line(a[0], d, t)
 
@@ -405,5 +405,5 @@ def line_along(origin, direction, n_points: int = 201, min_share: float = 1e-3) 
         raise CompositionError("line_along: the direction must be finite and not zero")
     if not 0.0 < min_share < 1.0 / x0.shape[1]:
         raise CompositionError(f"min_share must be in (0, 1/D), got {min_share!r}")
-    span = _span(x0[0] / x0[0].sum(), d, min_share)
+    span = _span(close_rows(x0[0]), d, min_share)
     return compositional_line(x0[0], d, np.linspace(-span, span, int(n_points)))

@@ -10,8 +10,17 @@ Isometric logratio transformations for compositional data analysis (ilr).
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
-from ._arrays import CompositionError, Table, as_table, require_finite, require_positive
+from ._arrays import (
+    CompositionError,
+    Table,
+    as_table,
+    is_unlabelled,
+    match_columns,
+    require_finite,
+    require_positive,
+)
 
 
 def clr_values(t: Table) -> np.ndarray:
@@ -129,8 +138,24 @@ def default_basis(D: int) -> np.ndarray:
     return V
 
 
-def check_basis(basis, D: int) -> np.ndarray:
-    """Return ``basis`` as a float (D-1, D) array or raise if it is not orthonormal contrasts."""
+def _basis_frame(basis, parts) -> tuple[object, list[str] | None]:
+    """A contrast matrix given as a DataFrame, matched by label to ``parts`` (if any).
+
+    Returns the matrix (reordered to ``parts``) and the part names its labels give.
+    """
+    if not isinstance(basis, pd.DataFrame) or is_unlabelled(basis.columns):
+        return (basis.to_numpy() if isinstance(basis, pd.DataFrame) else basis), None
+    if parts is None:
+        return basis.to_numpy(), [str(c) for c in basis.columns]
+    return match_columns(basis, parts, "ilr basis"), [str(p) for p in parts]
+
+
+def check_basis(basis, D: int, parts=None) -> np.ndarray:
+    """Return ``basis`` as a float (D-1, D) array or raise if it is not orthonormal contrasts.
+
+    A DataFrame basis is matched to ``parts`` by its column labels (reordered).
+    """
+    basis = _basis_frame(basis, parts)[0]
     try:
         V = np.asarray(basis, dtype=float)
     except (TypeError, ValueError) as err:
@@ -162,27 +187,37 @@ def ilr(X, basis=None, names=None):
 
     Parameters
     ----------
-    basis : array-like of shape (D-1, D), optional
+    basis : array-like or DataFrame of shape (D-1, D), optional
         Orthonormal contrast matrix (rows sum to zero); default :func:`default_basis`.
+        A DataFrame (e.g. ``export.contrast_frame``) is matched to ``X``'s columns
+        by label when ``X`` is labelled.
     names : list of str, optional
         Output column names (default ``ilr1 .. ilr{D-1}``).
     """
     t = as_table(X, min_parts=2)
     D = t.values.shape[1]
-    V = default_basis(D) if basis is None else check_basis(basis, D)
+    parts = t.part_names() if t.labelled else None
+    V = default_basis(D) if basis is None else check_basis(basis, D, parts)
     if names is None:
         names = [f"ilr{i + 1}" for i in range(D - 1)]
     return t.wrap(clr_values(t) @ V.T, list(names))
 
 
 def ilr_inv(Y, basis=None, parts=None):
-    """Inverse ilr: ``C[exp(y @ V)]``; ``parts`` names the D parts of the result."""
+    """Inverse ilr: ``C[exp(y @ V)]``; ``parts`` names the D parts of the result.
+
+    A DataFrame ``basis`` is matched to ``parts`` by its column labels; without
+    ``parts`` its labels name the parts of the result.
+    """
     t = as_table(Y, "Y", 1)
     require_finite(t)
     D = t.values.shape[1] + 1
+    if parts is not None and len(parts) != D:
+        raise CompositionError(f"ilr_inv: {len(parts)} part names given for {D} parts")
+    if basis is not None:
+        basis, own = _basis_frame(basis, parts)
+        parts = own if parts is None else parts
     V = default_basis(D) if basis is None else check_basis(basis, D)
     if parts is None:
         parts = [f"x{j + 1}" for j in range(D)]
-    elif len(parts) != D:
-        raise CompositionError(f"ilr_inv: {len(parts)} part names given for {D} parts")
     return t.wrap(_inverse_clr_values(t.values @ V), list(parts))

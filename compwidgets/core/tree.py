@@ -29,6 +29,8 @@ import numpy as np
 from .sbp import SBPError, validate_sbp
 
 _KEYS = ("id", "parts", "children")
+#: Every key a node may have ("name" is optional).
+_ALLOWED = ("id", "parts", "name", "children")
 
 
 def _where(node, path: str) -> str:
@@ -50,6 +52,12 @@ def _check_node(node, path: str) -> None:
     missing = [k for k in _KEYS if k not in node]
     if missing:
         raise SBPError(f"{where}: missing key(s) {', '.join(missing)}")
+    unknown = [k for k in node if k not in _ALLOWED]
+    if unknown:
+        raise SBPError(
+            f"{where}: unknown key(s) {', '.join(map(repr, unknown))}; a node has "
+            f"{', '.join(_ALLOWED)}"
+        )
     if not isinstance(node["id"], str) or not node["id"]:
         raise SBPError(f"tree node at {path}: 'id' must be a non-empty string, got {node['id']!r}")
     if "name" in node and not isinstance(node["name"], str):
@@ -88,7 +96,7 @@ def validate_tree(tree, parts: Sequence[str]) -> None:
     ------
     SBPError
         Naming the node (by id, or by its path such as ``root/0/1``) and the
-        parts concerned: not a dict, missing key, bad id or name, duplicate
+        parts concerned: not a dict, missing or unknown key, bad id or name, duplicate
         id, duplicate / missing / unknown part, one part split, exactly one
         child, children that do not partition their parent.
     """

@@ -27,6 +27,10 @@ TEXT_EXTENSIONS = (".csv", ".tsv", ".txt")
 EXCEL_EXTENSIONS = (".xlsx", ".xlsm", ".xls")
 
 
+class MissingFileError(CompositionError, FileNotFoundError):
+    """The path given to read a table from names no file (both error kinds catch it)."""
+
+
 @dataclass
 class Loaded:
     """The table with text column names, where it came from, and notes on its cells."""
@@ -222,7 +226,7 @@ def load(source, options: Options) -> Loaded:
             f"{', '.join(TEXT_EXTENSIONS + EXCEL_EXTENSIONS)} files, or pass a DataFrame"
         )
     if not path.is_file():
-        raise FileNotFoundError(f"no such file: {str(path)!r}")
+        raise MissingFileError(f"no such file: {str(path)!r}")
     note = {"source": str(path), "sheet_name": None, "sep": None, "encoding": None}
     formulas: dict = {}
     notes: dict = {}

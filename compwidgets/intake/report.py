@@ -20,14 +20,20 @@ FLAG_COLUMNS = ("reason", "code", "total", "stated_total")
 def number_text(x) -> np.ndarray:
     """Numbers as short text with 6 significant digits ('5', '0.0003', '1.5e-07')."""
     values = np.asarray(x, dtype=float)
-    return np.char.mod("%.6g", values).astype(object) if values.size else values.astype(object)
+    out = np.empty(values.shape, dtype=object)
+    # Python's own formatting is several times faster than numpy's char.mod here
+    out.ravel()[:] = list(map("{:.6g}".format, values.ravel().tolist()))
+    return out
 
 
 def window_text(x: np.ndarray, lo: float, hi: float) -> np.ndarray:
     """Totals with 2 decimals, more where rounding would hide that they are outside."""
+    x = np.asarray(x, dtype=float)
     short = np.round(x, 2)
     inside = (short >= lo) & (short <= hi)
-    return np.where(inside, np.round(x, 6), short).astype(str).astype(object)
+    out = np.empty(x.shape, dtype=object)
+    out[:] = list(map(repr, np.where(inside, np.round(x, 6), short).tolist()))
+    return out
 
 
 def _labels(index: pd.Index, pos: np.ndarray) -> np.ndarray:
@@ -75,15 +81,23 @@ def one(column, action, code, original, value, detail) -> pd.DataFrame:
     )
 
 
-def _append(reason: np.ndarray, mask: np.ndarray, text) -> np.ndarray:
-    text = np.asarray(text, dtype=object)
-    joined = np.where(reason == "", text, reason + "; " + text)
-    return np.where(mask, joined, reason)
+def _append(joined: np.ndarray, mask: np.ndarray, text, separator: str) -> None:
+    """Append ``text`` (one string, or one per row) to ``joined`` where ``mask``, in place.
 
-
-def _append_code(code: np.ndarray, mask: np.ndarray, name: str) -> np.ndarray:
-    joined = np.where(code == "", name, code + codes.CODE_SEPARATOR + name)
-    return np.where(mask, joined, code)
+    ``joined`` holds None where nothing was written yet.
+    """
+    at = np.flatnonzero(mask)
+    if not at.size:
+        return
+    piece = np.asarray(text, dtype=object)
+    piece = piece[at] if piece.ndim else piece
+    current = joined[at]
+    empty = np.equal(current, None)
+    if not empty.all():
+        full = ~empty
+        piece = np.broadcast_to(piece, at.shape).astype(object)
+        piece[full] = current[full] + separator + piece[full]
+    joined[at] = piece
 
 
 def flag_rows(st: IntakeState):
@@ -103,13 +117,12 @@ def flag_rows(st: IntakeState):
     nr = st.not_replaced
     flagged = ~observed_any | missing_any | out | mismatch | (nr > 0)
     pos = np.flatnonzero(flagged)
-    reason = np.full(len(pos), "", dtype=object)
-    code = np.full(len(pos), "", dtype=object)
+    reason = np.full(len(pos), None, dtype=object)
+    code = np.full(len(pos), None, dtype=object)
 
     def add(mask, text, name):
-        nonlocal reason, code
-        reason = _append(reason, mask, text)
-        code = _append_code(code, mask, name)
+        _append(reason, mask, text, "; ")
+        _append(code, mask, name, codes.CODE_SEPARATOR)
 
     add(~observed_any[pos], codes.REASONS[codes.NO_PART_OBSERVED], codes.NO_PART_OBSERVED)
     if missing_any[pos].any():

@@ -19,6 +19,8 @@ from collections.abc import Sequence
 import bqplot as bq
 import numpy as np
 
+from .. import core
+
 #: Categorical colours, in the order groups receive them.
 PALETTE: tuple[str, ...] = (
     "#2d69c3",  # cobalt
@@ -110,25 +112,17 @@ def part_members(model, part: str) -> list[str]:
 def check_view_parts(model, parts: Sequence[str], count: int) -> list[str]:
     """Validate parts shown by a view: ``count`` distinct known parts sharing no member.
 
+    The rule is :func:`compwidgets.core.check_parts`, the same as for the model's
+    active parts.
+
     Raises
     ------
-    ValueError
+    compwidgets.core.CompositionError
         Naming the unknown, repeated or overlapping parts.
     """
-    parts = [str(p) for p in parts]
-    if len(parts) != count:
-        raise ValueError(f"this view shows exactly {count} parts, got {len(parts)}: {parts}")
-    unknown = [p for p in parts if p not in model.available_parts]
-    if unknown:
-        raise ValueError(
-            f"unknown part(s) {unknown}; available: {', '.join(model.available_parts)}"
-        )
-    if len(set(parts)) != len(parts):
-        raise ValueError(f"a part is listed twice in {parts}")
-    members = [m for p in parts for m in part_members(model, p)]
-    if len(set(members)) != len(members):
-        raise ValueError(f"parts {parts} share a member part; each part may be counted once")
-    return parts
+    return core.check_parts(
+        parts, model.parts, model.amalgamations, count=count, what="parts shown"
+    )
 
 
 def replaced_rows(model, parts: Sequence[str]) -> np.ndarray:

@@ -24,6 +24,11 @@ would overlap (:func:`compwidgets.core.biplot.ray_label_positions`).
 
 Example
 -------
+>>> import compwidgets as cw
+>>> table = cw.demo.stream_sediments(n=300)  # invented survey
+>>> model = cw.CompositionModel(
+...     cw.read_composition(table, detection_limits=cw.demo.DETECTION_LIMITS)
+... )
 >>> view = BiplotView(model, components=(0, 2), scaling="form")
 >>> view.picked_parts = ["SiO2", "CaO"]   # show their link
 """

@@ -352,15 +352,7 @@ class BalanceBuilder(anywidget.AnyWidget):
             return _Partition(sbp, [], [], [], [], [])
         defaults = core.balance_names(sbp, parts, complete=False)
         custom = [str(n).strip() for n in names]
-        display = [c or d for c, d in zip(custom, defaults, strict=True)]
-        seen: dict[str, int] = {}
-        for i, name in enumerate(display):
-            if name in seen:
-                raise core.SBPError(
-                    f"the balance name {name!r} is used twice (balances {seen[name] + 1} and "
-                    f"{i + 1}); each balance needs its own name"
-                )
-            seen[name] = i
+        display = core.check_balance_names(custom, sbp, parts)  # "" = default; distinct
         sides = [
             (list(n["children"][0]["parts"]), list(n["children"][1]["parts"]))
             for n in split_nodes(tree)
@@ -383,7 +375,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         colour_name = part.display[part.ids.index(colour_id)] if colour_id else ""
         try:
             self._push_to_model(part, colour_name)
-        except (ModelError, t.TraitError) as err:
+        except ModelError as err:
             self._refuse(str(err))
             return False
         self._install(copy.deepcopy(tree), parts, part, colour_id)
@@ -422,12 +414,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         try:
             with m.hold_trait_notifications():
                 if part.sbp.shape[0] == 0:
-                    if m.colour_by:
-                        m.colour_by = ""
-                    if m.sbp is not None:
-                        m.sbp = None
-                    if m.balance_names:
-                        m.balance_names = []
+                    m.clear_sbp()  # names and colour_by follow
                     return
                 if _row_map(m.sbp, m.balance_names) != _row_map(part.sbp, part.display):
                     m.set_sbp(part.sbp, part.display)

@@ -23,9 +23,14 @@ Assignments are exploratory (see :data:`compwidgets.discriminant.CAUTION`).
 
 Example
 -------
+>>> import compwidgets as cw
+>>> table = cw.demo.stream_sediments(n=400)  # invented survey, five catchments
+>>> model = cw.CompositionModel(cw.read_composition(table), group_column="catchment")
 >>> view = DiscriminantView(model, kind="quadratic")
->>> view.rule.confusion_frame()      # the counts of the grid
->>> view.select_cell(0, 1)           # rows of the first group assigned to the second
+>>> counts = view.rule.confusion_frame()  # the counts of the grid
+>>> view.select_cell(0, 1)  # rows of the first group assigned to the second
+>>> bool(len(model.selection) == counts.iat[0, 1])
+True
 """
 
 from __future__ import annotations

@@ -7,6 +7,12 @@ from :mod:`compwidgets.core`; this module only places marks and text.
 
 Example
 -------
+>>> import compwidgets as cw
+>>> table = cw.demo.stream_sediments(n=300)  # invented survey
+>>> model = cw.CompositionModel(
+...     cw.read_composition(table, detection_limits=cw.demo.DETECTION_LIMITS)
+... )
+>>> model.amalgamations = {"mafic": ["Fe2O3", "MgO"]}
 >>> view = TernaryView(model, ["SiO2", "Al2O3", "mafic"], probability_levels=[0.9, 0.99])
 >>> view.centred = True          # perturb data and grid by the inverse data centre
 >>> view.parts = ["Na2O", "K2O", "CaO"]
@@ -26,7 +32,7 @@ from ..core import CompositionError, center
 from ..core import discriminant as core_discriminant
 from ..core import regions as core_regions
 from ..core import ternary as core_ternary
-from ..model import CompositionModel
+from ..model import CompositionModel, ModelError
 from . import _common as cm
 from ._scatter import ScatterView
 
@@ -189,8 +195,8 @@ class TernaryView(ScatterView):
     def _check_parts(self, proposal):
         try:
             return cm.check_view_parts(self.model, proposal["value"], 3)
-        except ValueError as err:
-            raise t.TraitError(f"TernaryView.parts: {err}") from None
+        except CompositionError as err:
+            raise ModelError(f"TernaryView.parts: {err}") from None
 
     @t.validate("grid_step")
     def _check_step(self, proposal):

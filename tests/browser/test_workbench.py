@@ -157,14 +157,15 @@ def test_quick_start_renders_every_view(quick_start):
         for part in triple:
             assert part in texts, f"ternary {k}: no label {part!r} among {sorted(set(texts))[:40]}"
 
-    # the builder starts with one group holding every active part
+    # the notebook puts the builder's Ward suggestion on the model: the dendrogram draws one
+    # balance per split of the active parts (D - 1 for a complete partition), the first over
+    # the root group, and the table lists them
     active = nb.kernel_json("list(bench.model.active_parts)")
     root_id = nb.kernel_json('bench.builder.tree["id"]')
-    leaf = nb.page.locator(f'.cw-builder [data-role="leaf"][data-node-id="{root_id}"]')
-    assert leaf.count() == 1
-    assert leaf.get_attribute("aria-label") == (
-        f"group of {len(active)} parts: {', '.join(active)} (click to split)"
-    )
+    builder = nb.page.locator(".cw-builder")
+    assert builder.locator('[data-role="balance"]').count() == len(active) - 1
+    assert builder.locator(f'[data-role="balance"][data-node-id="{root_id}"]').count() == 1
+    assert builder.locator('[data-role="balance-row"]').count() == len(active) - 1
 
     # the selection bar and the builder show the model's selection (the notebook selects one
     # catchment in code)
