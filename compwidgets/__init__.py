@@ -30,6 +30,8 @@ _LAZY = {
     "BalanceTransformer": ("compwidgets.transformer", "BalanceTransformer"),
     "TernaryView": ("compwidgets.views.ternary", "TernaryView"),
     "BiplotView": ("compwidgets.views.biplot", "BiplotView"),
+    "DiscriminantView": ("compwidgets.views.discriminant", "DiscriminantView"),
+    "GroupDiscriminant": ("compwidgets.discriminant", "GroupDiscriminant"),
     "BalanceBuilder": ("compwidgets.views.builder", "BalanceBuilder"),
     "demo": ("compwidgets.demo", None),
     "export": ("compwidgets.export", None),

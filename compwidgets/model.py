@@ -30,18 +30,26 @@ _MISSING = object()
 _BLOCK_ROWS = 65536
 
 
-def _nbytes(value) -> int:
-    """Approximate bytes held by a cached value (arrays, frames, tuples, dataclasses)."""
+def _nbytes(value, depth: int = 0) -> int:
+    """Approximate bytes held by a cached value (arrays, frames, tuples, plain objects).
+
+    Objects are looked into two levels deep; the model, widgets and the
+    composition they may refer to are shared, not held, and count nothing.
+    """
     if isinstance(value, np.ndarray):
         return int(value.nbytes)
     if isinstance(value, (pd.DataFrame, pd.Series)):
         return int(np.sum(value.memory_usage(index=False)))
+    if isinstance(value, pd.Index):
+        return int(value.nbytes)
+    if isinstance(value, (t.HasTraits, Composition)) or depth > 2:
+        return 0
     if isinstance(value, (tuple, list)):
-        return sum(_nbytes(v) for v in value)
+        return sum(_nbytes(v, depth + 1) for v in value)
     if isinstance(value, dict):
-        return sum(_nbytes(v) for v in value.values())
+        return sum(_nbytes(v, depth + 1) for v in value.values())
     if hasattr(value, "__dict__"):
-        return sum(_nbytes(v) for v in vars(value).values())
+        return sum(_nbytes(v, depth + 1) for v in vars(value).values())
     return 64
 
 

@@ -157,6 +157,7 @@ class Workbench(w.AppLayout):
     model : CompositionModel
     ternaries : list of TernaryView
     biplot : BiplotView
+    discriminant : DiscriminantView
     builder : BalanceBuilder
     picker : SubcompositionPicker
     triage : TriagePanel
@@ -177,6 +178,7 @@ class Workbench(w.AppLayout):
         from .views._progress import ProgressLine
         from .views.biplot import BiplotView
         from .views.builder import BalanceBuilder
+        from .views.discriminant import DiscriminantView
         from .views.picker import SubcompositionPicker
         from .views.selection_bar import SelectionBar
         from .views.ternary import TernaryView
@@ -190,7 +192,7 @@ class Workbench(w.AppLayout):
             release_freed_memory()  # between stages: what a stage freed goes back first
             shown(done, total, text)
 
-        n_stages = 7
+        n_stages = 8
         report(0, n_stages, "choosing the ternary parts")
         triples = ternary_parts or default_ternary_parts(model)
         ident = default_id_column(model.metadata)
@@ -217,15 +219,19 @@ class Workbench(w.AppLayout):
             report(2 + k, n_stages, f"ternary {k + 1} ({', '.join(map(str, p))})")
             view = TernaryView(model, parts=list(p), mode=mode, id_column=ident)
             self.ternaries.append(following(view, f"ternary {k + 1}"))
-        report(4, n_stages, "balance builder")
+        report(4, n_stages, "discriminant")
+        self.discriminant = following(
+            DiscriminantView(model, mode=mode, id_column=ident), "discriminant"
+        )
+        report(5, n_stages, "balance builder")
         self.builder = following(BalanceBuilder(model), "balance builder")
-        report(5, n_stages, "parts and variation matrix")
+        report(6, n_stages, "parts and variation matrix")
         self.picker = following(
             SubcompositionPicker(model, ternaries=self.ternaries), "variation matrix"
         )
-        report(6, n_stages, "triage")
+        report(7, n_stages, "triage")
         self.triage = TriagePanel(model)  # screens for outliers when its tab opens
-        self.views = [*self.ternaries, self.biplot]
+        self.views = [*self.ternaries, self.biplot, self.discriminant]
         self.selection_bar = SelectionBar(model, views=self.views)
         self._watch_parts(self._parts_end)
 
@@ -236,7 +242,7 @@ class Workbench(w.AppLayout):
         self.sidebar = sidebar
         # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
         plots = w.Box(
-            children=[*self.ternaries, self.biplot],
+            children=self.views,
             layout=w.Layout(display="flex", flex_flow="row wrap", grid_gap="8px"),
         )
         super().__init__(

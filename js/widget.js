@@ -26,7 +26,7 @@ import { defaultBalanceName, rowsUsedText, selectedCountText, totalVarianceText 
 import { layoutDendrogram } from "./layout.js";
 import { drawSuggestMenu, menuStep } from "./menu.js";
 import { drawSplitter } from "./splitter.js";
-import { drawTable } from "./table.js";
+import { createTableSort, drawTable, nextSort } from "./table.js";
 import { applySplit, canMerge, canSplit, findNode, findParent, isLeaf, mergeWithSibling, movePart, pendingReady, renameBalance, sameParts, sameTree, splitNodes, startSplit, togglePart, unsplitNode } from "./tree.js";
 
 /**
@@ -181,7 +181,7 @@ export function render({ model, el }) {
   el.appendChild(root);
 
   // ---- state
-  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string, focusNext: string | null, menuOpen: boolean, draft: {key: string, value: string} | null}} */
+  /** @type {{history: import("./history.js").History<TreeNode>, openLeaf: string | null, pending: PendingSplit | null, dragIndex: number | null, localError: string, focusNext: string | null, menuOpen: boolean, draft: {key: string, value: string} | null, tableSort: import("./table.js").TableSort}} */
   const state = {
     history: createHistory(model.get("tree")),
     openLeaf: null,
@@ -191,6 +191,7 @@ export function render({ model, el }) {
     focusNext: null, // data-focus-key of the element an action wants focused after the redraw
     menuOpen: false,
     draft: null, // a balance name being typed: {key, value}
+    tableSort: createTableSort(),
   };
   const present = () => state.history.present;
 
@@ -351,6 +352,7 @@ export function render({ model, el }) {
         mean: s ? s.mean : null,
         selectionMean: sel ? sel.mean : null,
         selectionN: sel ? sel.n : 0,
+        separation: s ? s.separation || null : null,
       };
     });
     const svgNode = drawDendrogram(doc, lay, {
@@ -382,7 +384,7 @@ export function render({ model, el }) {
     }
 
     // table
-    tableBox.replaceChildren(drawTable(doc, rows, colourBalance));
+    tableBox.replaceChildren(drawTable(doc, rows, colourBalance, state.tableSort));
     restoreFocus(saved);
   }
 
@@ -541,6 +543,10 @@ export function render({ model, el }) {
     ["leaf", (hit) => showLeaf(hit.getAttribute("data-node-id") || "")],
     ["balance", (hit) => toggleColour(hit.getAttribute("data-node-id") || "", true)],
     ["balance-row", (hit) => toggleColour(hit.getAttribute("data-node-id") || "")],
+    ["sort", (hit) => {
+      state.tableSort = nextSort(state.tableSort, hit.getAttribute("data-sort-key") || "");
+      paint();
+    }],
     ["apply-split", () => {
       const pending = state.pending;
       if (pending) commit(() => applySplit(present(), pending), () => `balance:${pending.nodeId}`);

@@ -637,3 +637,67 @@ def test_closing_the_builder_closes_its_figure_control(model):
     control = b.figure_control
     b.close()
     assert control.comm is None
+
+
+# --------------------------------------------------------------------- group separation
+
+
+def _separation_reference(b: np.ndarray, labels: np.ndarray) -> dict:
+    """scipy.stats one-way ANOVA and Kruskal-Wallis; eta squared by its definition."""
+    from scipy import stats
+
+    samples = [b[labels == g] for g in pd.unique(labels)]
+    f = stats.f_oneway(*samples)
+    h = stats.kruskal(*samples)
+    between = sum(s.size * (s.mean() - b.mean()) ** 2 for s in samples)
+    return {
+        "anova_f": f.statistic,
+        "anova_p": f.pvalue,
+        "kruskal_h": h.statistic,
+        "kruskal_p": h.pvalue,
+        "between_share": between / np.sum((b - b.mean()) ** 2),
+    }
+
+
+def test_each_balance_carries_its_group_separation(builder, model):
+    # Source: scipy.stats.f_oneway and scipy.stats.kruskal on the balances computed from
+    # their definition, grouped by the model's grouping column.
+    from_front_end(builder, tree=two_splits())
+    X = _values()
+    sides = [(["Aa", "Bb"], ["Cc", "Dd", HTML_PART]), (["Cc"], ["Dd", HTML_PART])]
+    for group_column in ("site", "batch"):
+        model.group_column = group_column
+        labels = model.metadata[group_column].to_numpy()
+        for entry, (num, den) in zip(builder.stats, sides, strict=True):
+            expected = _separation_reference(balance_by_definition(X, num, den), labels)
+            sep = entry["separation"]
+            for key, value in expected.items():
+                assert sep[key] == pytest.approx(value, rel=1e-9), (group_column, key)
+            assert sep["n"] == N and sep["kruskal_n"] == N
+            assert sep["n_groups"] == len(pd.unique(labels))
+    model.group_column = ""
+    assert all(entry["separation"] is None for entry in builder.stats)
+
+
+def test_separation_follows_a_group_made_from_the_selection(builder, model):
+    from_front_end(builder, tree=first_split())
+    model.select(np.arange(0, N, 3))
+    model.selection_to_group("picked")
+    labels = model.metadata["picked"].to_numpy()
+    b = balance_by_definition(_values(), PARTS[:2], PARTS[2:])
+    expected = _separation_reference(b, labels)
+    assert builder.stats[0]["separation"]["anova_f"] == pytest.approx(expected["anova_f"])
+
+
+def test_separation_is_kept_per_balance_and_recomputed_when_the_data_change(builder, model):
+    from_front_end(builder, tree=first_split())
+    first = dict(builder.stats[0]["separation"])
+    from_front_end(builder, tree=two_splits())  # the first balance is unchanged
+    assert builder.stats[0]["separation"] == first
+    model.active_parts = PARTS[:4]  # other parts: other balances, none kept
+    from_front_end(
+        builder, tree=split("n0", PARTS[:4], leaf("n1", PARTS[:2]), leaf("n2", PARTS[2:4]))
+    )
+    b = balance_by_definition(_values(), PARTS[:2], PARTS[2:4])
+    expected = _separation_reference(b, model.metadata["site"].to_numpy())
+    assert builder.stats[0]["separation"]["anova_f"] == pytest.approx(expected["anova_f"])

@@ -121,6 +121,47 @@ def test_variation_matrix_entries_are_log_ratio_variances(X):
     np.testing.assert_allclose(core.variation_matrix(X), expected, rtol=1e-8, atol=1e-9)
 
 
+def test_variation_matrix_of_a_nearly_constant_ratio_is_its_direct_variance():
+    # Two strongly varying parts (sd of ln x 3) in nearly constant ratio (sd of the
+    # log-ratio 1e-7, so T_01 is about 1e-14). Source: numpy.var(ddof=1) of
+    # ln(x_0 / x_1) computed directly, and the variance of the noise that made the ratio.
+    rng = np.random.default_rng(1)
+    n = 2_000
+    log_a = 3.0 * rng.standard_normal(n)
+    noise = 1e-7 * rng.standard_normal(n)
+    X = np.exp(np.column_stack([log_a, log_a + 0.3 + noise, rng.standard_normal(n)]))
+    direct = np.var(np.log(X[:, 0] / X[:, 1]), ddof=1)
+    T = core.variation_matrix(X)
+    assert T[0, 1] == T[1, 0]
+    assert T[0, 1] == pytest.approx(direct, rel=1e-9)
+    assert T[0, 1] == pytest.approx(np.var(noise, ddof=1), rel=1e-6)
+    # the same case through var(ln x_i) + var(ln x_j) - 2 cov is off by 100 % (numpy)
+    C = np.cov(np.log(X), rowvar=False, ddof=1)
+    shortcut = C[0, 0] + C[1, 1] - 2 * C[0, 1]
+    assert abs(shortcut - direct) > 0.5 * direct
+
+
+@pytest.mark.parametrize("log_ratio_sd", [1e-8, 1e-6, 1e-4, 3e-3, 3e-2, 0.3, 3.0])
+def test_variation_matrix_is_precise_at_every_conditioning(log_ratio_sd):
+    # Pairs from far below to far above the switch to the direct formula
+    # (core.stats.DIRECT_SHARE): every entry is the log-ratio variance to 1e-10 relative,
+    # or to the rounding of the ratio itself when that is larger (a relative error of
+    # about 1e-16 in x_i / x_j moves a log-ratio of sd s by 1e-16 / s of its spread; even
+    # var ln(x_i / x_j) and var ln(x_j / x_i) differ by that much).
+    # Source: numpy.var(ddof=1) of ln(x_i / x_j), cell by cell.
+    rng = np.random.default_rng(int(1e3 * log_ratio_sd) + 5)
+    n, D = 5_000, 5
+    base = 3.0 * rng.standard_normal((n, 1)) + 4.0
+    L = base + log_ratio_sd * rng.standard_normal((n, D)) + np.arange(D)
+    X = np.exp(L)
+    expected = np.array(
+        [[np.var(np.log(X[:, i] / X[:, j]), ddof=1) for j in range(D)] for i in range(D)]
+    )
+    T = core.variation_matrix(X)
+    np.testing.assert_allclose(T, expected, rtol=max(1e-10, 4e-16 / log_ratio_sd), atol=0)
+    assert np.all(T >= 0) and np.all(np.diag(T) == 0)
+
+
 @PROPERTY_SETTINGS
 @given(positive_compositions())
 def test_clr_covariance_is_numpy_cov_of_clr(X):

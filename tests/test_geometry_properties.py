@@ -3,6 +3,7 @@
 import numpy as np
 import pytest
 import scipy.linalg
+import scipy.stats
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
@@ -85,7 +86,7 @@ def test_points_in_polygon_agrees_with_matplotlib(polygon, seed):
 @given(st.integers(10, 60).flatmap(lambda n: arrays(np.float64, (n, 3), elements=logs)))
 def test_probability_region_does_not_depend_on_the_ilr_basis(L):
     X = np.exp(L)
-    level = 0.9
+    level, n = 0.9, X.shape[0]
     # The sample covariance in another orthonormal basis (scipy.linalg.helmert rows) of
     # the clr coordinates computed here by definition (Aitchison 1986): ln x - mean ln x.
     V = scipy.linalg.helmert(3)
@@ -103,9 +104,15 @@ def test_probability_region_does_not_depend_on_the_ilr_basis(L):
     # the float resolution of the log-values (~1e-15) cannot be resolved either
     assume(eig[-1] / eig[0] < 1e8)
     assume(np.sqrt(eig[0]) > 1e-6)
-    curve = rg.probability_region(X, level)
-    # every boundary point sits on the Mahalanobis radius chi2_2(level) (scipy.stats.chi2)
-    # of the same data in this basis
-    B = core.clr(curve) @ V.T - mean
-    m2 = np.einsum("ti,ij,tj->t", B, np.linalg.inv(cov), B)
-    np.testing.assert_allclose(m2, rg.probability_radius2(level), rtol=1e-6)
+    # every boundary point sits on the same Mahalanobis radius of the same data in this
+    # basis: chi2_2(level) (scipy.stats.chi2) for the known-parameter region,
+    # (n^2 - 1) p / (n (n - p)) F_{p, n-p}(level) (scipy.stats.f) for the prediction region
+    radius2 = {
+        "known_parameters": scipy.stats.chi2.ppf(level, 2),
+        "prediction": (n * n - 1) * 2 / (n * (n - 2)) * scipy.stats.f.ppf(level, 2, n - 2),
+    }
+    for kind, r2 in radius2.items():
+        curve = rg.probability_region(X, level, kind=kind)
+        B = core.clr(curve) @ V.T - mean
+        m2 = np.einsum("ti,ij,tj->t", B, np.linalg.inv(cov), B)
+        np.testing.assert_allclose(m2, r2, rtol=1e-6)

@@ -128,6 +128,32 @@ def test_first_balance_beats_random_sbps():
     assert first == pytest.approx(brute_force_best(X, range(D))[0], rel=1e-9)
 
 
+def test_a_whole_sbp_can_hold_a_larger_single_balance_than_the_first():
+    # What the search does not promise (core.principal notes): parts A and B vary strongly
+    # and independently, C and D hardly at all. The best split of all four parts
+    # (brute force over the balance formula) has a smaller variance than the balance
+    # A | B, which the SBP {A,B | C,D; A | B; C | D} holds. With var ln A = var ln B = 1:
+    # A | B,C,D gives 3/4 (1 + 1/9) = 0.83 and A | B gives 1/2 (1 + 1) = 1 (by hand).
+    rng = np.random.default_rng(3)
+    n = 4_000
+    logx = np.column_stack([rng.standard_normal((n, 2)), 0.01 * rng.standard_normal((n, 2))])
+    X = np.exp(logx)
+    S = principal_balances(X)
+    first = np.var(balance_direct(X, np.flatnonzero(S[0] > 0), np.flatnonzero(S[0] < 0)), ddof=1)
+    assert first == pytest.approx(brute_force_best(X, range(4))[0], rel=1e-9)
+    assert first == pytest.approx(0.83, abs=0.05)
+    a_vs_b = np.var(balance_direct(X, [0], [1]), ddof=1)
+    assert a_vs_b == pytest.approx(1.0, abs=0.06)
+    assert a_vs_b > first + 0.1
+    other = np.array([[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]])
+    core.validate_sbp(other)  # a valid SBP holding the A | B balance
+    # every row of the search is still the best split of its own group
+    for row in S:
+        group = np.flatnonzero(row != 0)
+        got = np.var(balance_direct(X, np.flatnonzero(row > 0), np.flatnonzero(row < 0)), ddof=1)
+        assert got == pytest.approx(brute_force_best(X, group)[0], rel=1e-9)
+
+
 def test_orientation_and_preorder():
     X = factor_data(50, 7, 4)
     S = principal_balances(X)

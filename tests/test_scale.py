@@ -22,6 +22,7 @@ from sklearn.covariance import MinCovDet
 import compwidgets as cw
 from compwidgets import core
 from compwidgets.core import biplot as core_biplot
+from compwidgets.core import discriminant as core_discriminant
 from compwidgets.core import geometry
 from compwidgets.core import ternary as core_ternary
 from compwidgets.model import CompositionModel
@@ -107,8 +108,9 @@ def test_switching_parts_back_reuses_every_derived_array(monkeypatch):
     # 6,000 rows: the views draw density images, so their bin numbers are cached too
     table = cw.demo.stream_sediments_clean(n=6000, seed=2)
     majors = [c for c in table.columns if str(c).endswith("(wt%)")]
-    bench = cw.explore(table, parts=majors, check_total=False, group="")
+    bench = cw.explore(table, parts=majors, check_total=False)  # grouped: a discriminant too
     model = bench.model
+    assert model.group_column and bench.discriminant.rule is not None
     assert {v.active_mode for v in bench.views} == {"density"}
     full = list(model.active_parts)
     fewer = full[:6]
@@ -124,14 +126,16 @@ def test_switching_parts_back_reuses_every_derived_array(monkeypatch):
     ]:
         counted(monkeypatch, module, name, calls)
     counted(monkeypatch, core_biplot, "ray_label_positions", calls, rows=1)  # one per part
+    counted(monkeypatch, core_discriminant, "fit_discriminant", calls)
     model.active_parts = fewer
     first = len(calls)
-    assert {"clr", "clr_biplot", "variation_matrix"} <= set(calls)  # new parts: computed
+    assert {"clr", "clr_biplot", "variation_matrix", "fit_discriminant"} <= set(calls)
     model.active_parts = full
     model.active_parts = fewer
     model.active_parts = full
     assert calls[first:] == []  # back and forth: every array came from the cache
     assert bench.biplot.biplot.parts == full and bench.picker.heatmap.names == full
+    assert bench.discriminant.rule.parts == full
 
 
 def test_the_cache_keeps_to_its_byte_budget():
@@ -172,7 +176,7 @@ def test_a_selection_change_opens_no_widget(rows, opened_comms):
     n = len(majors)
     model.set_sbp(np.triu(-np.ones((n - 1, n), dtype=int), 1) + np.eye(n - 1, n, dtype=int))
     mode = "density" if rows > 5000 else "points"
-    assert {v.active_mode for v in bench.views} == {mode}
+    assert {v.active_mode for v in bench.views if v.rows.size} == {mode}
     opened_comms.clear()
     rng = np.random.default_rng(1)
     before = [v._png.value for v in bench.views]

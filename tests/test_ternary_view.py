@@ -643,15 +643,29 @@ def test_density_picture_changes_without_a_new_widget(big_model, opened_comms):
     assert first.comm is None and second.comm is None
 
 
-def test_the_view_warns_that_small_group_regions_under_cover():
+def test_the_view_warns_when_its_regions_under_cover_by_kind_and_group_size():
     df = make_frame(200, seed=4)
     df["site"] = ["few"] * 12 + ["many"] * 188
     m = CompositionModel(read_composition(df, check_total=False), group_column="site")
     v = TernaryView(m, parts=PARTS[:3], probability_levels=[0.95], confidence_level=0.9)
-    assert "fewer than 30 rows: group 'few' (12)" in v.notes.value
-    assert "many" not in v.notes.value.split("fewer than 30 rows:")[1].split(";")[0]
-    assert "probability regions (normal model on ilr) at 95 %" in v.notes.value
+    # the default prediction regions hold their level at any size: no warning
+    assert v.probability_kind == "prediction"
+    assert "prediction regions for a new sample (normal model on ilr) at 95 %" in v.notes.value
+    assert "fewer new samples" not in v.notes.value
     assert "confidence region of the centre at 90 %" in v.notes.value
+    # the known-parameter (chi-square) regions: the small group is named with the share it
+    # holds; F(2, 10) law of the new sample's distance (core.regions.expected_coverage,
+    # checked by simulation in test_ternary_geometry): 87.0 % at 95 % for 12 rows
+    from scipy import stats
+
+    v.probability_kind = "known_parameters"
+    notes = v.notes.value
+    assert "known-parameter regions (chi-square, normal model on ilr) at 95 %" in notes
+    held = stats.f.cdf(stats.chi2.ppf(0.95, 2) * 12 * 10 / (2 * 13 * 11), 2, 10)
+    assert f"group 'few' (12 rows) about {100 * held:.3g} % at 95 %" in notes
+    assert "'many'" not in notes  # 188 rows: within 10 % of the nominal miss rate
+    v.probability_levels = [0.99]
+    assert "'many' (188 rows) about" in v.notes.value  # at 99 %: 313 rows are needed
 
 
 def test_hover_reads_traces_back_in_the_unit_they_were_reported_in():

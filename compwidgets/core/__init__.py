@@ -7,7 +7,18 @@ Every variance uses ddof = 1 (:data:`DDOF`). Log-ratio functions raise
 columns for zero, negative or non-finite input, never returning NaN.
 """
 
-from . import geometry, outliers, principal, regions, rules, summary, ternary, tree
+from . import (
+    discriminant,
+    geometry,
+    outliers,
+    principal,
+    regions,
+    rules,
+    separation,
+    summary,
+    ternary,
+    tree,
+)
 from ._arrays import CompositionError
 from .biplot import Biplot, clr_biplot, link_length, logratio_sd, ray_associations
 from .operations import (
@@ -72,11 +83,13 @@ __all__ = [
     "variation_matrix",
     "ward_sbp",
     # submodules
+    "discriminant",
     "geometry",
     "outliers",
     "principal",
     "regions",
     "rules",
+    "separation",
     "summary",
     "ternary",
     "tree",

@@ -13,6 +13,7 @@ from ._arrays import CompositionError
 
 __all__ = [
     "bin_index",
+    "bounding_corners",
     "counts_from_bins",
     "density_grid",
     "points_in_polygon",
@@ -224,3 +225,20 @@ def density_grid(x, y, extent, bins, weights_mask=None) -> np.ndarray:
         ``numpy.histogram2d(x, y, bins=(nx, ny), range=[[x0, x1], [y0, y1]])[0]``.
     """
     return counts_from_bins(bin_index(x, y, extent, bins), bins, weights_mask)
+
+
+def bounding_corners(x, y) -> np.ndarray:
+    """Lower-left and upper-right corners (2, 2) of the finite points' bounding box.
+
+    Shape (0, 2) when no point is finite. Limits computed from these two points
+    are those of all the points, at the cost of four numbers.
+    """
+    xa, ya = _xy(x, y)
+    finite = np.isfinite(xa) & np.isfinite(ya)
+    if finite.size and finite.all():
+        xs, ys = xa, ya
+    elif finite.any():
+        xs, ys = xa[finite], ya[finite]
+    else:
+        return np.zeros((0, 2))
+    return np.array([[xs.min(), ys.min()], [xs.max(), ys.max()]], dtype=float)

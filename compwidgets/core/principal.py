@@ -1,11 +1,33 @@
 """Suggested partitions: principal balances and Ward clustering of the parts.
 
 Principal balances (Pawlowsky-Glahn, Egozcue & Tolosana-Delgado 2011) are the
-balances of an SBP chosen so that each one has the largest possible variance.
-Here each group of parts, starting from all parts, is split by the
+balances of an SBP chosen one after another so that each explains as much of
+the remaining variance as possible (from memory; Martin-Fernandez et al. 2018
+review exact and approximate ways to find them). This module builds them top
+down: each group of parts, starting from all parts, is split by the
 bipartition whose balance has maximal sample variance (ddof = 1): an exact
 search over all ``2**(m-1) - 1`` bipartitions of a group of ``m`` parts when
 ``m <= max_exhaustive``, a local-search heuristic above that.
+
+What the search guarantees, precisely:
+
+* each balance is the best split *of its own group*: no other bipartition of
+  the parts it splits has a larger variance (exactly when the group has at
+  most ``max_exhaustive`` parts; above that, no single part moved to the other
+  side gives a larger one, a local maximum);
+* the groups are those made by the splits above (a tree, so the result is an
+  SBP), and with ``order="variance"`` the balances are taken in order of their
+  variance, the largest first;
+* the first balance has the largest variance among the balances that split
+  *all* the parts.
+
+It does *not* guarantee that the first balance is the largest-variance
+balance of any SBP: a balance between two smaller groups can vary more than
+every split of all parts, so a whole SBP holding a single balance of larger
+variance can exist (e.g. two strongly and independently varying parts among
+near-constant ones: their own balance beats every split of all parts; see the
+tests). Nor is the sum of the variances of the first k balances the largest
+possible over all SBPs.
 
 The variance of a balance with contrast vector ``v`` (Egozcue &
 Pawlowsky-Glahn 2005) is ``var(b) = v' C v`` with ``C`` the clr covariance
@@ -226,11 +248,12 @@ def principal_balances(
 
     Notes
     -----
-    Balance variances use ddof = 1. Splitting each group by its own best
-    bipartition is exactly the sequential construction of principal balances,
-    since the best split of one group does not depend on how the others are
-    split; the first balance is the global optimum whenever ``D <=
-    max_exhaustive``.
+    Balance variances use ddof = 1. The best split of one group does not
+    depend on how the other groups are split, so the order of the search does
+    not change the balances. Each row is the best split of its own group, and
+    the first row the best split of all parts when ``D <= max_exhaustive``; a
+    whole SBP holding a single balance of larger variance than the first row
+    can exist (see the module notes for exactly what is and is not guaranteed).
     """
     if int(max_exhaustive) != max_exhaustive or max_exhaustive < 2:
         raise CompositionError(f"max_exhaustive must be an integer >= 2, got {max_exhaustive!r}")

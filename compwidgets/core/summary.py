@@ -46,6 +46,33 @@ def _rows_mask(selected, n: int) -> np.ndarray:
     return mask
 
 
+def balance_table(B, what: str, names=None) -> np.ndarray:
+    """``B`` as a float matrix (n, k) of balances, or an error naming ``what``."""
+    try:
+        values = np.array(B, dtype=float)
+    except (TypeError, ValueError) as err:
+        raise CompositionError(f"{what}: cannot read B as numbers ({err})") from None
+    if values.ndim != 2:
+        raise CompositionError(f"{what}: B must be 2-D (n, k), got {values.ndim}-D")
+    if names is not None and len(names) != values.shape[1]:
+        raise CompositionError(f"{what}: {len(names)} names for {values.shape[1]} balances")
+    return values
+
+
+def group_codes(codes, n: int, n_groups: int, what: str) -> np.ndarray:
+    """``codes`` checked as n integer group codes in ``-1 .. n_groups - 1`` (-1 = none)."""
+    codes = np.asarray(codes)
+    if codes.shape != (n,) or not np.issubdtype(codes.dtype, np.integer):
+        raise CompositionError(
+            f"{what}: codes must be {n} integers, got dtype {codes.dtype}, shape {codes.shape}"
+        )
+    if n_groups < 0 or codes.max(initial=-1) >= n_groups or codes.min(initial=-1) < -1:
+        raise CompositionError(
+            f"{what}: codes must lie in -1 .. {n_groups - 1} (n_groups={n_groups})"
+        )
+    return codes
+
+
 def summarize_balances(
     B,
     selected=None,
@@ -87,32 +114,16 @@ def summarize_balances(
     For a complete SBP the balance variances add up to the total variance
     (Egozcue & Pawlowsky-Glahn 2005), so the shares add up to 1.
     """
-    try:
-        values = np.array(B, dtype=float)
-    except (TypeError, ValueError) as err:
-        raise CompositionError(f"summarize_balances: cannot read B as numbers ({err})") from None
-    if values.ndim != 2:
-        raise CompositionError(f"summarize_balances: B must be 2-D (n, k), got {values.ndim}-D")
+    values = balance_table(B, "summarize_balances", names)
     n, k = values.shape
     if np.isinf(values).any():
         r, c = np.argwhere(np.isinf(values))[0]
         raise CompositionError(f"summarize_balances: infinite value in row {r}, balance {c + 1}")
-    if names is not None and len(names) != k:
-        raise CompositionError(f"summarize_balances: {len(names)} names for {k} balances")
     if total is not None and not (np.isfinite(total) and total >= 0):
         raise CompositionError(f"summarize_balances: total must be finite and >= 0, got {total}")
     chosen = _rows_mask(selected, n) if selected is not None else None
     if codes is not None:
-        codes = np.asarray(codes)
-        if codes.shape != (n,) or not np.issubdtype(codes.dtype, np.integer):
-            raise CompositionError(
-                f"summarize_balances: codes must be {n} integers, got dtype {codes.dtype}, "
-                f"shape {codes.shape}"
-            )
-        if n_groups < 0 or codes.max(initial=-1) >= n_groups or codes.min(initial=-1) < -1:
-            raise CompositionError(
-                f"summarize_balances: codes must lie in -1 .. {n_groups - 1} (n_groups={n_groups})"
-            )
+        codes = group_codes(codes, n, n_groups, "summarize_balances")
     out = []
     for j in range(k):
         col = values[:, j]

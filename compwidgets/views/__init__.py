@@ -10,6 +10,7 @@ import importlib
 _VIEWS = {
     "TernaryView": "ternary",
     "BiplotView": "biplot",
+    "DiscriminantView": "discriminant",
     "BalanceBuilder": "builder",
     "SubcompositionPicker": "picker",
     "TriagePanel": "triage",

@@ -140,6 +140,19 @@ def left_out_message(n: int, parts: Sequence[str]) -> str:
     return f"{n} {rows} left out (missing or zero in {', '.join(map(str, parts))})"
 
 
+def right_legend_anchor(view) -> tuple[float, float, float]:
+    """Legend anchor of a scatter view that keeps ``legend_width_px`` free right of its data.
+
+    (x, y of the first entry, step down) in data coordinates, for
+    ``ScatterView._legend_anchor``: the legend starts that many pixels left of
+    the right edge, 5 % of the height below the top.
+    """
+    (_, x1), (y0, y1) = view.view_ranges
+    h = y1 - y0
+    room = view.legend_width_px * h / view._plot_height_px()
+    return x1 - room, y1 - 0.05 * h, 0.05 * h
+
+
 def format_number(value: float) -> str:
     """Compact text for a value in a tooltip (4 significant digits)."""
     if value is None or not np.isfinite(value):

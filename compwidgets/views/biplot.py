@@ -42,7 +42,7 @@ import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
-from ..core import CompositionError
+from ..core import CompositionError, geometry
 from ..core import biplot as core_biplot
 from ..model import CompositionModel
 from . import _common as cm
@@ -115,18 +115,6 @@ def _text_width_px(text: str) -> float:
         else:
             width += _LABEL_CHAR_PX
     return width
-
-
-def _corners(x: np.ndarray, y: np.ndarray) -> np.ndarray:
-    """The two corners (2, 2) of the bounding box of the finite points (0 rows: none)."""
-    finite = np.isfinite(x) & np.isfinite(y)
-    if finite.size and finite.all():
-        xs, ys = x, y
-    elif finite.any():
-        xs, ys = x[finite], y[finite]
-    else:
-        return np.zeros((0, 2))
-    return np.array([[xs.min(), ys.min()], [xs.max(), ys.max()]], dtype=float)
 
 
 def _plane_label(pair: tuple[int, int]) -> str:
@@ -351,10 +339,7 @@ class BiplotView(ScatterView):
         return ("clr-biplot", self.scaling, tuple(self.components), self._n_components())
 
     def _legend_anchor(self):
-        (x0, x1), (y0, y1) = self.view_ranges
-        h = y1 - y0
-        room = self.legend_width_px * h / self._plot_height_px()
-        return x1 - room, y1 - 0.05 * h, 0.05 * h
+        return cm.right_legend_anchor(self)
 
     def _coordinates(self):
         if self._fit_parts != list(self.model.active_parts):
@@ -510,7 +495,7 @@ class BiplotView(ScatterView):
         The figure keeps an equal aspect at a fixed height, so a wide plane is given a
         taller y range rather than a figure wider than ``_MAX_ASPECT`` times its height.
         """
-        points = _corners(x, y)  # the points' bounding box gives the same limits
+        points = geometry.bounding_corners(x, y)  # the points' bounding box: same limits
         ranges = self._fit_ranges(points, tips)
         if tips.shape[0]:
             # the part names, laid out at that scale, must fit too (their boxes grow the

@@ -29,6 +29,7 @@ import traitlets as t
 
 from .. import core
 from ..core import principal as _principal
+from ..core.separation import STATISTIC_KEYS, balance_separation
 from ..core.summary import quartile_summary, summarize_balances
 from ..core.tree import sbp_to_tree, split_nodes, tree_to_sbp
 from ..model import CompositionModel, ModelError
@@ -56,6 +57,7 @@ _STAT_KEYS = (
     "q75",
     "q95",
     "groups",
+    "separation",
 )
 
 
@@ -111,7 +113,12 @@ class BalanceBuilder(anywidget.AnyWidget):
         over the rows complete in the active parts: ``n``, ``variance``
         (ddof = 1), ``share`` of the total variance, ``mean``, ``q5`` ..
         ``q95``, ``groups`` (``[{"code", "n", "mean"}]``, codes index
-        ``groups``). Values that cannot be computed are None.
+        ``groups``) and ``separation`` of the groups along the balance (None
+        without a grouping column): ``anova_f``, ``anova_p``, ``kruskal_h``,
+        ``kruskal_p``, ``kruskal_n`` (rows ranked: at most
+        :attr:`max_rank_rows`), ``between_share``, ``n``, ``n_groups``
+        (:func:`compwidgets.core.separation.balance_separation`). Values that
+        cannot be computed are None.
     selection_stats : list of dict
         One entry per split node: ``id``, ``n``, ``mean``, ``q25``, ``q75`` of
         the selected complete rows. A selection change updates only this and
@@ -171,6 +178,8 @@ class BalanceBuilder(anywidget.AnyWidget):
     progress_delay: float = 1.0
     #: Largest group searched exhaustively for principal balances (see core.principal).
     max_exhaustive: int = 16
+    #: Rows ranked for the Kruskal-Wallis test of a balance (a seeded random subset above).
+    max_rank_rows: int = 100_000
 
     def __init__(self, model: CompositionModel, **kwargs):
         if not isinstance(model, CompositionModel):
@@ -187,6 +196,8 @@ class BalanceBuilder(anywidget.AnyWidget):
         self._summary: list[dict] = []
         self._total: float | None = None
         self._n_ok = 0
+        self._separation: dict[bytes, dict] = {}  # SBP row -> separation, same rows and groups
+        self._separation_parts: list = []  # the active parts (and members) it was found for
         self._figure_replies: dict[str, Callable[[bytes | None, str], None]] = {}
         super().__init__(n_rows=model.n_rows, **kwargs)
         self.figure_control = FigureSaveControl(self, default_name="balance-dendrogram")
@@ -482,6 +493,7 @@ class BalanceBuilder(anywidget.AnyWidget):
     def _on_model_data(self, change) -> None:
         if self._pushing:
             return
+        self._separation = {}  # an amalgamation changed: same rows, other values
         warning = self._compute()
         with self.hold_sync():
             self._publish_stats()
@@ -492,6 +504,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         self._publish_selection()
 
     def _on_model_groups(self, change) -> None:
+        self._separation = {}
         with self.hold_sync():
             self._refresh_groups()
             self._summarise()
@@ -553,6 +566,10 @@ class BalanceBuilder(anywidget.AnyWidget):
         part = self._part
         ok = np.asarray(m.complete_rows(), dtype=bool)
         n_ok = int(ok.sum())
+        parts_key = [(p, m.members(p)) for p in m.active_parts]
+        if parts_key != self._separation_parts or not np.array_equal(ok, self._rows):
+            self._separation = {}  # other balance values: computed again when asked
+            self._separation_parts = parts_key
         self._rows, self._n_ok = ok, n_ok
         self._B, self._total = None, None
         warning = ""
@@ -583,13 +600,32 @@ class BalanceBuilder(anywidget.AnyWidget):
             self._summary = []
             return
         cats, codes = self.model.group_codes()
+        codes = np.asarray(codes)[self._rows]
         self._summary = summarize_balances(
             self._B,
-            codes=np.asarray(codes)[self._rows],
+            codes=codes,
             n_groups=len(cats),
             total=self._total,
             names=self._part.display,
         )
+        for entry, separation in zip(
+            self._summary, self._separations(codes, len(cats)), strict=True
+        ):
+            entry["separation"] = separation
+
+    def _separations(self, codes: np.ndarray, n_groups: int) -> list[dict | None]:
+        """Group separation of each balance; kept per SBP row while rows and groups stay."""
+        if not n_groups:
+            return [None] * self._B.shape[1]
+        keys = [row.tobytes() for row in self._part.sbp]
+        new = [k for k, key in enumerate(keys) if key not in self._separation]
+        if new:
+            found = balance_separation(
+                self._B[:, new], codes, n_groups, max_rank_rows=self.max_rank_rows
+            )
+            for k, entry in zip(new, found, strict=True):
+                self._separation[keys[k]] = {key: entry[key] for key in STATISTIC_KEYS}
+        return [dict(self._separation[key]) for key in keys]
 
     def _publish_stats(self) -> None:
         part = self._part

@@ -16,6 +16,7 @@ Example
 >>> view = TernaryView(model, ["SiO2", "Al2O3", "mafic"], probability_levels=[0.9, 0.99])
 >>> view.centred = True          # perturb data and grid by the inverse data centre
 >>> view.parts = ["Na2O", "K2O", "CaO"]
+>>> view.boundaries = True       # decision boundaries of a discriminant on these 3 parts
 """
 
 from __future__ import annotations
@@ -23,10 +24,12 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import bqplot as bq
+import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
 from ..core import CompositionError, center, closure
+from ..core import discriminant as core_discriminant
 from ..core import regions as core_regions
 from ..core import ternary as core_ternary
 from ..model import CompositionModel, ModelError
@@ -49,11 +52,6 @@ def _format_level(level: float) -> str:
     return f"{pct:.0f}" if abs(pct - round(pct)) < 1e-9 else f"{pct:.3g}"
 
 
-#: Below this many rows a group's probability region, drawn from estimated
-#: parameters with chi-square quantiles, clearly under-covers: the view says so.
-SMALL_GROUP = 30
-
-
 class TernaryView(ScatterView):
     """Ternary diagram of three parts of the model, with selection tools.
 
@@ -71,12 +69,24 @@ class TernaryView(ScatterView):
         (von Eynatten, Pawlowsky-Glahn & Egozcue 2002); ticks keep the original shares.
     probability_levels : sequence of float, default ()
         Probability regions (normal model in ilr) drawn per group, e.g. [0.9, 0.95, 0.99].
+    probability_kind : {"prediction", "known_parameters"}, default "prediction"
+        Prediction regions for a new sample (F quantile, parameters estimated from
+        the group) or the known-parameter regions (chi-square), which hold fewer
+        new samples than their level in small groups (the notes then say how many);
+        see :mod:`compwidgets.core.regions`.
     confidence_level : float or None, default None
         Confidence region of each group's centre (Hotelling's T^2), e.g. 0.95.
     compositional_line : None, (row, row) or dict, default None
         A compositional line through the compositions of two rows (model row
         positions), or ``{"direction": clr vector of 3 values, "origin": row
         position or 3-part composition (default: the data centre)}``.
+    boundaries : bool, default False
+        Draw the decision boundaries of a discriminant rule fitted on the three
+        parts shown, with the model's groups (toggled in the view): where two
+        groups have equal discriminant scores and no third beats them, as
+        compositional curves (straight lines in ilr for the linear rule);
+        :func:`compwidgets.core.discriminant.decision_boundaries`.
+    boundary_kind : {"linear", "quadratic"}, default "linear"
     id_column : str, default ""
         Metadata column shown as the sample id on hover ("" = the row label).
     **kwargs
@@ -88,8 +98,14 @@ class TernaryView(ScatterView):
     grid_step = t.Float(0.1)
     centred = t.Bool(False)
     probability_levels = t.List(t.Float())
+    probability_kind = t.Enum(core_regions.PROBABILITY_KINDS, default_value="prediction")
     confidence_level = t.Float(None, allow_none=True)
     compositional_line = t.Any(None, allow_none=True)
+    boundaries = t.Bool(False)
+    boundary_kind = t.Enum(core_discriminant.KINDS, default_value="linear")
+
+    #: Rows a boundary rule is fitted on at most (a stratified random sample beyond).
+    boundary_max_rows = 50_000
 
     def __init__(
         self,
@@ -99,8 +115,11 @@ class TernaryView(ScatterView):
         grid_step: float = 0.1,
         centred: bool = False,
         probability_levels: Sequence[float] = (),
+        probability_kind: str = "prediction",
         confidence_level: float | None = None,
         compositional_line=None,
+        boundaries: bool = False,
+        boundary_kind: str = "linear",
         id_column: str = "",
         **kwargs,
     ):
@@ -108,7 +127,9 @@ class TernaryView(ScatterView):
         self._internal = False
         self._notice = ""  # a lasting note about the parts shown (kept across redraws)
         self._centring: np.ndarray | None = None
+        self._boundary_cache: tuple = ((), [], "")  # (key, curves, note)
         super().__init__(model, **kwargs)
+        self._build_boundary_controls()
         self._internal = True
         try:
             self.parts = self._followed_parts() if parts is None else list(parts)
@@ -117,10 +138,43 @@ class TernaryView(ScatterView):
         self.grid_step = grid_step
         self.centred = centred
         self.probability_levels = list(probability_levels)
+        self.probability_kind = probability_kind
         self.confidence_level = confidence_level
         self.id_column = id_column
         self.compositional_line = compositional_line
+        self.boundary_kind = boundary_kind
+        self.boundaries = boundaries
         self._start()
+
+    def _build_boundary_controls(self) -> None:
+        """The toggle and rule menu of the decision boundaries, under the toolbar."""
+        self._boundary_toggle = widgets.ToggleButton(
+            description="decision boundaries", icon="random", value=False,
+            tooltip="boundaries of a discriminant rule fitted on these 3 parts and the groups",
+            layout=widgets.Layout(width="auto"),
+        )  # fmt: skip
+        self._boundary_menu = widgets.Dropdown(
+            options=[("linear rule", "linear"), ("quadratic rule", "quadratic")],
+            value="linear", layout=widgets.Layout(width="150px"),
+        )  # fmt: skip
+        self._boundary_links = [
+            t.link((self._boundary_toggle, "value"), (self, "boundaries")),
+            t.link((self._boundary_menu, "value"), (self, "boundary_kind")),
+        ]
+        self.boundary_controls = widgets.HBox([self._boundary_toggle, self._boundary_menu])
+        children = list(self.children)
+        self.children = [*children[:1], self.boundary_controls, *children[1:]]
+
+    def close(self) -> None:
+        """Stop following the model and close every widget of the view (twice is fine)."""
+        for link in getattr(self, "_boundary_links", []):
+            link.unlink()
+        self._boundary_links = []
+        for name in ("boundary_controls", "_boundary_toggle", "_boundary_menu"):
+            widget = getattr(self, name, None)
+            if widget is not None:
+                widget.close()
+        super().close()
 
     # --------------------------------------------------------------- options
     def _followed_parts(self) -> list[str]:
@@ -217,7 +271,14 @@ class TernaryView(ScatterView):
         if self._ready:
             self.refresh()
 
-    @t.observe("probability_levels", "confidence_level", "compositional_line")
+    @t.observe(
+        "probability_levels",
+        "probability_kind",
+        "confidence_level",
+        "compositional_line",
+        "boundaries",
+        "boundary_kind",
+    )
     def _on_overlay_options(self, change):
         if self._ready:
             self._draw_overlays()
@@ -332,8 +393,14 @@ class TernaryView(ScatterView):
             x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.FRAME_COLOUR],
             stroke_width=1.5, line_style="dash_dotted", **quiet,
         )  # fmt: skip
+        self.boundary_lines = bq.Lines(
+            x=np.zeros((0, 2)), y=np.zeros((0, 2)), scales=xy, colors=[cm.FRAME_COLOUR],
+            stroke_width=1.8, **quiet,
+        )  # fmt: skip
         below = [self.grid, self.frame]
-        above = [self.regions, self.centre_regions, self.line, *self.tick_labels]
+        above = [
+            self.regions, self.centre_regions, self.boundary_lines, self.line, *self.tick_labels,
+        ]  # fmt: skip
         return below, [*above, self.vertex_labels]
 
     def _set_vertex_labels(self) -> None:
@@ -377,18 +444,26 @@ class TernaryView(ScatterView):
         groups = self._groups() if levels or self.confidence_level is not None else []
         curves, colours, opacities = [], [], []
         centre_curves, centre_colours = [], []
-        small = []
+        kind = self.probability_kind
+        short = []
         for name, colour, X in groups:
             if not levels and self.confidence_level is None:
                 break
-            if levels and len(X) < SMALL_GROUP:
-                small.append(f"{name} ({len(X)})")
             try:
                 if levels:
-                    for k, curve in enumerate(core_regions.probability_regions(X, levels)):
+                    regions = core_regions.probability_regions(X, levels, kind=kind)
+                    for k, curve in enumerate(regions):
                         curves.append(self._to_view(curve))
                         colours.append(colour)
                         opacities.append(1.0 - 0.45 * k / max(1, len(levels) - 1))
+                    held = [
+                        f"{_format_level(core_regions.expected_coverage(a, len(X), kind))} % "
+                        f"at {_format_level(a)} %"
+                        for a in levels
+                        if core_regions.under_covers(a, len(X), kind)
+                    ]
+                    if held:
+                        short.append(f"{name} ({len(X)} rows) about {', '.join(held)}")
                 if self.confidence_level is not None:
                     curve = core_regions.centre_confidence_region(X, self.confidence_level)
                     centre_curves.append(self._to_view(curve))
@@ -397,28 +472,34 @@ class TernaryView(ScatterView):
                 notes.append(f"no region for {name}: {str(err).removeprefix('regions: ')}")
         self._set_lines(self.regions, curves, colours, opacities)
         self._set_lines(self.centre_regions, centre_curves, centre_colours, [1.0])
+        boundaries = self._boundary_curves(notes)
+        self._set_lines(
+            self.boundary_lines, [self._to_view(c) for c in boundaries],
+            [cm.FRAME_COLOUR] * len(boundaries), [1.0],
+        )  # fmt: skip
         line = self._line_points(notes)
         with self.line.hold_sync():
             if line is None:
                 self.line.x, self.line.y = np.zeros(0), np.zeros(0)
             else:
                 self.line.x, self.line.y = line[0].astype(np.float32), line[1].astype(np.float32)
-        if small:
+        if short:
             notes.insert(
                 0,
-                f"groups of fewer than {SMALL_GROUP} rows: {', '.join(small)}; their regions "
-                "use estimated parameters and hold fewer new samples than their level",
+                "with estimated parameters these regions hold fewer new samples than their "
+                f"level: {', '.join(short)}; the prediction regions allow for it",
             )
         if self.confidence_level is not None:
             notes.insert(
                 0, f"confidence region of the centre at {_format_level(self.confidence_level)} %"
             )
         if levels:
-            notes.insert(
-                0,
-                "probability regions (normal model on ilr) at "
-                + ", ".join(_format_level(v) + " %" for v in levels),
+            label = (
+                "prediction regions for a new sample (normal model on ilr) at "
+                if kind == "prediction"
+                else "known-parameter regions (chi-square, normal model on ilr) at "
             )
+            notes.insert(0, label + ", ".join(_format_level(v) + " %" for v in levels))
         if self._notice:
             notes.insert(0, self._notice)
         self._set_note("overlays", "; ".join(notes))
@@ -434,6 +515,41 @@ class TernaryView(ScatterView):
             else:
                 mark.x = np.zeros((0, 2), dtype=np.float32)
                 mark.y = np.zeros((0, 2), dtype=np.float32)
+
+    def _boundary_curves(self, notes: list[str]) -> list[np.ndarray]:
+        """Decision boundaries (closed compositions) of a rule on the parts shown, if on."""
+        if not self.boundaries:
+            return []
+        m = self.model
+        key = (
+            tuple((p, tuple(m.members(p))) for p in self.parts),
+            m.group_column, m.metadata_version, self.boundary_kind, self.rows.size,
+        )  # fmt: skip
+        if self._boundary_cache[0] != key:
+            curves, note = [], ""
+            try:
+                if not m.group_column:
+                    raise CompositionError("the model has no grouping column")
+                categories, codes = m.group_codes()
+                shown = codes[self.rows]
+                labels = np.array([categories[c] if c >= 0 else None for c in shown], object)
+                fit = core_discriminant.fit_discriminant(
+                    self._closed_shown, labels, kind=self.boundary_kind, classes=categories,
+                    max_rows=self.boundary_max_rows, seed=self.seed,
+                )  # fmt: skip
+                curves = [b.curve for b in core_discriminant.decision_boundaries(fit)]
+                note = (
+                    f"decision boundaries of a {self.boundary_kind} discriminant of "
+                    f"{m.group_column!r} fitted on these 3 parts (exploratory)"
+                )
+                if fit.left_out:
+                    note += f", without {', '.join(map(repr, fit.left_out))} (too few rows)"
+            except CompositionError as err:
+                note = f"no decision boundaries: {err}"
+            self._boundary_cache = (key, curves, note)
+        _, curves, note = self._boundary_cache
+        notes.append(note)
+        return curves
 
     def _groups(self) -> list[tuple[str, str, np.ndarray]]:
         """(name, colour, closed 3-part data) of each group among the rows shown."""

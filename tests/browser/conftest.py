@@ -48,6 +48,7 @@ import pytest
 REPO = Path(__file__).resolve().parents[2]
 ARTIFACTS = REPO / "test-artifacts"
 QUICK_START = REPO / "example_notebooks" / "01_quick_start.ipynb"
+GROUPS_NOTEBOOK = REPO / "example_notebooks" / "04_telling_groups_apart.ipynb"
 XSS_NOTEBOOK = "xss_labels.ipynb"
 
 #: Chromium flags checked on these machines (see the team's browser-testing notes).
@@ -341,12 +342,13 @@ def xss_notebook_json() -> str:
 
 @pytest.fixture(scope="session")
 def lab(chromium_executable, tmp_path_factory):
-    """The JupyterLab server of the session (quick start, XSS and large notebooks in its root)."""
+    """The JupyterLab server of the session (example, XSS and large notebooks in its root)."""
     server = start_lab(
         tmp_path_factory.mktemp("jupyterlab"),
         {
             QUICK_START.name: QUICK_START,
             XSS_NOTEBOOK: xss_notebook_json(),
+            GROUPS_NOTEBOOK.name: GROUPS_NOTEBOOK,
             LARGE_NOTEBOOK: one_cell_notebook(LARGE_SOURCE, "large-table"),
         },
     )
