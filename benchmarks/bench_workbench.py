@@ -32,13 +32,13 @@ import argparse
 import functools
 import json
 import resource
-import statistics
 import subprocess
 import sys
 import time
 
 import numpy as np
 import pandas as pd
+from bench_selection import median_time  # the same timing helper (this folder)
 
 DEFAULT_SIZES = "2000x50,2000x200,200000x10,1000000x10"
 REPEAT = 5
@@ -81,15 +81,6 @@ def survey_table(n: int, seed: int = 1) -> tuple[pd.DataFrame, dict]:
     return pd.DataFrame(frame), limits
 
 
-def median_time(func, repeat: int = REPEAT) -> float:
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        func()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
-
-
 def peak_bytes() -> int:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024  # kB on Linux
 
@@ -108,7 +99,7 @@ def measure(kind: str, n: int, D: int, screen: bool) -> dict:
         label = f"{n:,} x {D}"
     numbers = table.select_dtypes("number").to_numpy(dtype=float)
     numbers = np.abs(numbers) + 1.0
-    base = median_time(functools.partial(np.log, numbers))
+    base = median_time(functools.partial(np.log, numbers), REPEAT)
     out = {"label": label, "baseline_s": base, "values_bytes": int(numbers.nbytes)}
     del numbers  # only the table itself stays for explore()
 
@@ -139,7 +130,7 @@ def measure(kind: str, n: int, D: int, screen: bool) -> dict:
         model.select(picks[state["i"]])
 
     select()  # warm-up
-    out["select_s"] = median_time(select)
+    out["select_s"] = median_time(select, REPEAT)
     D_active = len(full)
     sbp = np.zeros((D_active - 1, D_active), dtype=int)  # a pivot-like SBP: part k vs the rest
     for r in range(D_active - 1):
@@ -147,7 +138,7 @@ def measure(kind: str, n: int, D: int, screen: bool) -> dict:
         sbp[r, r + 1 :] = -1
     model.set_sbp(sbp)
     select()
-    out["select_sbp_s"] = median_time(select)
+    out["select_sbp_s"] = median_time(select, REPEAT)
     if screen:
         t0 = time.perf_counter()
         bench.triage.show()
