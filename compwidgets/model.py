@@ -230,8 +230,10 @@ class CompositionModel(t.HasTraits):
     #: Most entries the cache of derived data keeps (closed, clr, ilr, the views'
     #: projections and density bins, per set of parts); the least recently used go first.
     cache_size = 256
-    #: Most bytes that cache keeps (the arrays of a million rows are large).
-    cache_bytes = 512 * 2**20
+    #: Most bytes that cache keeps: enough for two sets of parts of a laboratory export
+    #: (300,000 rows x 51 parts with every view), so that going back to the last set is a
+    #: lookup; lower it where memory is short (the least recently used go first).
+    cache_bytes = 2**30
 
     def __init__(
         self,
