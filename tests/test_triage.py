@@ -344,3 +344,60 @@ def test_a_grouped_table_is_screened_group_by_group_by_default(model):
     assert not TriagePanel(model, by_group=False).by_group.value
     model.group_column = ""
     assert not TriagePanel(model).by_group.value
+
+
+def test_cell_items_from_the_codes_match_the_status_of_every_cell(monkeypatch):
+    """Every kind of missing and below-detection cell, read back from the report's codes,
+    gives the rows that intake's own status frame (an independent record) marks."""
+    import compwidgets.views.triage as triage
+
+    rng = np.random.default_rng(4)
+    n = 30
+    frame = pd.DataFrame(
+        {
+            "SiO2 (wt%)": np.round(rng.uniform(55, 65, n), 2),
+            "Al2O3 (wt%)": np.round(rng.uniform(12, 16, n), 2),
+            "Cu (ppm)": np.round(rng.uniform(20, 90, n), 1).astype(object),
+            "Zn (ppm)": np.round(rng.uniform(40, 120, n), 1).astype(object),
+        },
+        index=[f"R{i:02d}" for i in range(n)],
+    )
+    frame.iloc[[2, 9], 2] = "<5"  # '<limit' entries
+    frame.iloc[4, 2] = "bdl"  # a below-detection token
+    frame.iloc[6, 3] = 0.0  # a zero read as below detection
+    frame.iloc[7, 3] = -3.0  # a negative value read as below detection
+    frame.iloc[11, 3] = None  # an empty cell
+    frame.iloc[13, 3] = "n.a."  # a missing-value token
+    frame.iloc[15, 0] = np.nan  # not analysed
+    comp = read_composition(
+        frame,
+        detection_limits={"Cu": 5.0, "Zn": 3.0},
+        negative_is_below_detection=True,
+        missing_tokens=["n.a."],
+        check_total=False,
+    )
+    looked_up = []
+    real = triage._positions
+    monkeypatch.setattr(triage, "_positions", lambda *a, **k: looked_up.append(1) or real(*a, **k))
+    items = {i.label: i for i in intake_items(comp)}
+    replaced_parts = {label.split(":")[0] for label in items if ": replaced" in label}
+    # counts come from the codes: only the replaced values (their labels quote the values)
+    # needed the rows, one look-up per part
+    assert len(looked_up) == len(replaced_parts) == 2
+    status = comp.status.to_numpy()
+    for j, part in enumerate(comp.parts):
+        for kind, text in (("below_dl", "below detection"), ("missing", "missing")):
+            rows = np.flatnonzero(status[:, j] == kind)
+            label = f"{part}: {text}"
+            assert (label in items) == bool(rows.size), label
+            if rows.size:
+                assert items[label].count == rows.size
+                assert items[label].positions.tolist() == rows.tolist()
+    assert items["Cu: below detection"].positions.tolist() == [2, 4, 9]
+    assert items["Zn: below detection"].positions.tolist() == [6, 7]
+    assert items["Zn: missing"].positions.tolist() == [11, 13]
+    assert items["SiO2: missing"].positions.tolist() == [15]
+    # the positions, once found, are kept
+    before = len(looked_up)
+    assert items["Zn: missing"].positions.tolist() == [11, 13]
+    assert len(looked_up) == before

@@ -25,13 +25,12 @@ Everything from the table reaches the browser as text (``Label`` values,
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable
 
 import ipywidgets as w
 import numpy as np
 import pandas as pd
 
-from ..composition import BELOW_DL, MISSING
 from ..core import CompositionError
 from ..core.outliers import (
     DEFAULT_MAX_COORDINATES,
@@ -74,17 +73,59 @@ SECTIONS = (
 )
 
 
-@dataclass(frozen=True, eq=False)
 class TriageItem:
-    """One thing to look at: a section, a text label and the row positions."""
+    """One thing to look at: a section, a text label and the row positions.
 
-    section: str
-    label: str
-    positions: np.ndarray
+    Parameters
+    ----------
+    section, label : str
+    positions : array-like of int, optional
+        Row positions (sorted, unique), or None when ``find`` gives them.
+    count : int, optional
+        How many rows (with ``find``: known without finding them).
+    find : callable, optional
+        Returns the row positions when first asked for (the panel shows counts
+        only until an item is used), then kept.
+    """
+
+    __slots__ = ("section", "label", "_positions", "_count", "_find")
+
+    def __init__(
+        self,
+        section: str,
+        label: str,
+        positions=None,
+        *,
+        count: int | None = None,
+        find: Callable[[], np.ndarray] | None = None,
+    ):
+        if (positions is None) == (find is None):
+            raise ValueError("TriageItem: give either positions or find")
+        if find is not None and count is None:
+            raise ValueError("TriageItem: find needs the count")
+        self.section, self.label = section, label
+        self._positions = None if positions is None else np.asarray(positions, dtype=np.uint32)
+        self._count = int(self._positions.size) if count is None else int(count)
+        self._find = find
+
+    @property
+    def positions(self) -> np.ndarray:
+        """Row positions (found on first use)."""
+        if self._positions is None:
+            found = np.asarray(self._find(), dtype=np.uint32)
+            if found.size != self._count:
+                raise CompositionError(
+                    f"triage: item {self.label!r} found {found.size} rows, counted {self._count}"
+                )
+            self._positions, self._find = found, None
+        return self._positions
 
     @property
     def count(self) -> int:
-        return int(self.positions.size)
+        return self._count
+
+    def __repr__(self) -> str:
+        return f"TriageItem({self.section!r}, {self.label!r}, count={self._count})"
 
 
 def _positions(index: pd.Index, labels, unique: bool = True) -> np.ndarray:
@@ -125,8 +166,138 @@ def _flag_codes(flags: pd.DataFrame) -> list[str]:
     )
 
 
+#: Report codes of the cells behind the per-part sections (one entry per cell).
+_CELL_CODES = {
+    "Missing values": (codes.MISSING_BLANK, codes.MISSING_TOKEN),
+    "Below detection": (
+        codes.BELOW_TOKEN,
+        codes.BELOW_LESS_THAN,
+        codes.BELOW_ZERO,
+        codes.BELOW_NEGATIVE,
+    ),
+    "Replaced values": (codes.REPLACED_MULTIPLICATIVE, codes.REPLACED_SIMPLE),
+}
+_CELL_TEXT = {"Missing values": "missing", "Below detection": "below detection"}
+
+
+class _RowFinder:
+    """Row positions of labels of one index, the label lookup done once and only if asked."""
+
+    def __init__(self, index: pd.Index, labels):
+        self.index, self.labels, self._pos = index, labels, None
+
+    def all(self) -> np.ndarray:
+        """Positions of every label (in the order of the labels)."""
+        if self._pos is None:
+            self._pos = _positions(self.index, self.labels, unique=False)
+        return self._pos
+
+    def where(self, mask: np.ndarray) -> Callable[[], np.ndarray]:
+        """A function giving the sorted positions of the labels where ``mask`` holds."""
+        return lambda: np.unique(self.all()[mask])
+
+
+def _cell_entries(composition) -> dict[str, dict[str, np.ndarray]]:
+    """Section -> part -> row labels of the report's cell entries of that section."""
+    report = composition.report
+    wanted = [code for group in _CELL_CODES.values() for code in group]
+    cells = report.loc[report["code"].isin(wanted).to_numpy(dtype=bool), ["row", "column", "code"]]
+    out: dict[str, dict[str, np.ndarray]] = {}
+    for section, group in _CELL_CODES.items():
+        sub = cells[cells["code"].isin(group).to_numpy(dtype=bool)]
+        rows = sub["row"].to_numpy(dtype=object)
+        out[section] = {
+            str(part): rows[at] for part, at in sub.groupby("column", sort=False).indices.items()
+        }
+    return out
+
+
+def _flag_items(composition, index: pd.Index) -> list[TriageItem]:
+    """Flagged rows (all, then by reason code) and analytical totals, counted from the codes."""
+    c = composition
+    flags = c.flags
+    if not len(flags):
+        return []
+    finder = _RowFinder(index, flags.index)
+    n = len(flags)
+    items = [
+        TriageItem("Flagged rows", "all flagged rows", count=n, find=finder.where(slice(None)))
+    ]
+    if "code" in flags.columns:
+        # the distinct code lists are few: split each once, then mark its rows
+        joined, inverse = pd.factorize(flags["code"].astype(str), sort=False)[::-1]
+        holds = [set(j.split(codes.CODE_SEPARATOR)) for j in joined]
+    else:
+        inverse, holds = np.zeros(n, dtype=np.intp), [set()]
+    inverse = np.asarray(inverse)
+
+    def rows_with(code: str) -> np.ndarray:
+        return np.isin(inverse, [k for k, found in enumerate(holds) if code in found])
+
+    for code in _flag_codes(flags):
+        mask = rows_with(code)
+        items.append(
+            TriageItem(
+                "Flagged rows",
+                f"flagged: {codes.REASONS.get(code, code)}",
+                count=int(mask.sum()),
+                find=finder.where(mask),
+            )
+        )
+    lo, hi = (float(x) for x in (c.settings or {}).get("total_window", (np.nan, np.nan)))
+    outside = rows_with(codes.TOTAL_OUTSIDE_WINDOW)
+    if outside.any():
+        totals = pd.to_numeric(flags["total"], errors="coerce").to_numpy(dtype=float)
+        for text, side in (
+            (f"analytical total below {lo:g} wt%", totals < lo),
+            (f"analytical total above {hi:g} wt%", totals > hi),
+        ):
+            mask = outside & side
+            if mask.any():
+                items.append(
+                    TriageItem(
+                        "Analytical totals", text, count=int(mask.sum()), find=finder.where(mask)
+                    )
+                )
+    mismatch = rows_with(codes.TOTAL_MISMATCH)
+    if mismatch.any():
+        tolerance = (c.settings or {}).get("total_tolerance")
+        items.append(
+            TriageItem(
+                "Analytical totals",
+                "stated total differs from the sum of the parts"
+                + (f" by more than {tolerance:g} wt%" if tolerance is not None else ""),
+                count=int(mismatch.sum()),
+                find=finder.where(mismatch),
+            )
+        )
+    return items
+
+
+def _replaced_label(composition, part: str, pos: np.ndarray) -> str:
+    """'<part>: replaced; detection limit ..., now ...' in the unit the part was reported in."""
+    c = composition
+    dl = c.detection_limits[part].to_numpy(dtype=float)[pos]
+    new = c.values[part].to_numpy(dtype=float)[pos]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        share = new / dl
+    dl, shown_unit = c.in_reported_unit(part, dl)  # traces read back in ppm
+    new, _ = c.in_reported_unit(part, new)
+    return (
+        f"{part}: replaced; detection limit {_span(dl)} {shown_unit}, "
+        f"now {_span(new)} {shown_unit}"
+        + (f" ({_span(share)} x limit)" if np.isfinite(share).any() else "")
+    )
+
+
 def intake_items(composition) -> list[TriageItem]:
     """The intake part of the triage, without widgets.
+
+    Built from the reason codes of the flags and of the report (one entry per
+    cell that was missing, below detection or replaced), counted without
+    looking the rows up: the row positions of an item are found when it is
+    first used (:attr:`TriageItem.positions`), except for replaced values,
+    whose label quotes the values.
 
     Parameters
     ----------
@@ -137,78 +308,34 @@ def intake_items(composition) -> list[TriageItem]:
     list of TriageItem
         Flagged rows (all, then by reason code, see
         :mod:`compwidgets.intake.codes`), analytical totals below and above the
-        window and stated totals that differ from the sum of the parts (read
-        from the codes, not the text), then per part: missing values, values below
-        detection, replaced values (positions from ``status`` and
-        ``composition.replaced``, i.e. the cells of the report's "replaced"
-        entries). Items with no rows are left out.
+        window and stated totals that differ from the sum of the parts, then per
+        part (in part order): missing values, values below detection, replaced
+        values (the cells of the report's "replaced" entries, with the detection
+        limit and the value put in its place). Items with no rows are left out.
     """
     c = composition
     index = c.values.index
-    items: list[TriageItem] = []
-
-    flags = c.flags
-    if len(flags):
-        items.append(
-            TriageItem("Flagged rows", "all flagged rows", _positions(index, flags.index))
-        )
-        for code in _flag_codes(flags):
-            labels = c.flagged_rows(code)
-            text = codes.REASONS.get(code, code)
-            items.append(TriageItem("Flagged rows", f"flagged: {text}", _positions(index, labels)))
-
-    lo, hi = (float(x) for x in (c.settings or {}).get("total_window", (np.nan, np.nan)))
-    outside = c.flagged_rows(codes.TOTAL_OUTSIDE_WINDOW)
-    if len(outside):
-        totals = pd.to_numeric(flags.loc[outside, "total"], errors="coerce").to_numpy(float)
-        for text, mask in (
-            (f"analytical total below {lo:g} wt%", totals < lo),
-            (f"analytical total above {hi:g} wt%", totals > hi),
-        ):
-            if mask.any():
+    items = _flag_items(c, index)
+    cells = _cell_entries(c)
+    for section in ("Missing values", "Below detection"):
+        found = cells[section]
+        for part in c.parts:
+            labels = found.get(str(part))
+            if labels is not None and labels.size:
                 items.append(
-                    TriageItem("Analytical totals", text, _positions(index, outside[mask]))
+                    TriageItem(
+                        section,
+                        f"{part}: {_CELL_TEXT[section]}",
+                        count=labels.size,
+                        find=_RowFinder(index, labels).where(slice(None)),
+                    )
                 )
-    mismatch = c.flagged_rows(codes.TOTAL_MISMATCH)
-    if len(mismatch):
-        tolerance = (c.settings or {}).get("total_tolerance")
-        items.append(
-            TriageItem(
-                "Analytical totals",
-                "stated total differs from the sum of the parts"
-                + (f" by more than {tolerance:g} wt%" if tolerance is not None else ""),
-                _positions(index, mismatch),
-            )
-        )
-
-    status = c.status.to_numpy()
-    for j, part in enumerate(c.parts):
-        pos = np.flatnonzero(status[:, j] == MISSING).astype(np.uint32)
-        if pos.size:
-            items.append(TriageItem("Missing values", f"{part}: missing", pos))
-    for j, part in enumerate(c.parts):
-        pos = np.flatnonzero(status[:, j] == BELOW_DL).astype(np.uint32)
-        if pos.size:
-            items.append(TriageItem("Below detection", f"{part}: below detection", pos))
-
-    replaced = c.replaced.to_numpy()
-    values = c.values.to_numpy(dtype=float)
-    limits = c.detection_limits.to_numpy(dtype=float)
-    for j, part in enumerate(c.parts):
-        pos = np.flatnonzero(replaced[:, j]).astype(np.uint32)
-        if not pos.size:
-            continue
-        dl, new = limits[pos, j], values[pos, j]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            share = new / dl
-        dl, shown_unit = c.in_reported_unit(part, dl)  # traces read back in ppm
-        new, _ = c.in_reported_unit(part, new)
-        label = (
-            f"{part}: replaced; detection limit {_span(dl)} {shown_unit}, "
-            f"now {_span(new)} {shown_unit}"
-            + (f" ({_span(share)} x limit)" if np.isfinite(share).any() else "")
-        )
-        items.append(TriageItem("Replaced values", label, pos))
+    found = cells["Replaced values"]
+    for part in c.parts:
+        labels = found.get(str(part))
+        if labels is not None and labels.size:
+            pos = _positions(index, labels)
+            items.append(TriageItem("Replaced values", _replaced_label(c, part, pos), pos))
     return items
 
 
