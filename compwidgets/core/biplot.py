@@ -20,6 +20,10 @@ form         ``U S``                      ``V``
 covariance   ``sqrt(n - 1) U``            ``V S / sqrt(n - 1)``
 ===========  ===========================  ==============================
 
+The SVD is computed block by block of rows, without forming ``Zc``
+(:func:`compwidgets.core.tall_svd.centred_thin_svd`, a tall-skinny QR: as
+accurate as a direct SVD of ``Zc``, ill-conditioned cases included).
+
 Both give ``rows @ columns.T == Zc`` with every component. In the covariance
 biplot the length of a ray is the standard deviation of that clr coordinate,
 the distance between two ray tips ("link") is the standard deviation of the
@@ -47,6 +51,7 @@ import pandas as pd
 
 from ._arrays import CompositionError, _listing, as_table
 from .stats import DDOF
+from .tall_svd import centred_thin_svd
 
 #: The scalings :func:`clr_biplot` accepts.
 SCALINGS = ("covariance", "form")
@@ -276,23 +281,24 @@ def clr_biplot(
         k = int(n_components)
 
     mean = Zu.mean(axis=0)
-    Zc = Zu  # this function's own copy (as_table never returns a view): centred in place
-    Zc -= mean
-    U, s, Vt = np.linalg.svd(Zc, full_matrices=False)
-    U, s, V = U[:, :r], s[:r], Vt[:r].T
-    total_ss = float(np.einsum("ij,ij->", Zc, Zc))
+    # exact thin SVD of the centred rows in blocks (TSQR): no centred copy, no (n, D) factor
+    U, s, V, total_ss = centred_thin_svd(Zu, mean, k)
+    s, V = s[:r], V[:, :r]
     scale = max(1.0, float(biggest.max()))
-    if not np.sqrt(total_ss / Zc.size) > _ZERO_RTOL * scale:
+    if not np.sqrt(total_ss / Zu.size) > _ZERO_RTOL * scale:
         raise CompositionError(
             f"clr_biplot: the {n} rows used all have the same composition (total variance 0); "
             "a biplot needs variation"
         )
     signs = _orientation(V)
-    U *= signs  # U is this function's own: in place
+    U *= signs[:k]  # U is this function's own: in place
     V = V * signs
 
-    U_all = np.full((n_all, k), np.nan)
-    U_all[used] = U[:, :k]
+    if used.all():
+        U_all = U
+    else:
+        U_all = np.full((n_all, k), np.nan)
+        U_all[used] = U
     U_all.flags.writeable = False
     V.flags.writeable = False
     rows_c, cols_c = _scaled(U_all, V, s, n, scaling)

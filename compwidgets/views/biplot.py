@@ -224,7 +224,7 @@ class BiplotView(ScatterView):
         def fit_now():
             clr = self.model.clr(parts)
             try:
-                with one_blas_thread(clr.size):  # steady time on shared cores (_threads)
+                with one_blas_thread():  # blocks of rows: one thread is fastest (_threads)
                     return core_biplot.clr_biplot(
                         clr, scaling, parts=parts, n_components=n_components, missing="omit"
                     )
