@@ -205,14 +205,17 @@ class GroupDiscriminant:
         self._balance_names = list(model.balance_names)
         self.index = model.index
         complete = model.complete_rows(self.parts)
+        every = bool(complete.all())
         self.rows = np.flatnonzero(complete).astype(np.uint32)
-        self.values = np.asarray(model.part_values(self.parts))[self.rows]
+        values = np.asarray(model.part_values(self.parts))
+        # row-major (the coordinates of every row are computed from it): the model's own
+        # read-only values when every row is complete and they are row-major, else one copy
+        self.values = np.ascontiguousarray(values if every else values[self.rows])
         categories, all_codes = model.group_codes()
-        labels = np.array(
-            [categories[c] if c >= 0 else None for c in all_codes[self.rows]], dtype=object
-        )
+        row_codes = all_codes if every else all_codes[self.rows]
+        labels = pd.Categorical.from_codes(row_codes, categories=categories)  # no row loop
         self.fit = cd.fit_discriminant(
-            pd.DataFrame(self.values, columns=self.parts),
+            pd.DataFrame(self.values, columns=self.parts, copy=False),
             labels,
             kind=kind,
             priors=priors,
@@ -222,7 +225,9 @@ class GroupDiscriminant:
             seed=seed,
         )
         lookup = {name: k for k, name in enumerate(self.fit.classes)}
-        self.codes = np.array([lookup.get(v, -1) if v is not None else -1 for v in labels])
+        # the fitted group of each category (-1: left out); code -1 reads the last entry
+        remap = np.array([lookup.get(c, -1) for c in categories] + [-1], dtype=np.int64)
+        self.codes = remap[row_codes]
         self.coordinates = self.fit.coordinates(self.values)
 
     # ------------------------------------------------------------ the model's rows

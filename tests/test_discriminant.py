@@ -103,6 +103,20 @@ def test_quadratic_rule_equals_sklearn_on_another_basis():
     np.testing.assert_allclose(diff - diff[:, :1], 0, atol=1e-6)
 
 
+def test_quadratic_rule_of_tight_groups_is_fitted():
+    # groups of compositions that vary by a few per cent: covariance eigenvalues of the
+    # ilr coordinates near 1e-5, a regular (non-singular) covariance all the same
+    X, labels = invented_groups(n_per=(80, 70, 90), spread=0.004)
+    fit = cd.fit_discriminant(X, labels, kind="quadratic")
+    y = codes_of(labels, fit.classes)
+    H = helmert(X.shape[1])
+    Z = clr_of(X) @ H.T
+    assert np.linalg.eigvalsh(np.cov(Z[y == 0].T)).min() < 1e-4
+    # Source: scikit-learn QDA with its absolute rank threshold switched off (tol=0)
+    ref = QuadraticDiscriminantAnalysis(priors=fit.priors, tol=0.0).fit(Z, y)
+    np.testing.assert_allclose(fit.posteriors(fit.coordinates(X)), ref.predict_proba(Z), atol=1e-8)
+
+
 def test_two_groups_scores_and_plane():
     X, labels = invented_groups(n_per=(50, 60))
     fit = cd.fit_discriminant(X, labels)

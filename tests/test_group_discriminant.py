@@ -191,3 +191,38 @@ def test_a_model_without_groups_is_refused_and_the_caution_is_stated():
     import compwidgets.discriminant as module
 
     assert "validated methods and local practice" in module.__doc__
+
+
+def test_categorical_labels_give_the_codes_of_the_label_route():
+    """Group labels given as categories are coded per category; the codes and names equal
+    those of the same labels given one by one as text (None: no group)."""
+    from compwidgets.core.discriminant import _group_codes
+
+    rng = np.random.default_rng(8)
+    text = np.array(["b", "a", "c", "d"], dtype=object)[rng.integers(0, 4, 300)]
+    text[rng.choice(300, 20, replace=False)] = None
+    cat = pd.Categorical(text, categories=["d", "c", "b", "a", "unused"])
+    for classes in (None, ["a", "b", "c"], ["c", "x", "a"]):
+        fast = _group_codes(cat, 300, classes)
+        slow = _group_codes(text, 300, classes)
+        np.testing.assert_array_equal(fast[0], slow[0])
+        assert fast[1] == slow[1]
+    assert _group_codes(cat, 300, None)[1] == ["a", "b", "c", "d"]  # in use, sorted
+    with pytest.raises(core.CompositionError, match="300 group labels for 299 rows"):
+        _group_codes(cat, 299, None)
+
+
+def test_the_rule_reads_the_models_values_without_a_copy():
+    table = cw.demo.stream_sediments(n=300, seed=5)
+    comp = cw.read_composition(table, detection_limits=cw.demo.DETECTION_LIMITS)
+    parts = ["SiO2", "Al2O3", "Fe2O3", "MgO", "CaO"]
+    model = CompositionModel(comp, active_parts=parts, group_column="catchment")
+    assert model.complete_rows(parts).all()
+    rule = GroupDiscriminant(model)
+    assert np.shares_memory(rule.values, model.part_values(parts))
+    assert not rule.values.flags.writeable  # the model's cache stays as it is
+    # the coordinates are those of every row (Source: the clr definition, numpy)
+    from compwidgets.core.transforms import default_basis
+
+    expected = clr_of(model.part_values(parts)) @ default_basis(len(parts)).T
+    np.testing.assert_allclose(rule.coordinates, expected, atol=1e-12)

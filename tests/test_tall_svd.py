@@ -13,6 +13,7 @@ cases.
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 import scipy.linalg
 
@@ -121,3 +122,17 @@ def test_biplot_of_many_blocks_matches_a_direct_svd_with_its_sign_convention():
     np.testing.assert_allclose(fit.singular_values, s0[:r], rtol=1e-12)
     np.testing.assert_allclose(fit.right_vectors, V0 * signs, atol=1e-10)
     np.testing.assert_allclose(fit.row_coords, (U0[:, :r] * signs) * s0[:r], atol=1e-9)
+
+
+def test_as_table_copies_unless_told_not_to():
+    from compwidgets.core._arrays import as_table
+
+    values = np.random.default_rng(9).lognormal(size=(20, 3))
+    frame = pd.DataFrame(values, columns=list("abc"))
+    assert not np.shares_memory(as_table(values).values, values)
+    assert not np.shares_memory(as_table(frame).values, frame.to_numpy())
+    assert np.shares_memory(as_table(values, copy=False).values, values)
+    # a biplot no longer changes (nor needs a copy of) the clr matrix it is given
+    Z = np.asarray(clr(values))
+    Z.flags.writeable = False
+    core_biplot.clr_biplot(Z)

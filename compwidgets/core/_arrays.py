@@ -96,8 +96,8 @@ class Table:
         return values
 
 
-def as_table(X, name: str = "X", min_parts: int = 1) -> Table:
-    """Check ``X`` and return it as a :class:`Table` (never a view of ``X``).
+def as_table(X, name: str = "X", min_parts: int = 1, *, copy: bool = True) -> Table:
+    """Check ``X`` and return it as a :class:`Table` (never a view of ``X`` by default).
 
     Parameters
     ----------
@@ -107,6 +107,9 @@ def as_table(X, name: str = "X", min_parts: int = 1) -> Table:
         How error messages call the argument.
     min_parts : int
         Smallest number of parts accepted.
+    copy : bool, default True
+        False: ``values`` may share memory with ``X`` (a float64 array or a
+        frame of one float block); for callers that only read it.
 
     Raises
     ------
@@ -135,7 +138,7 @@ def as_table(X, name: str = "X", min_parts: int = 1) -> Table:
                 "parse the table with compwidgets.read_composition or select the part columns"
             )
         index, columns = X.index, X.columns
-        values = X.to_numpy(dtype=float, copy=True)
+        values = X.to_numpy(dtype=float, copy=copy)
     elif isinstance(X, pd.Series):
         if not _numeric_dtype(X.dtype):
             raise CompositionError(
@@ -152,7 +155,7 @@ def as_table(X, name: str = "X", min_parts: int = 1) -> Table:
         if isinstance(X, (str, bytes, dict, set)) or X is None:
             raise TypeError(f"{name}: expected an array-like of numbers, got {type(X).__name__}")
         try:
-            values = np.array(X, dtype=float, copy=True)
+            values = np.array(X, dtype=float, copy=True if copy else None)
         except (TypeError, ValueError) as err:
             raise CompositionError(f"{name}: cannot read as numbers ({err})") from None
         if values.ndim == 1:

@@ -225,7 +225,7 @@ def clr_biplot(
     scaling = _check_scaling(scaling)
     if missing not in MISSING:
         raise CompositionError(f"clr_biplot: missing must be 'raise' or 'omit', got {missing!r}")
-    t = as_table(clr_matrix, "clr_matrix", min_parts=2)
+    t = as_table(clr_matrix, "clr_matrix", min_parts=2, copy=False)  # only read here
     Z = t.values
     n_all, D = Z.shape
     names = _part_names(t, parts, D)

@@ -41,7 +41,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from ._arrays import MAX_LISTED, CompositionError, as_table, require_positive
+from ._arrays import MAX_LISTED, CompositionError, Table, as_table, require_positive
 from .outliers import chi2_cutoff, robust_distances
 from .transforms import check_basis, clr_values, default_basis
 
@@ -152,7 +152,7 @@ class DiscriminantFit:
 
     def coordinates(self, X) -> np.ndarray:
         """ilr coordinates (n, D-1) of compositions (n, D) of :attr:`parts`, in this basis."""
-        t = as_table(X, min_parts=2)
+        t = as_table(X, min_parts=2, copy=False)  # read only: clr_values makes its own
         require_positive(t)
         if t.values.shape[1] != len(self.parts):
             raise CompositionError(
@@ -277,6 +277,10 @@ def stratified_rows(codes, max_rows: int | None, seed: int = 0, minimum: int = 1
 
 def _group_codes(groups, n: int, classes: Sequence[str] | None) -> tuple[np.ndarray, list[str]]:
     """A code per row (-1: no label, or a label not among ``classes``) and the group names."""
+    if isinstance(groups, (pd.Categorical, pd.Series)) and isinstance(
+        getattr(groups, "dtype", None), pd.CategoricalDtype
+    ):
+        return _categorical_codes(pd.Categorical(groups), n, classes)
     labels = pd.Series(np.asarray(groups, dtype=object))
     if labels.size != n:
         raise CompositionError(f"{labels.size} group labels for {n} rows")
@@ -286,6 +290,29 @@ def _group_codes(groups, n: int, classes: Sequence[str] | None) -> tuple[np.ndar
         text = text.where(text.isin(names), None)
     cat = pd.Categorical(text.to_numpy(dtype=object), categories=names)
     return cat.codes.astype(np.int64), [str(c) for c in cat.categories]
+
+
+def _categorical_codes(
+    cat: pd.Categorical, n: int, classes: Sequence[str] | None
+) -> tuple[np.ndarray, list[str]]:
+    """:func:`_group_codes` of categorical labels, by category instead of row by row.
+
+    The same codes and names as the general route: each category is read as text,
+    rows of a category not in ``classes`` (or without one) get -1, and without
+    ``classes`` the names are the categories in use, sorted.
+    """
+    if len(cat) != n:
+        raise CompositionError(f"{len(cat)} group labels for {n} rows")
+    text = [str(c) for c in cat.categories]
+    codes = np.asarray(cat.codes, dtype=np.int64)
+    if classes is None:
+        used = np.unique(codes[codes >= 0])
+        names = sorted({text[k] for k in used})
+    else:
+        names = [str(c) for c in classes]
+    position = {name: k for k, name in enumerate(names)}
+    remap = np.array([position.get(c, -1) for c in text] + [-1], dtype=np.int64)
+    return remap[codes], names  # code -1 (no label) reads the last entry: -1
 
 
 def fit_discriminant(
@@ -344,7 +371,7 @@ def fit_discriminant(
     _check_kind(kind)
     if priors not in PRIORS:
         raise CompositionError(f"unknown priors {priors!r}; use 'proportional' or 'equal'")
-    t = as_table(X, min_parts=2)
+    t = as_table(X, min_parts=2, copy=False)  # only read here
     require_positive(t)
     n, D = t.values.shape
     V = default_basis(D) if basis is None else check_basis(basis, D)
@@ -370,14 +397,25 @@ def fit_discriminant(
         else np.full(len(kept), 1 / len(kept))
     )
     rows = stratified_rows(fitted_codes, max_rows, seed, minimum)
-    Y = clr_values(t)[rows] @ V.T
+    # clr of the fitted rows only (not of every row), laid out as a copy of the input
+    # would be (a frame's values column-major, an array's as they are): each row's mean is
+    # then summed in the same order, so the coordinates equal those of the clr of all
+    # rows selected afterwards (a row selection is in C order)
+    fortran = isinstance(X, pd.DataFrame) or (
+        t.values.flags.f_contiguous and not t.values.flags.c_contiguous
+    )
+    fitted = np.asarray(t.values[rows], order="F" if fortran else "C")
+    Y = np.ascontiguousarray(clr_values(Table(fitted, None, None, False, t.name))) @ V.T
     y = fitted_codes[rows]
     # the SVD solver: pooled within-group covariance with divisor n - K, rank-safe
     lda = LinearDiscriminantAnalysis(solver="svd", priors=prior)
     try:
         lda.fit(Y, y)
         if kind == "quadratic":
-            estimator = QuadraticDiscriminantAnalysis(priors=prior, store_covariance=True)
+            # tol=0: scikit-learn's default refuses a group whose covariance has an
+            # eigenvalue below 1e-4 in absolute terms (a tight but regular group of
+            # compositions); _fit_quadratic checks singularity relative to the largest
+            estimator = QuadraticDiscriminantAnalysis(priors=prior, store_covariance=True, tol=0.0)
             _fit_quadratic(estimator, Y, y, fitted_names)
         else:
             estimator = lda
