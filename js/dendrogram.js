@@ -142,20 +142,7 @@ function drawBalance(doc, split, state) {
       }),
     );
   }
-  if (m.selection) {
-    const ys = y + 9;
-    if (m.selection.box) {
-      const [a, b] = m.selection.box;
-      g.appendChild(
-        svg(doc, "line", { class: "cw-sel-spread", x1: a, x2: b, y1: ys, y2: ys }),
-      );
-    }
-    if (m.selection.mean !== null) {
-      g.appendChild(
-        svg(doc, "circle", { class: "cw-sel-mean", "data-role": "selection-mean", cx: m.selection.mean, cy: ys, r: 3.5 }),
-      );
-    }
-  }
+  g.appendChild(drawSelectionMarks(doc, split));
   for (const gm of m.groups) {
     g.appendChild(
       svg(doc, "circle", {
@@ -170,6 +157,70 @@ function drawBalance(doc, split, state) {
     );
   }
   return g;
+}
+
+/**
+ * The marks of the selection under one balance's axis (mean and 25-75 % line), in their
+ * own group so that a selection change replaces them alone.
+ * @param {Document} doc
+ * @param {import("./layout.js").SplitLayout} split
+ * @returns {SVGElement}
+ */
+function drawSelectionMarks(doc, split) {
+  const g = svg(doc, "g", { class: "cw-selection-marks", "data-role": "selection-marks", "data-node-id": split.id });
+  const sel = split.marks.selection;
+  if (!sel) return g;
+  const ys = split.yAxis + 9;
+  if (sel.box) {
+    const [a, b] = sel.box;
+    g.appendChild(svg(doc, "line", { class: "cw-sel-spread", x1: a, x2: b, y1: ys, y2: ys }));
+  }
+  if (sel.mean !== null) {
+    g.appendChild(
+      svg(doc, "circle", { class: "cw-sel-mean", "data-role": "selection-mean", cx: sel.mean, cy: ys, r: 3.5 }),
+    );
+  }
+  return g;
+}
+
+/**
+ * Redraw only the selection marks of a drawn dendrogram, from a new layout of the same
+ * tree on the same axes (the caller checks that nothing else moved).
+ * @param {SVGElement} root  the <svg> of drawDendrogram
+ * @param {DendrogramLayout} lay
+ * @returns {boolean} false when a balance of the layout is not in the drawing
+ */
+export function updateSelectionMarks(root, lay) {
+  const doc = root.ownerDocument;
+  /** @type {Map<string, Element>} */
+  const drawn = new Map();
+  for (const g of root.querySelectorAll('[data-role="selection-marks"]')) {
+    drawn.set(g.getAttribute("data-node-id") || "", g);
+  }
+  if (drawn.size !== lay.splits.length) return false;
+  for (const split of lay.splits) {
+    const old = drawn.get(split.id);
+    if (!old) return false;
+    const fresh = drawSelectionMarks(doc, split);
+    if (!sameMarks(old, fresh)) old.replaceWith(fresh);
+  }
+  return true;
+}
+
+/**
+ * Do two groups of marks draw the same (same children, same attributes)?
+ * @param {Element} a
+ * @param {Element} b
+ */
+function sameMarks(a, b) {
+  if (a.children.length !== b.children.length) return false;
+  for (let i = 0; i < a.children.length; i += 1) {
+    const x = a.children[i];
+    const y = b.children[i];
+    if (x.tagName !== y.tagName || x.attributes.length !== y.attributes.length) return false;
+    for (const attr of x.attributes) if (y.getAttribute(attr.name) !== attr.value) return false;
+  }
+  return true;
 }
 
 /**

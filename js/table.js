@@ -211,6 +211,32 @@ function drawHeading(doc, title, sort) {
 }
 
 /**
+ * The text of a "mean (selected)" cell.
+ * @param {number} n  selected rows with a value
+ * @param {number | null} mean
+ * @returns {string}
+ */
+function selectionMeanText(n, mean) {
+  return n > 0 ? formatNumber(mean) : NO_VALUE;
+}
+
+/**
+ * Put new selection means into a drawn table; nothing else of it changes (the column
+ * does not sort, so the order stays).
+ * @param {Element} table  the table of drawTable
+ * @param {Map<string, {n: number, mean: number | null}>} selection  by balance id
+ */
+export function updateSelectionCells(table, selection) {
+  for (const tr of table.querySelectorAll('[data-role="balance-row"]')) {
+    const cell = tr.querySelector('[data-role="selection-mean"]');
+    if (!cell) continue;
+    const sel = selection.get(tr.getAttribute("data-node-id") || "");
+    const text = selectionMeanText(sel ? sel.n : 0, sel ? sel.mean : null);
+    if (cell.textContent !== text) cell.textContent = text;
+  }
+}
+
+/**
  * @param {Document} doc
  * @param {BalanceRow} row
  * @param {boolean} active
@@ -251,7 +277,7 @@ function drawRow(doc, row, active, grouped) {
       doc,
       "td",
       { class: "cw-num cw-sel", "data-role": "selection-mean" },
-      row.selectionN > 0 ? formatNumber(row.selectionMean) : NO_VALUE,
+      selectionMeanText(row.selectionN, row.selectionMean),
     ),
   );
   if (grouped) {

@@ -121,7 +121,7 @@ test("in the widget a click on a heading sorts, and the order survives a redraw"
     variance: 1, share: 0.5, mean: 0, n: 10, groups: [], separation: sep(f, 0.01, f, 0.2),
   });
   const model = fakeModel({
-    parts, tree, selection_stats: [], total_variance: 2, n_selected: 0, n_samples: 10, n_rows: 10,
+    parts, tree, selection_summary: {}, total_variance: 2, n_selected: 0, n_samples: 10, n_rows: 10,
     groups: [], error: "", busy: false, progress: "", colour_balance: "",
     stats: [stat("n0", ["Aa", "Bb"], ["Cc"], 2), stat("n1", ["Aa"], ["Bb"], 9)],
   });

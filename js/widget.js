@@ -11,7 +11,7 @@
 // with the key it had, or on the builder itself when that element is gone or disabled, so
 // the next Ctrl+Z still reaches the builder.
 //
-// Synced traits read here: parts, tree, stats, selection_stats, total_variance,
+// Synced traits read here: parts, tree, stats, selection_summary, total_variance,
 // n_selected, n_samples, n_rows, groups, error, busy, progress, colour_balance,
 // figure_control (a reference to the kernel's figure-saving control, shown under the
 // dendrogram through the page's widget manager). Written here: tree, colour_balance.
@@ -20,13 +20,13 @@
 
 import { canRedo, canUndo, createHistory, dropPresent, pushState, redo, undo } from "./history.js";
 import { closestRole, findByAttr, html } from "./dom.js";
-import { drawDendrogram } from "./dendrogram.js";
+import { drawDendrogram, updateSelectionMarks } from "./dendrogram.js";
 import { answerFigureRequest } from "./figure.js";
 import { defaultBalanceName, rowsUsedText, selectedCountText, totalVarianceText } from "./labels.js";
-import { layoutDendrogram } from "./layout.js";
+import { axisRadius, layoutDendrogram } from "./layout.js";
 import { drawSuggestMenu, menuStep } from "./menu.js";
 import { drawSplitter } from "./splitter.js";
-import { createTableSort, drawTable, nextSort } from "./table.js";
+import { createTableSort, drawTable, nextSort, updateSelectionCells } from "./table.js";
 import { applySplit, canMerge, canSplit, findNode, findParent, isLeaf, mergeWithSibling, movePart, pendingReady, renameBalance, sameParts, sameTree, splitNodes, startSplit, togglePart, unsplitNode } from "./tree.js";
 
 /**
@@ -46,12 +46,12 @@ import { applySplit, canMerge, canSplit, findNode, findParent, isLeaf, mergeWith
  * @property {any} [widget_manager] the page's widget manager (get_model, create_view)
  */
 
-/** Traits whose change redraws the view. */
+/** Traits whose change redraws the view (the selection's two redraw only their parts). */
 const WATCHED = [
   "parts",
   "tree",
   "stats",
-  "selection_stats",
+  "selection_summary",
   "total_variance",
   "n_selected",
   "n_samples",
@@ -91,6 +91,28 @@ export function matchStats(tree, stats) {
     }
   }
   return out;
+}
+
+/** Traits of the selection: their change redraws only what depends on the selection. */
+const SELECTION_TRAITS = ["selection_summary", "n_selected"];
+
+/**
+ * The per-balance statistics of the selection, one entry per balance, from the columns
+ * the kernel sends (`{ids, n, mean, q25, q75}`; `{}` when there are none).
+ * @param {any} summary
+ * @returns {{id: string, n: number, mean: number | null, q25: number | null, q75: number | null}[]}
+ */
+export function selectionEntries(summary) {
+  if (!summary || !Array.isArray(summary.ids)) return [];
+  const at = (/** @type {string} */ key, /** @type {number} */ i) =>
+    Array.isArray(summary[key]) && typeof summary[key][i] === "number" ? summary[key][i] : null;
+  return summary.ids.map((/** @type {string} */ id, /** @type {number} */ i) => ({
+    id: String(id),
+    n: Number(summary.n) || 0,
+    mean: at("mean", i),
+    q25: at("q25", i),
+    q75: at("q75", i),
+  }));
 }
 
 /**
@@ -192,6 +214,8 @@ export function render({ model, el }) {
     menuOpen: false,
     draft: null, // a balance name being typed: {key, value}
     tableSort: createTableSort(),
+    /** @type {{tree: TreeNode, stats: any, matched: any[], radius: number} | null} */
+    drawn: null, // what the last full drawing was made from (a selection change redraws less)
   };
   const present = () => state.history.present;
 
@@ -307,8 +331,9 @@ export function render({ model, el }) {
   function paint() {
     const saved = captureFocus();
     const tree = present();
-    const stats = matchStats(tree, model.get("stats") || []);
-    const selection = (model.get("selection_stats") || []).filter((/** @type {any} */ s) => stats.has(s.id));
+    const rawStats = model.get("stats");
+    const stats = matchStats(tree, rawStats || []);
+    const selection = selectionEntries(model.get("selection_summary")).filter((s) => stats.has(s.id));
     const groups = model.get("groups") || [];
     const colourBalance = model.get("colour_balance") || "";
     const busy = Boolean(model.get("busy"));
@@ -331,7 +356,9 @@ export function render({ model, el }) {
     errorLine.toggleAttribute("hidden", !message);
 
     // dendrogram
-    const lay = layoutDendrogram(tree, [...stats.values()], selection);
+    const matched = [...stats.values()];
+    const lay = layoutDendrogram(tree, matched, selection);
+    state.drawn = lay.byLevel ? null : { tree, stats: rawStats, matched, radius: axisRadius(matched, selection) };
     /** @type {Map<string, {name: string, share: number | null}>} */
     const names = new Map();
     const rows = splitNodes(tree).map((node) => {
@@ -388,6 +415,33 @@ export function render({ model, el }) {
     restoreFocus(saved);
   }
 
+  /**
+   * A selection change: the count, the selection's marks on the axes and its column in
+   * the table; the full drawing only when the axes' range changes with it (or the tree or
+   * the statistics changed since the last drawing).
+   */
+  function paintSelection() {
+    countLine.textContent = selectedCountText(model.get("n_selected") || 0);
+    const drawn = state.drawn;
+    const svgNode = figure.querySelector('svg[data-role="dendrogram"]');
+    const table = tableBox.querySelector('[data-role="balance-table"]');
+    if (!drawn || drawn.tree !== present() || drawn.stats !== model.get("stats") || !svgNode || !table) {
+      paint();
+      return;
+    }
+    const ids = new Set(drawn.matched.map((s) => s.id));
+    const selection = selectionEntries(model.get("selection_summary")).filter((s) => ids.has(s.id));
+    if (axisRadius(drawn.matched, selection) !== drawn.radius) {
+      paint(); // the axes' range moves: every mark moves
+      return;
+    }
+    if (!updateSelectionMarks(svgNode, layoutDendrogram(drawn.tree, drawn.matched, selection))) {
+      paint();
+      return;
+    }
+    updateSelectionCells(table, new Map(selection.map((s) => [s.id, s])));
+  }
+
   // ---- kernel -> view
   function onTree() {
     const incoming = model.get("tree");
@@ -408,7 +462,10 @@ export function render({ model, el }) {
   }
 
   /** @type {[string, Function][]} */
-  const modelHandlers = WATCHED.map((name) => [`change:${name}`, name === "tree" ? onTree : paint]);
+  const modelHandlers = WATCHED.map((name) => [
+    `change:${name}`,
+    name === "tree" ? onTree : SELECTION_TRAITS.includes(name) ? paintSelection : paint,
+  ]);
 
   /**
    * Custom messages of the kernel: figure requests.

@@ -5,7 +5,7 @@ import assert from "node:assert/strict";
 import { test } from "node:test";
 
 import { click, drag, fakeModel, keydown, page, type } from "./testdom.js";
-import { render, matchStats } from "./widget.js";
+import { render, matchStats, selectionEntries } from "./widget.js";
 
 const HTML_PART = "<img src=x onerror=alert(1)>";
 const PARTS = ["Aa", "Bb", "Cc", HTML_PART];
@@ -17,7 +17,7 @@ function setup(extra = {}) {
     parts: PARTS,
     tree: ROOT,
     stats: [],
-    selection_stats: [],
+    selection_summary: {},
     total_variance: 2.5,
     n_selected: 7,
     n_samples: 40,
@@ -514,7 +514,7 @@ test("the figure control made by the page's widget manager is shown under the de
       return view;
     },
   };
-  const model = fakeModel({ parts: PARTS, tree: ROOT, stats: [], selection_stats: [], figure_control: "IPY_MODEL_abc123" });
+  const model = fakeModel({ parts: PARTS, tree: ROOT, stats: [], selection_summary: {}, figure_control: "IPY_MODEL_abc123" });
   model.widget_manager = manager;
   const cleanup = render({ model, el });
   await new Promise((resolve) => setTimeout(resolve, 0));
@@ -547,4 +547,53 @@ test("the toolbar says how many rows the statistics leave out, naming the unit o
   assert.equal(one("rows-used").textContent, "statistics on 37 of 40 rows (3 rows missing or zero in an active part)");
   assert.equal(one("rows-used").hidden, false);
   assert.equal(one("n-selected").textContent, "1 row selected");
+});
+
+test("a selection change redraws only the selection's marks, cells and count", () => {
+  const tree = splitRoot(["Aa", "Bb"]);
+  const t = setup({ tree, stats: statsFor(tree) });
+  const balance = t.one("balance");
+  const tableRow = t.one("balance-row");
+  const nameInput = t.one("name-input");
+  nameInput.focus();
+  const summary = (mean, q25, q75, n = 12) => ({ ids: ["n0"], n, mean: [mean], q25: [q25], q75: [q75] });
+  t.model.kernel({ selection_summary: summary(0.1, -0.2, 0.4), n_selected: 12 });
+  // the balance, the table row and the focused name field are the elements drawn before
+  assert.equal(t.one("balance"), balance);
+  assert.equal(t.one("balance-row"), tableRow);
+  assert.equal(t.active(), nameInput);
+  const dot = balance.querySelector('[data-role="selection-mean"]');
+  assert.ok(dot, "the selection's mean is drawn on the axis");
+  const cell = tableRow.querySelector('[data-role="selection-mean"]');
+  const firstText = cell.textContent;
+  assert.notEqual(firstText, "\u2013");
+  assert.equal(t.one("n-selected").textContent, "12 rows selected");
+  const cx = Number(dot.getAttribute("cx"));
+
+  t.model.kernel({ selection_summary: summary(0.6, 0.3, 0.65, 5), n_selected: 5 });
+  assert.equal(t.one("balance"), balance);
+  const moved = balance.querySelector('[data-role="selection-mean"]');
+  assert.notEqual(Number(moved.getAttribute("cx")), cx, "another mean, another place");
+  assert.notEqual(tableRow.querySelector('[data-role="selection-mean"]').textContent, firstText);
+  assert.equal(t.one("n-selected").textContent, "5 rows selected");
+
+  // no selected rows: the marks and the cell are emptied, nothing else is redrawn
+  t.model.kernel({ selection_summary: summary(null, null, null, 0), n_selected: 0 });
+  assert.equal(t.one("balance"), balance);
+  assert.equal(balance.querySelector('[data-role="selection-mean"]'), null);
+  assert.equal(tableRow.querySelector('[data-role="selection-mean"]').textContent, "\u2013");
+
+  // a selection beyond the axes' range rescales every mark: a full redraw
+  t.model.kernel({ selection_summary: summary(4.0, 3.5, 4.5), n_selected: 3 });
+  assert.notEqual(t.one("balance"), balance);
+  assert.ok(t.one("balance").querySelector('[data-role="selection-mean"]'));
+  t.cleanup();
+});
+
+test("selectionEntries reads the kernel's columns", () => {
+  assert.deepEqual(selectionEntries({}), []);
+  assert.deepEqual(selectionEntries({ ids: ["n0", "n3"], n: 4, mean: [0.5, null], q25: [0, null], q75: [1, null] }), [
+    { id: "n0", n: 4, mean: 0.5, q25: 0, q75: 1 },
+    { id: "n3", n: 4, mean: null, q25: null, q75: null },
+  ]);
 });

@@ -346,21 +346,44 @@ def test_selection_change_updates_only_selection_stats(builder, model):
     rows = np.arange(0, N, 3)
     model.select(rows)
 
-    assert set(changed) == {"selection_stats", "n_selected"}
-    for state in sent_states(builder):
-        assert set(state) <= {"selection_stats", "n_selected"}
+    assert set(changed) == {"selection_summary", "n_selected"}
+    states = sent_states(builder)
+    assert len(states) == 1  # one message for both traits
+    for state in states:
+        assert set(state) <= {"selection_summary", "n_selected"}
     assert builder.n_selected == rows.size
     b = balance_by_definition(_values()[rows], ["Cc"], ["Dd", HTML_PART])
-    entry = builder.selection_stats[1]
+    entry = builder.selection_stats[1]  # kernel side, full precision
     assert entry["id"] == "n2"
     assert entry["n"] == rows.size
     assert entry["mean"] == pytest.approx(b.mean())
     assert entry["q25"] == pytest.approx(np.quantile(b, 0.25))
     assert entry["q75"] == pytest.approx(np.quantile(b, 0.75))
+    # what the front end gets: the same numbers in columns, to 6 significant digits
+    sent = builder.selection_summary
+    assert sent["ids"] == [e["id"] for e in builder.selection_stats] and sent["n"] == rows.size
+    assert sent["mean"][1] == pytest.approx(b.mean(), rel=1e-5)
+    assert sent["q75"][1] == pytest.approx(np.quantile(b, 0.75), rel=1e-5)
 
     changed.clear()
     model.select(rows)  # the same selection again: nothing to send
     assert changed == []
+
+
+def test_a_selection_change_sends_a_small_message(builder, model):
+    """Every balance of a complete SBP: the message of a selection change holds per balance
+    its id and three 6-digit numbers (under 45 bytes), not a keyed record of 17-digit
+    numbers (about 90 bytes)."""
+    from_front_end(builder, tree=complete_tree())
+    builder.comm.sent.clear()
+    model.select(np.arange(0, N, 2))
+    (state,) = sent_states(builder)
+    size = len(json.dumps(state))
+    k = len(builder.selection_stats)
+    assert k == len(PARTS) - 1
+    assert size < 45 * k + 80, size
+    full = len(json.dumps({"selection_stats": builder.selection_stats, "n_selected": 0}))
+    assert size < 0.6 * full
 
 
 def t_all(widget) -> list[str]:

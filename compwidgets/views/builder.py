@@ -76,6 +76,22 @@ class _Partition(NamedTuple):
     sides: list[tuple[list[str], list[str]]]  # (numerator parts, denominator parts)
 
 
+def _short(x: float | None) -> float | None:
+    """A number with 6 significant digits (what the front end can show), for the wire."""
+    return None if x is None else float(f"{x:.6g}")
+
+
+def _columns(selection: list[dict]) -> dict:
+    """The selection's statistics per balance as columns: ids, n, mean, q25, q75."""
+    if not selection:
+        return {}
+    return {
+        "ids": [s["id"] for s in selection],
+        "n": int(selection[0]["n"]),  # complete rows: the same for every balance
+        **{key: [_short(s[key]) for s in selection] for key in ("mean", "q25", "q75")},
+    }
+
+
 def _row_map(sbp: np.ndarray | None, names) -> dict[bytes, str]:
     """SBP row (as bytes) -> balance name: the partition regardless of row order."""
     if sbp is None or sbp.shape[0] == 0:
@@ -119,10 +135,13 @@ class BalanceBuilder(anywidget.AnyWidget):
         :attr:`max_rank_rows`), ``between_share``, ``n``, ``n_groups``
         (:func:`compwidgets.core.separation.balance_separation`). Values that
         cannot be computed are None.
-    selection_stats : list of dict
-        One entry per split node: ``id``, ``n``, ``mean``, ``q25``, ``q75`` of
-        the selected complete rows. A selection change updates only this and
-        ``n_selected``.
+    selection_summary : dict
+        The statistics of the selected complete rows, in columns (the smallest
+        message a selection change sends): ``ids`` (split nodes, pre-order),
+        ``n`` (selected complete rows) and lists ``mean``, ``q25``, ``q75`` (6
+        significant digits; None without rows). A selection change updates only
+        this and ``n_selected``; the front end then redraws only the selection's
+        marks and cells.
     total_variance : float or None
         Total variance of the active parts (complete rows, ddof = 1).
     n_samples : int
@@ -146,6 +165,12 @@ class BalanceBuilder(anywidget.AnyWidget):
         The "Save figure" control (format, scale, file name) the front end shows
         under the dendrogram; see :meth:`save_figure`.
 
+    Kernel-side traits (not synced)
+    -------------------------------
+    selection_stats : list of dict
+        One entry per split node: ``id``, ``n``, ``mean``, ``q25``, ``q75`` of
+        the selected complete rows, at full precision.
+
     Custom messages
     ---------------
     From the front end: ``{"type": "suggest", "method": "principal" | "ward"}`` (see
@@ -160,7 +185,8 @@ class BalanceBuilder(anywidget.AnyWidget):
     parts = t.List(t.Unicode()).tag(sync=True)
     tree = t.Dict().tag(sync=True)
     stats = t.List(t.Dict()).tag(sync=True)
-    selection_stats = t.List(t.Dict()).tag(sync=True)
+    selection_summary = t.Dict().tag(sync=True)
+    selection_stats = t.List(t.Dict())
     total_variance = t.Float(None, allow_none=True).tag(sync=True)
     n_samples = t.Int(0).tag(sync=True)
     n_rows = t.Int(0).tag(sync=True)
@@ -664,9 +690,12 @@ class BalanceBuilder(anywidget.AnyWidget):
                 chosen = self._B[m.selected_mask()[self._rows]]
             summary = quartile_summary(chosen)
             selection = [{"id": i, **s} for i, s in zip(self._part.ids, summary, strict=True)]
+        compact = _columns(selection)
         with self.hold_sync():
             if self.selection_stats != selection:
                 self.selection_stats = selection
+            if self.selection_summary != compact:
+                self.selection_summary = compact
             n = int(m.selection.size)
             if self.n_selected != n:
                 self.n_selected = n
