@@ -139,3 +139,14 @@ def test_total_variance_from_the_variation_matrix(X):
     T = core.variation_matrix(X)
     got = core.stats.total_variance_from_variation(T)
     assert got == pytest.approx(expected, rel=1e-9, abs=1e-12)
+
+
+def test_balance_tables_are_read_in_place_and_left_unchanged():
+    # a table of a million rows is summarised without a second copy of it
+    from compwidgets.core.summary import balance_table, summarize_balances
+
+    B = np.random.default_rng(12).normal(size=(50, 3))
+    B.flags.writeable = False  # any write into it would raise
+    assert np.shares_memory(balance_table(B, "test"), B)
+    summarize_balances(B, codes=np.arange(50) % 2, n_groups=2)
+    assert not np.shares_memory(balance_table(B.tolist(), "test"), B)

@@ -136,3 +136,28 @@ def test_as_table_copies_unless_told_not_to():
     Z = np.asarray(clr(values))
     Z.flags.writeable = False
     core_biplot.clr_biplot(Z)
+
+
+def test_composition_biplot_equals_the_biplot_of_the_clr_matrix():
+    """Blockwise clr (three blocks, two rows left out) against the clr matrix route, whose
+    SVD is checked against numpy above; the clr itself: numpy log and row means."""
+    rng = np.random.default_rng(10)
+    X = rng.lognormal(mean=rng.normal(size=6), sigma=0.5, size=(9_000, 6))
+    X[[5, 4_100], [2, 0]] = [np.nan, 0.0]  # a missing value and a zero
+    frame = pd.DataFrame(X, columns=[f"p{j}" for j in range(6)])
+    logs = np.log(np.where(X > 0, X, np.nan))
+    Z = logs - logs.mean(axis=1, keepdims=True)
+    for scaling in ("covariance", "form"):
+        ref = core_biplot.clr_biplot(Z, scaling, n_components=3, missing="omit")
+        fit = core_biplot.composition_biplot(frame, scaling, n_components=3, missing="omit")
+        assert fit.parts == list(frame.columns)
+        np.testing.assert_array_equal(fit.rows_used, ref.rows_used)
+        assert not fit.rows_used[[5, 4_100]].any()
+        np.testing.assert_allclose(fit.singular_values, ref.singular_values, rtol=1e-12)
+        np.testing.assert_allclose(fit.clr_mean, ref.clr_mean, atol=1e-13)
+        np.testing.assert_allclose(fit.column_coords, ref.column_coords, atol=1e-12)
+        np.testing.assert_allclose(fit.row_coords, ref.row_coords, atol=1e-10)
+        np.testing.assert_allclose(fit.row_column(1), ref.row_coords[:, 1], atol=1e-10)
+        assert fit.total_variance == pytest.approx(ref.total_variance, rel=1e-12)
+    with pytest.raises(core_biplot.CompositionError, match="rows 5, 4100"):
+        core_biplot.composition_biplot(X)

@@ -20,7 +20,14 @@ from . import (
     tree,
 )
 from ._arrays import CompositionError
-from .biplot import Biplot, clr_biplot, link_length, logratio_sd, ray_associations
+from .biplot import (
+    Biplot,
+    clr_biplot,
+    composition_biplot,
+    link_length,
+    logratio_sd,
+    ray_associations,
+)
 from .operations import (
     aitchison_distance,
     aitchison_inner,
@@ -62,6 +69,7 @@ __all__ = [
     "closure",
     "clr",
     "clr_biplot",
+    "composition_biplot",
     "clr_covariance",
     "clr_inv",
     "default_basis",

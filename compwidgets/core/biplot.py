@@ -51,7 +51,7 @@ import pandas as pd
 
 from ._arrays import CompositionError, _listing, as_table
 from .stats import DDOF
-from .tall_svd import centred_thin_svd
+from .tall_svd import BLOCK_ROWS, centred_thin_svd
 
 #: The scalings :func:`clr_biplot` accepts.
 SCALINGS = ("covariance", "form")
@@ -103,7 +103,6 @@ class Biplot:
         ``V`` (orthonormal columns, each summing to zero).
     """
 
-    row_coords: np.ndarray
     column_coords: np.ndarray
     singular_values: np.ndarray
     explained_variance: np.ndarray
@@ -115,6 +114,21 @@ class Biplot:
     rows_used: np.ndarray = field(repr=False)
     left_vectors: np.ndarray = field(repr=False)
     right_vectors: np.ndarray = field(repr=False)
+
+    @property
+    def row_coords(self) -> np.ndarray:
+        """Row coordinates (n, k): the left vectors scaled (computed when asked, read-only)."""
+        return _frozen(self.left_vectors * self._row_factor())
+
+    def row_column(self, c: int) -> np.ndarray:
+        """Row coordinates of component ``c`` (one column of :attr:`row_coords`, alone)."""
+        return _frozen(self.left_vectors[:, c] * self._row_factor()[c])
+
+    def _row_factor(self) -> np.ndarray:
+        k = self.left_vectors.shape[1]
+        if self.scaling == "form":
+            return self.singular_values[:k]
+        return np.full(k, np.sqrt(self.n_rows_used - DDOF))
 
     @property
     def n_rows_used(self) -> int:
@@ -147,15 +161,8 @@ class Biplot:
         scaling = _check_scaling(scaling)
         if scaling == self.scaling:
             return self
-        rows, cols = _scaled(
-            self.left_vectors,
-            self.right_vectors,
-            self.singular_values,
-            self.n_rows_used,
-            scaling,
-        )
+        cols = _scaled(self.right_vectors, self.singular_values, self.n_rows_used, scaling)
         return Biplot(
-            row_coords=rows,
             column_coords=cols,
             singular_values=self.singular_values,
             explained_variance=self.explained_variance,
@@ -265,26 +272,106 @@ def clr_biplot(
             "give clr coordinates, e.g. compwidgets.core.clr(X)"
         )
 
+    k = _n_components(n_components, n, D)
+    scale = max(1.0, float(biggest.max()))
+    return _fitted(Zu, Zu.mean(axis=0), used, names, scaling, k, scale)
+
+
+def composition_biplot(
+    X,
+    scaling: str = "covariance",
+    *,
+    parts: Sequence[str] | None = None,
+    n_components: int | None = None,
+    missing: str = "raise",
+) -> Biplot:
+    """The clr biplot of compositions, their clr computed block by block of rows.
+
+    The same biplot as ``clr_biplot(clr(X))`` (to rounding), without the
+    ``(n, D)`` clr matrix: each block of rows is taken to clr coordinates,
+    centred and factored in turn (:func:`compwidgets.core.tall_svd.centred_thin_svd`).
+
+    Parameters
+    ----------
+    X : array-like or DataFrame of shape (n, D)
+        Compositions (closure not needed), one row per sample.
+    scaling, parts, n_components
+        As for :func:`clr_biplot` (part names default to the DataFrame columns).
+    missing : {"raise", "omit"}, default "raise"
+        Rows with a part that is missing, zero or negative: ``"raise"`` raises
+        naming them; ``"omit"`` leaves them out (NaN coordinates, see ``rows_used``).
+
+    Returns
+    -------
+    Biplot
+    """
+    scaling = _check_scaling(scaling)
+    if missing not in MISSING:
+        raise CompositionError(
+            f"composition_biplot: missing must be 'raise' or 'omit', got {missing!r}"
+        )
+    t = as_table(X, "X", min_parts=2, copy=False)  # only read here
+    values = t.values
+    n_all, D = values.shape
+    names = _part_names(t, parts, D)
+    with np.errstate(invalid="ignore"):
+        bad = ~(np.isfinite(values) & (values > 0)).all(axis=1)
+    if bad.any() and missing == "raise":
+        rows = np.flatnonzero(bad)
+        raise CompositionError(
+            f"X: rows {_listing(t.row_labels(rows), len(rows))} ({len(rows)} of {n_all}) have "
+            "a part that is missing, zero or negative; replace those values first or pass "
+            "missing='omit' to leave the rows out"
+        )
+    used = ~bad
+    Xu = values if used.all() else values[used]
+    n = Xu.shape[0]
+    if n <= DDOF:
+        raise CompositionError(
+            f"composition_biplot: needs at least {DDOF + 1} complete rows, got {n} "
+            f"({n_all - n} left out)"
+        )
+    k = _n_components(n_components, n, D)
+    total, scale = np.zeros(D), 1.0
+    for start in range(0, n, BLOCK_ROWS):
+        block = _clr_rows(Xu[start : start + BLOCK_ROWS])
+        total += block.sum(axis=0)
+        scale = max(scale, float(np.abs(block).max()))
+    return _fitted(Xu, total / n, used, names, scaling, k, scale, transform=_clr_rows)
+
+
+def _clr_rows(values: np.ndarray) -> np.ndarray:
+    """clr of a block of positive rows (a new array)."""
+    logs = np.log(values)
+    logs -= logs.mean(axis=1, keepdims=True)
+    return logs
+
+
+def _n_components(n_components, n: int, D: int) -> int:
+    """Columns of row coordinates to keep: all ``r = min(n - 1, D - 1)`` by default."""
     r = min(n - 1, D - 1)
     if n_components is None:
-        k = r
-    else:
-        if isinstance(n_components, bool) or not isinstance(n_components, (int, np.integer)):
-            raise CompositionError(
-                f"clr_biplot: n_components must be an integer, got {n_components!r}"
-            )
-        if not 1 <= n_components <= r:
-            raise CompositionError(
-                f"clr_biplot: n_components must be in 1..{r} for {n} rows and {D} parts, "
-                f"got {n_components}"
-            )
-        k = int(n_components)
+        return r
+    if isinstance(n_components, bool) or not isinstance(n_components, (int, np.integer)):
+        raise CompositionError(
+            f"clr_biplot: n_components must be an integer, got {n_components!r}"
+        )
+    if not 1 <= n_components <= r:
+        raise CompositionError(
+            f"clr_biplot: n_components must be in 1..{r} for {n} rows and {D} parts, "
+            f"got {n_components}"
+        )
+    return int(n_components)
 
-    mean = Zu.mean(axis=0)
+
+def _fitted(Zu, mean, used, names, scaling, k: int, scale: float, transform=None) -> Biplot:
+    """The biplot of the rows used (``Zu``, or their clr by ``transform``), centred on ``mean``."""
+    n, D = Zu.shape
+    n_all = used.size
+    r = min(n - 1, D - 1)
     # exact thin SVD of the centred rows in blocks (TSQR): no centred copy, no (n, D) factor
-    U, s, V, total_ss = centred_thin_svd(Zu, mean, k)
+    U, s, V, total_ss = centred_thin_svd(Zu, mean, k, transform=transform)
     s, V = s[:r], V[:, :r]
-    scale = max(1.0, float(biggest.max()))
     if not np.sqrt(total_ss / Zu.size) > _ZERO_RTOL * scale:
         raise CompositionError(
             f"clr_biplot: the {n} rows used all have the same composition (total variance 0); "
@@ -301,11 +388,9 @@ def clr_biplot(
         U_all[used] = U
     U_all.flags.writeable = False
     V.flags.writeable = False
-    rows_c, cols_c = _scaled(U_all, V, s, n, scaling)
     explained_variance = s**2 / (n - DDOF)
     return Biplot(
-        row_coords=rows_c,
-        column_coords=cols_c,
+        column_coords=_scaled(V, s, n, scaling),
         singular_values=_frozen(s),
         explained_variance=_frozen(explained_variance),
         explained_ratio=_frozen(s**2 / total_ss),
@@ -752,14 +837,10 @@ def _orientation(V: np.ndarray) -> np.ndarray:
     return signs
 
 
-def _scaled(U, V, s, n: int, scaling: str) -> tuple[np.ndarray, np.ndarray]:
-    k = U.shape[1]
-    if scaling == "form":
-        rows, cols = U * s[:k], V.copy()
-    else:
-        root = np.sqrt(n - DDOF)
-        rows, cols = U * root, V * (s / root)
-    return _frozen(rows), _frozen(cols)
+def _scaled(V, s, n: int, scaling: str) -> np.ndarray:
+    """Column (part) coordinates in a scaling (the rows are scaled when asked for)."""
+    cols = V.copy() if scaling == "form" else V * (s / np.sqrt(n - DDOF))
+    return _frozen(cols)
 
 
 def _components(biplot: Biplot, components: Sequence[int] | None) -> list[int]:

@@ -47,9 +47,12 @@ def _rows_mask(selected, n: int) -> np.ndarray:
 
 
 def balance_table(B, what: str, names=None) -> np.ndarray:
-    """``B`` as a float matrix (n, k) of balances, or an error naming ``what``."""
+    """``B`` as a float matrix (n, k) of balances, or an error naming ``what``.
+
+    A float array is returned as it is, not copied: the callers only read it.
+    """
     try:
-        values = np.array(B, dtype=float)
+        values = np.asarray(B, dtype=float)
     except (TypeError, ValueError) as err:
         raise CompositionError(f"{what}: cannot read B as numbers ({err})") from None
     if values.ndim != 2:

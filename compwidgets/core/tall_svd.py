@@ -24,6 +24,8 @@ Signs of the singular vectors are as LAPACK returns them; callers orient them.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 from scipy.linalg import lapack
 
@@ -34,20 +36,28 @@ BLOCK_ROWS = 4096
 
 
 def centred_thin_svd(
-    Z: np.ndarray, mean: np.ndarray, k: int, *, block_rows: int = BLOCK_ROWS
+    Z: np.ndarray,
+    mean: np.ndarray,
+    k: int,
+    *,
+    block_rows: int = BLOCK_ROWS,
+    transform: Callable[[np.ndarray], np.ndarray] | None = None,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
-    """Thin SVD of ``Z - mean`` without forming it.
+    """Thin SVD of ``Z - mean`` (or ``transform(Z) - mean``) without forming it.
 
     Parameters
     ----------
     Z : ndarray of shape (n, D), float64
         The rows (not changed).
     mean : ndarray of shape (D,)
-        Subtracted from every row.
+        Subtracted from every (transformed) row.
     k : int
         Columns of ``U`` wanted, ``0 <= k <= min(n, D)``.
     block_rows : int
         Rows per block (at least ``D``; smaller values are raised to ``D``).
+    transform : callable, optional
+        Applied to each block of rows first (row by row, e.g. their clr), so that
+        the transformed matrix is never formed either.
 
     Returns
     -------
@@ -73,7 +83,8 @@ def centred_thin_svd(
     def centred(start: int) -> np.ndarray:
         """One block of rows minus the mean, in the buffer (Fortran order, for LAPACK)."""
         block = buffer[: min(step, n - start)]
-        block[...] = Z[start : start + step]  # a copy, then in place: faster than out=
+        rows = Z[start : start + step]
+        block[...] = rows if transform is None else transform(rows)  # then in place: faster
         block -= mean
         return block
 

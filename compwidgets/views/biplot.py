@@ -222,11 +222,12 @@ class BiplotView(ScatterView):
         scaling = self.scaling
 
         def fit_now():
-            clr = self.model.clr(parts)
+            values = self.model.part_values(parts)
             try:
                 with one_blas_thread():  # blocks of rows: one thread is fastest (_threads)
-                    return core_biplot.clr_biplot(
-                        clr, scaling, parts=parts, n_components=n_components, missing="omit"
+                    # the clr of each block of rows in turn: no (n, D) clr matrix is kept
+                    return core_biplot.composition_biplot(
+                        values, scaling, parts=parts, n_components=n_components, missing="omit"
                     )
             except CompositionError as err:
                 return f"no biplot: {err}"
@@ -261,8 +262,10 @@ class BiplotView(ScatterView):
 
         def points():
             rows = np.flatnonzero(fit.rows_used).astype(np.uint32)
-            x = fit.row_coords[rows, cx]
-            y = fit.row_coords[rows, cy] if cy is not None else np.zeros(rows.size)
+            every = rows.size == fit.rows_used.size  # no selection of rows needed
+            x = fit.row_column(cx) if every else fit.row_column(cx)[rows]
+            y = np.zeros(rows.size) if cy is None else fit.row_column(cy)
+            y = y if every or cy is None else y[rows]
             return rows, x, y, core_biplot.ray_display_factor(fit, plane)
 
         # kept in the model's cache per plane: a plane shown before is a lookup

@@ -647,7 +647,10 @@ class BalanceBuilder(anywidget.AnyWidget):
         new = [k for k, key in enumerate(keys) if key not in self._separation]
         if new:
             found = balance_separation(
-                self._B[:, new], codes, n_groups, max_rank_rows=self.max_rank_rows
+                self._B if len(new) == len(keys) else self._B[:, new],  # no copy of all
+                codes,
+                n_groups,
+                max_rank_rows=self.max_rank_rows,
             )
             for k, entry in zip(new, found, strict=True):
                 self._separation[keys[k]] = {key: entry[key] for key in STATISTIC_KEYS}
