@@ -36,6 +36,7 @@ from ..model import CompositionModel, ModelError
 from ._common import group_colours
 from ._esm import bundle, read_asset
 from ._figure_save import FigureSaveControl
+from ._first import observe_first
 
 __all__ = ["BalanceBuilder"]
 
@@ -239,7 +240,10 @@ class BalanceBuilder(anywidget.AnyWidget):
             (self._on_model_colour, ["colour_by"]),
         ]
         for handler, names in self._model_handlers:
-            model.observe(handler, names=names)
+            if names == ["selection"]:  # a few numbers: sent before the views restyle points
+                observe_first(model, handler, "selection")
+            else:
+                model.observe(handler, names=names)
         self._refresh_groups()
         self._sync_from_model(force=True)
 

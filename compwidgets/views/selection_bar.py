@@ -19,6 +19,7 @@ import ipywidgets as w
 import traitlets as t
 
 from ._errors import shows_errors
+from ._first import observe_first
 
 __all__ = ["SelectionBar"]
 
@@ -114,7 +115,8 @@ class SelectionBar(w.VBox):
         super().__init__(children=rows, **kwargs)
 
         self._on_selection = capture(self._selection_changed)
-        model.observe(self._on_selection, names=["selection"])
+        # the count is sent before the views restyle their points (see _first)
+        observe_first(model, self._on_selection, "selection")
         self._show_count()
 
     # ------------------------------------------------------------ public
@@ -219,8 +221,8 @@ class SelectionBar(w.VBox):
 
     def _show_count(self) -> None:
         n, total = self.count, self.model.n_rows
+        self.count_label.value = f"{n:,} of {total:,} samples selected"  # the one on screen
         self.count_value.value = str(n)
-        self.count_label.value = f"{n:,} of {total:,} samples selected"
 
     def _typed_name(self, suffix: str) -> Path:
         name = (self.file_name.value or "").strip()
