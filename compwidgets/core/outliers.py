@@ -261,7 +261,7 @@ def robust_distances(
     """
     from sklearn.covariance import MinCovDet  # only here: core stays light to import
 
-    t = as_table(Y, "Y")
+    t = as_table(Y, "Y", copy=False)  # only read here
     values = t.values
     bad = ~np.isfinite(values).all(axis=1)
     if bad.any():

@@ -656,7 +656,8 @@ class TriagePanel(w.VBox):
             )
         try:
             self.progress.show(0, 2, f"ilr coordinates of {rows.size:,} complete rows")
-            coords = np.asarray(model.ilr(parts))[ok]
+            coords = np.asarray(model.ilr(parts))
+            coords = coords if rows.size == ok.size else coords[ok]  # no copy of every row
             if by_group:
                 categories, codes = model.group_codes()
                 codes = codes[ok]
