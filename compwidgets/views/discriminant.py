@@ -49,6 +49,7 @@ from ..discriminant import CAUTION, GroupDiscriminant
 from ..model import CompositionModel
 from . import _common as cm
 from ._scatter import ScatterView
+from ._threads import one_blas_thread
 
 __all__ = ["DiscriminantView"]
 
@@ -193,18 +194,22 @@ class DiscriminantView(ScatterView):
 
         def fit():
             try:
-                rule = GroupDiscriminant(
-                    m,
-                    self.kind,
-                    self.priors,
-                    n_splits=self.n_splits,
-                    max_fit_rows=self.max_fit_rows,
-                    max_cv_rows=self.max_cv_rows,
-                    seed=self.seed,
-                )
-                rule.cross_validation  # noqa: B018 - fitted now, so a failure shows now
+                with one_blas_thread():  # fits on a bounded sample: one thread is steady
+                    return fit_on_one_thread()
             except CompositionError as err:
                 return f"no discriminant: {err}"
+
+        def fit_on_one_thread():
+            rule = GroupDiscriminant(
+                m,
+                self.kind,
+                self.priors,
+                n_splits=self.n_splits,
+                max_fit_rows=self.max_fit_rows,
+                max_cv_rows=self.max_cv_rows,
+                seed=self.seed,
+            )
+            rule.cross_validation  # noqa: B018 - fitted now, so a failure shows now
             return rule, rule.fit.plane_coordinates(rule.coordinates)
 
         # kept in the model's cache: parts (or options) shown before are a lookup
