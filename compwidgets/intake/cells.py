@@ -88,6 +88,36 @@ class Parsed:
         return int((self.kind == NUMBER).sum())
 
     @property
+    def n_readable(self) -> int:
+        """Cells that are not missing."""
+        return int((self.kind != MISSING).sum())
+
+    @property
+    def n_unit_cells(self) -> int:
+        """Cells (numbers or '<x' entries) that carry a unit."""
+        return int(self.unit_pos.size)
+
+    def first_bad_texts(self, k: int) -> list:
+        """The first ``k`` unreadable cells as text."""
+        return self.originals(np.flatnonzero(self.kind == BAD)[:k]).tolist()
+
+    def unit_summary(self, index: pd.Index) -> list[tuple]:
+        """(unit, cells, first row label, first cell text) per unit in cells, by first row."""
+        if not self.unit_pos.size:
+            return []
+        units, first, counts = np.unique(self.unit_of, return_index=True, return_counts=True)
+        order = np.argsort(first, kind="stable")
+        return [
+            (
+                units[k],
+                int(counts[k]),
+                label(index, int(self.unit_pos[first[k]])),
+                self.originals([self.unit_pos[first[k]]])[0],
+            )
+            for k in order
+        ]
+
+    @property
     def n_values(self) -> int:
         """Cells that are a number or below detection."""
         return int(
@@ -403,6 +433,8 @@ def bad_cell_error(
 ) -> CompositionError:
     """The error for the unreadable cells of a column that must be a part."""
     tokens = options.tokens
+    if not isinstance(parsed, Parsed):  # partition-wise summaries: the partition it is in
+        parsed, index = parsed.source("bad")
     bad = np.flatnonzero(parsed.kind == BAD)
     first = int(bad[0])
     value = parsed.originals([first])[0]
