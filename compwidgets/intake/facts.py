@@ -68,6 +68,10 @@ class ColumnFacts:
     def __len__(self) -> int:
         return self.n
 
+    def to_numpy(self) -> np.ndarray:
+        """No cells: the labels stay in the partitions (see :class:`SummaryFrame`)."""
+        return np.empty(0, dtype=object)
+
     @property
     def mostly_numbers(self) -> bool:
         return bool(self.n and self.n_numeric / self.n >= 0.5)

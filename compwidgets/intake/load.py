@@ -201,6 +201,27 @@ def _read_xlsx(path: Path, sheet_name, where: str) -> tuple[pd.DataFrame, list, 
     )
 
 
+#: Extensions of Parquet files (read through dask, as a table larger than memory).
+PARQUET_EXTENSIONS = (".parquet", ".pq")
+
+
+def is_lazy_source(source) -> bool:
+    """A dask DataFrame, a Parquet file or folder, or a glob of files (read through dask)."""
+    from ..core._lazy import is_lazy
+
+    if is_lazy(source):
+        return True
+    if not isinstance(source, (str, os.PathLike)):
+        return False
+    text = os.fspath(source)
+    if any(ch in text for ch in "*?["):
+        return True
+    path = Path(text)
+    return path.suffix.lower() in PARQUET_EXTENSIONS or (
+        path.is_dir() and any(path.glob("*.parquet"))
+    )
+
+
 def load(source, options: Options) -> Loaded:
     """The table as given (DataFrame) or read as text (files)."""
     if isinstance(source, pd.DataFrame):
