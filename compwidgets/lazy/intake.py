@@ -35,7 +35,7 @@ from ..core import CompositionError
 from ..intake import columns as _columns
 from ..intake import report as _report
 from ..intake import totals as _totals
-from ..intake.cells import LESS_THAN, MISSING, NUMBER, TOKEN_BELOW, parse_column
+from ..intake.cells import NUMBER, TOKEN_BELOW, parse_column
 from ..intake.facts import ColumnFacts, SummaryFrame, repeated_values
 from ..intake.load import (
     PARQUET_EXTENSIONS,
@@ -503,4 +503,4 @@ def _decide_totals(st: IntakeState, plan: Plan, blocks) -> None:
     st.summed = dict(plan.summed)
 
 
-__all__ = ["is_lazy_source", "read_lazy", "Plan", "partition_composition", "LESS_THAN", "MISSING"]
+__all__ = ["Plan", "is_lazy_source", "partition_composition", "read_lazy"]
