@@ -54,7 +54,9 @@ class LazyComposition:
         from .intake import partition_composition
 
         parts = [dask.delayed(partition_composition)(b, plan, k) for k, b in enumerate(blocks)]
-        meta = partition_composition(meta_frame.iloc[:0], plan, 0)
+        meta = _with_label_dtype(
+            partition_composition(meta_frame.iloc[:0], plan, 0), plan, meta_frame
+        )
         offsets = plan.offsets
         divisions = None
         if plan.index_source == "positions" and n and all(np.diff(offsets) > 0):
@@ -212,3 +214,20 @@ def _concat(pieces: list[Composition], head: pd.DataFrame, lazy: LazyComposition
         settings={**lazy.settings, "sample_of": lazy.n_rows},
         column_account=lazy.column_account,
     )
+
+
+def _with_label_dtype(meta: Composition, plan, meta_frame) -> Composition:
+    """The empty frames with the index dtype the partitions' labels get (from values)."""
+    if plan.index_column is None:
+        return meta
+    import dask.dataframe as dd
+
+    sample = dd.utils.meta_nonempty(meta_frame)[plan.index_column]
+    dtype = pd.Index(sample.to_numpy()).dtype
+    frames = {}
+    for f in dataclasses.fields(meta):
+        value = getattr(meta, f.name)
+        if isinstance(value, pd.DataFrame) and value.index.name == plan.index_column:
+            value = value.set_axis(value.index.astype(dtype), axis=0)
+        frames[f.name] = value
+    return dataclasses.replace(meta, **{k: v for k, v in frames.items() if k != "report"})
