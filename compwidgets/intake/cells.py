@@ -46,6 +46,8 @@ _UNIT_CELL = (
     r"\s*(?P<unit>[^\d\s<>=].*)"
 )
 _DATE_TEXT = re.compile(r"^\d{4}-\d{2}-\d{2}([ T]\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?")
+#: First characters of text that may be read as a number (digits are tested apart).
+_NUMBER_STARTS = ("+", "-", "\u2212", "\u2013", ".", ",")
 _DATE_NOTE = "a date, not a number (a spreadsheet may have turned the value into a date)"
 _MAX_FLOAT_INT = 2**1024  # Python ints at or above this do not fit a float
 
@@ -350,6 +352,15 @@ def parse_column(
                 sub_how[idx[ok]] = lt_how[ok]
                 limit[pos[idx[ok]]] = lt[ok]
                 sub_unit[idx[~ok]] = None
+            if other.any():
+                # only text that starts like a number can be one (or '150 ppm'): the
+                # number rules run on those cells alone, so text columns cost little
+                first = stripped[other].str[:1]
+                can = (first.isin(_NUMBER_STARTS) | first.str.isdecimal()).to_numpy(
+                    dtype=bool, na_value=False
+                )
+                other = other.copy()
+                other[np.flatnonzero(other)[~can]] = False
             if other.any():
                 idx = np.flatnonzero(other)
                 val, val_how = read_numbers(stripped[other], decimal, thousands)
