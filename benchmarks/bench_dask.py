@@ -82,8 +82,7 @@ def measure(folder: str, out: str, n: int) -> None:
         f"{total / base:.1f} x the baseline)"
     )
     print(
-        f"explore() (sample of {bench.model.n_rows:,} rows, density of all rows): "
-        f"{t_bench:.1f} s"
+        f"explore() (sample of {bench.model.n_rows:,} rows, density of all rows): {t_bench:.1f} s"
     )
     print(
         f"peak memory of this process: {peak:.2f} GiB; the parts as float64: {data:.2f} GiB "
@@ -97,7 +96,9 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         folder, out = f"{tmp}/table", f"{tmp}/ilr"
         start = time.perf_counter()
-        subprocess.run([sys.executable, __file__, "--write", folder, str(n), str(step)], check=True)
+        subprocess.run(
+            [sys.executable, __file__, "--write", folder, str(n), str(step)], check=True
+        )
         print(f"(writing the invented table took {time.perf_counter() - start:.0f} s)")
         subprocess.run([sys.executable, __file__, "--measure", folder, out, str(n)], check=True)
 

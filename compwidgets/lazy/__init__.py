@@ -16,6 +16,7 @@ once made is dask's default for every computation that follows).
   all rows, lazily.
 """
 
+from . import export, workbench
 from .composition import DEFAULT_SAMPLE, LazyComposition
 
-__all__ = ["DEFAULT_SAMPLE", "LazyComposition"]
+__all__ = ["DEFAULT_SAMPLE", "LazyComposition", "export", "workbench"]
