@@ -70,6 +70,7 @@ def test_readme_larger_than_memory_block_matches_the_in_memory_path(tour):
     )
     pd.testing.assert_frame_equal(tour["T_cluster"], tour["big_T"], rtol=1e-12)
     inside = tour["inside"].compute()
-    view, wide = tour["view"], tour["wide"]
+    wide = tour["wide"]
+    assert tour["view"].notes.value  # says which layer is the sample
     sampled = set(wide.model.index[wide.model.selection])
     assert sampled <= set(inside.index)  # the sampled rows selected are among all rows inside
