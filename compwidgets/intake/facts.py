@@ -168,7 +168,15 @@ class SummaryFrame:
 
 
 def repeated_values(hashes: np.ndarray) -> np.ndarray:
-    """Row positions of the first 3 distinct repeated values, in the order they first appear."""
+    """Row positions of the first 3 distinct repeated values, in the order they first appear.
+
+    A sorted copy answers "all distinct?" first (one array more); the positions
+    are looked for only when some hash repeats.
+    """
+    ordered = np.sort(hashes)
+    if not (ordered[1:] == ordered[:-1]).any():
+        return np.empty(0, dtype=np.intp)
+    del ordered
     order = np.argsort(hashes, kind="stable")
     sorted_h = hashes[order]
     same = np.flatnonzero(sorted_h[1:] == sorted_h[:-1])

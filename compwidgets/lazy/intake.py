@@ -326,6 +326,10 @@ def read_lazy(source, options: Options):
     offsets = np.concatenate([[0], np.cumsum(lengths)])
     n = int(offsets[-1])
     facts = {name: _sum_facts([p[0][name] for p in pieces], offsets) for name in names}
+    index_hashes = [p[3] for p in pieces]
+    lengths_only = [(None, p[1], p[2], None) for p in pieces]
+    del pieces  # the partitions' facts (and their hashes) live on only in the sums
+    pieces = lengths_only
     default = from_file or _default_labels(pieces, offsets, meta_index)
     index = pd.RangeIndex(n) if default else meta_index[:0]
 
@@ -354,7 +358,7 @@ def read_lazy(source, options: Options):
     def duplicates():
         if state["st"].index_source != "frame":
             return []  # a sample-id column was checked by its facts, positions are unique
-        hashes = np.concatenate([p[3] for p in pieces]) if pieces[0][3] is not None else None
+        hashes = np.concatenate(index_hashes) if index_hashes[0] is not None else None
         if hashes is None:
             return []
         first = repeated_values(hashes)
@@ -444,10 +448,11 @@ def _label_at(labels_of, k: int, pos: int):
 
 
 def _repeated(f: ColumnFacts, blocks, offsets) -> list:
-    first = repeated_values(np.concatenate(f.hashes))
-    values = [_value_at(blocks, offsets, int(i), f.name) for i in first]
-    f.hashes = []
-    return values
+    hashes, f.hashes = f.hashes, []
+    joined = np.concatenate(hashes)
+    del hashes[:]  # the pieces go as soon as they are joined
+    first = repeated_values(joined)
+    return [_value_at(blocks, offsets, int(i), f.name) for i in first]
 
 
 def _refuse_cells_without_limits(st: IntakeState) -> None:

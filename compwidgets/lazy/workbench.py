@@ -108,29 +108,38 @@ class AllRows:
         centring = view._centring if view.centred else None
         return lambda values: _ternary_xy(values, parts, groups.__getitem__, centring)
 
-    def density_counts(self, view) -> np.ndarray:
-        """Bin counts of all rows on ``view``'s density grid (partition-wise, exact)."""
+    def density_counts(self, views: Sequence) -> list[np.ndarray]:
+        """Bin counts of all rows on each view's density grid, in one pass (exact)."""
         import dask
 
-        project = self._projector(view)
-        image = view._density_image
-        extent, bins = image.extent, image.bins
+        grids = []
+        for view in views:
+            image = view._density_image
+            grids.append((self._projector(view), image.extent, image.bins))
 
         def counts(values):
-            ok, x, y = project(values)
-            index = geometry.bin_index(x[ok], y[ok], extent, bins)
-            return geometry.counts_from_bins(index, bins)
+            out = []
+            for project, extent, bins in grids:
+                ok, x, y = project(values)
+                index = geometry.bin_index(x[ok], y[ok], extent, bins)
+                out.append(geometry.counts_from_bins(index, bins))
+            return out
 
         (pieces,) = dask.compute([dask.delayed(counts)(b) for b in self.lazy.values.to_delayed()])
-        return np.sum(pieces, axis=0)
+        return [np.sum([p[k] for p in pieces], axis=0) for k in range(len(grids))]
 
-    def show_density(self, view) -> None:
-        """Draw ``view``'s density layer from all rows (density mode) and say which is which."""
+    def show_density(self, *views) -> None:
+        """Draw the views' density layers from all rows (density mode), saying which is which."""
         sample = f"a seeded sample of {self.model.n_rows:,} of {self.lazy.n_rows:,} rows"
-        if view.active_mode != "density":
-            view._set_note("rows", f"points: {sample}")
-            return
-        view._density_image.set_all_counts(self.density_counts(view))
+        dense = [v for v in views if v.active_mode == "density"]
+        for view in views:
+            if view.active_mode != "density":
+                view._set_note("rows", f"points: {sample}")
+        for view, counts in zip(dense, self.density_counts(dense) if dense else [], strict=True):
+            self._draw_density(view, counts, sample)
+
+    def _draw_density(self, view, counts: np.ndarray, sample: str) -> None:
+        view._density_image.set_all_counts(counts)
         view._render_density()
         view._set_note(
             "rows",
@@ -249,6 +258,5 @@ def explore_lazy(
     model = CompositionModel(composition, active_parts=active_parts, group_column=group)
     bench = Workbench(model, ternary_parts=ternary_parts, mode=mode)
     bench.all_rows = AllRows(lazy, model, positions)
-    for view in bench.ternaries:
-        bench.all_rows.show_density(view)
+    bench.all_rows.show_density(*bench.ternaries)
     return bench
