@@ -16,7 +16,7 @@ as partitioned Parquet in a child process, then, in a fresh process (the
   float64 in memory.
 
 Run: ``.venv/bin/python benchmarks/bench_dask.py [rows] [partition_rows]``
-(default 20,000,000 and 500,000; the files go to a temporary folder).
+(default 20,000,000 and 250,000: files of 250,000 rows; the files go to a temporary folder).
 """
 
 from __future__ import annotations
@@ -92,7 +92,7 @@ def measure(folder: str, out: str, n: int) -> None:
 
 def main() -> None:
     n = int(sys.argv[1]) if len(sys.argv) > 1 else 20_000_000
-    step = int(sys.argv[2]) if len(sys.argv) > 2 else 500_000
+    step = int(sys.argv[2]) if len(sys.argv) > 2 else 250_000
     with tempfile.TemporaryDirectory() as tmp:
         folder, out = f"{tmp}/table", f"{tmp}/ilr"
         start = time.perf_counter()

@@ -291,3 +291,18 @@ def test_import_and_in_memory_path_without_dask(tmp_path):
     out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, env=env)
     assert out.returncode == 0, out.stderr
     assert out.stdout.split() == ["(2,", "2)", "False"]
+
+
+def test_long_partitions_are_read_in_pieces_with_the_same_result(tmp_path, monkeypatch):
+    from compwidgets.lazy import intake as lazy_intake
+
+    monkeypatch.setattr(lazy_intake, "CHUNK_ROWS", 3000)  # 3 partitions of 8,000 rows
+    frame = survey(24_000)
+    path = tmp_path / "long.parquet"
+    dd.from_pandas(frame, npartitions=3, sort=False).to_parquet(path, write_index=False)
+    lazy, mem = cw.read_composition(path, **OPTIONS), cw.read_composition(frame, **OPTIONS)
+    names = ("values", "status", "flags", "metadata")
+    for name, got in zip(names, dask.compute(*(getattr(lazy, n) for n in names)), strict=True):
+        pd.testing.assert_frame_equal(got, getattr(mem, name), check_dtype=False, obj=name)
+    pd.testing.assert_frame_equal(lazy.column_account, mem.column_account)
+    assert lazy.report_counts().sum() == len(mem.report)

@@ -214,12 +214,13 @@ def is_lazy_source(source) -> bool:
     if not isinstance(source, (str, os.PathLike)):
         return False
     text = os.fspath(source)
-    if any(ch in text for ch in "*?["):
-        return True
     path = Path(text)
-    return path.suffix.lower() in PARQUET_EXTENSIONS or (
-        path.is_dir() and any(path.glob("*.parquet"))
-    )
+    if path.suffix.lower() in PARQUET_EXTENSIONS:
+        return True
+    if path.is_dir():
+        return any(path.glob("*.parquet"))
+    # a glob of files; a file whose own name holds '*', '?' or '[' is read as that file
+    return any(ch in text for ch in "*?[") and not path.is_file()
 
 
 def load(source, options: Options) -> Loaded:

@@ -60,6 +60,9 @@ from ..units import unit_factor
 
 #: Report actions that name a row (written partition by partition); the others
 #: (columns, settings, conversions) are written once.
+#: Rows of a partition put through the in-memory steps at a time (bounds the memory of a
+#: task whatever the size of the partitions).
+CHUNK_ROWS = 131_072
 ROW_ACTIONS = (
     "parsed_text",
     "missing",
@@ -232,16 +235,18 @@ class Plan:
     summed: dict = field(default_factory=dict)
 
 
-def partition_state(pdf: pd.DataFrame, plan: Plan, k: int, stop: str = "") -> IntakeState:
-    """The in-memory steps on one partition with every decision of ``plan``."""
+def partition_state(
+    pdf: pd.DataFrame, plan: Plan, k: int, stop: str = "", start: int = 0
+) -> IntakeState:
+    """The in-memory steps on one partition (from its row ``start``) with ``plan``'s decisions."""
     st = IntakeState(plan.options, Loaded(pdf, dict(plan.note), plan.where, plan.from_file))
     if plan.index_column is not None:
         col = plan.index_column
         index = pd.Index(pdf[col].to_numpy(), name=col)
         st.frame = pdf.drop(columns=[col]).set_axis(index, axis=0)
     elif plan.index_source == "positions":
-        start = int(plan.offsets[k])
-        st.frame = pdf.set_axis(pd.RangeIndex(start, start + len(pdf)), axis=0)
+        first = int(plan.offsets[k]) + start
+        st.frame = pdf.set_axis(pd.RangeIndex(first, first + len(pdf)), axis=0)
     else:
         st.frame = pdf
     st.index = st.frame.index
@@ -276,18 +281,68 @@ def partition_state(pdf: pd.DataFrame, plan: Plan, k: int, stop: str = "") -> In
     return st
 
 
+def _chunks(pdf: pd.DataFrame):
+    """(start, rows) of a partition in pieces of at most :data:`CHUNK_ROWS` rows."""
+    if len(pdf) <= CHUNK_ROWS:
+        yield 0, pdf
+        return
+    for start in range(0, len(pdf), CHUNK_ROWS):
+        yield start, pdf.iloc[start : start + CHUNK_ROWS]
+
+
 def partition_composition(pdf: pd.DataFrame, plan: Plan, k: int) -> Composition:
-    """The Composition of one partition (its report: the entries that name a row)."""
-    st = partition_state(pdf, plan, k)
-    comp = _report.build(st, {})
-    report = comp.report[comp.report["action"].isin(ROW_ACTIONS)].reset_index(drop=True)
-    return dataclasses.replace(comp, report=report)
+    """The Composition of one partition (its report: the entries that name a row).
+
+    Every step is row by row once the plan is fixed, so a long partition is
+    read in pieces of :data:`CHUNK_ROWS` rows (the temporaries of one piece at
+    a time) and the pieces are put together.
+    """
+    pieces = []
+    for start, rows in _chunks(pdf):
+        comp = _report.build(partition_state(rows, plan, k, start=start), {})
+        report = comp.report[comp.report["action"].isin(ROW_ACTIONS)].reset_index(drop=True)
+        pieces.append(dataclasses.replace(comp, report=report))
+    if len(pieces) == 1:
+        return pieces[0]
+    return _joined(pieces)
+
+
+def _joined(pieces: list[Composition]) -> Composition:
+    def cat(name, **kw):
+        return pd.concat([getattr(p, name) for p in pieces], **kw)
+
+    values = cat("values")
+    return dataclasses.replace(
+        pieces[0],
+        values=values,
+        raw=cat("raw").set_axis(values.index, axis=0),
+        status=cat("status").set_axis(values.index, axis=0),
+        detection_limits=cat("detection_limits").set_axis(values.index, axis=0),
+        metadata=cat("metadata").set_axis(values.index, axis=0),
+        report=cat("report", ignore_index=True),
+        flags=cat("flags"),
+    )
 
 
 # ------------------------------------------------------------------ pass 2
 def _total_facts(pdf: pd.DataFrame, plan: Plan, k: int, comparisons, groups):
     """Per compared total column: differences for the median and counts of both sums."""
-    st = partition_state(pdf, plan, k, stop="parts")
+    parts = [_chunk_totals(rows, plan, k, comparisons, groups, s) for s, rows in _chunks(pdf)]
+    out = []
+    for i in range(len(comparisons)):
+        diffs = None
+        if parts[0][i][0] is not None:
+            diffs = tuple(np.concatenate([p[i][0][d] for p in parts]) for d in (0, 1))
+        counts = [
+            (sum(p[i][1][g][0] for p in parts), sum(p[i][1][g][1] for p in parts))
+            for g in range(len(groups))
+        ]
+        out.append((diffs, counts))
+    return out
+
+
+def _chunk_totals(pdf: pd.DataFrame, plan: Plan, k: int, comparisons, groups, start: int):
+    st = partition_state(pdf, plan, k, stop="parts", start=start)
     out = []
     for name, _unit, to_unit, tol, median in comparisons:
         stated = _totals.stated_values(st.columns[name])
