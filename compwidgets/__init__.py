@@ -35,6 +35,8 @@ _LAZY = {
     "BalanceBuilder": ("compwidgets.views.builder", "BalanceBuilder"),
     "demo": ("compwidgets.demo", None),
     "export": ("compwidgets.export", None),
+    "lazy": ("compwidgets.lazy", None),
+    "LazyComposition": ("compwidgets.lazy", "LazyComposition"),
     "views": ("compwidgets.views", None),
 }
 

@@ -281,6 +281,26 @@ class Workbench(w.AppLayout):
             self.triage.show()
 
 
+def _explore_lazy(data, active_parts, group, ternary_parts, mode, read_options) -> Workbench:
+    """explore() of a table larger than memory (see :mod:`compwidgets.lazy.workbench`)."""
+    from .lazy.workbench import explore_lazy
+
+    sample = {k: read_options.pop(k) for k in ("sample_size", "seed") if k in read_options}
+    lazy = (
+        data
+        if type(data).__name__ == "LazyComposition"
+        else read_composition(data, **read_options)
+    )
+    return explore_lazy(
+        lazy,
+        active_parts=active_parts,
+        group=group,
+        ternary_parts=ternary_parts,
+        mode=mode,
+        **sample,
+    )
+
+
 def explore(
     data: pd.DataFrame | str | PathLike | Composition | CompositionModel,
     *,
@@ -295,6 +315,12 @@ def explore(
     Parameters
     ----------
     data : DataFrame, path to CSV/Excel, Composition or CompositionModel
+        Or a table larger than memory: a dask DataFrame, a Parquet file or folder,
+        a glob of Parquet/CSV files, or a ``LazyComposition``. The views then show
+        a seeded uniform sample of rows (``sample_size=``, default 200,000;
+        ``seed=``, default 0) and the ternaries' density pictures count all rows;
+        ``bench.all_rows`` (:class:`compwidgets.lazy.workbench.AllRows`) applies
+        a drawn selection shape and computes statistics over all rows.
     active_parts : list of str, optional
         The subcomposition under study (default: every part). Which columns of
         a table are parts is an intake option (``parts=``, see ``read_options``).
@@ -313,6 +339,10 @@ def explore(
     Workbench
         Display it in a notebook cell; ``.model`` and each view are attributes.
     """
+    from .intake.load import is_lazy_source
+
+    if is_lazy_source(data) or type(data).__name__ == "LazyComposition":
+        return _explore_lazy(data, active_parts, group, ternary_parts, mode, read_options)
     progress = _cell_progress()
     try:
         if isinstance(data, CompositionModel):

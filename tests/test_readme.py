@@ -53,3 +53,24 @@ def test_readme_tour_assigns_new_samples_with_the_groups_rule(tour):
     assigned = new.loc[new["group"].notna()]
     parts = rule.part_frame(batch).loc[assigned.index]
     assert list(pipe.predict(parts)) == list(assigned["group"])
+
+
+def test_readme_larger_than_memory_block_matches_the_in_memory_path(tour):
+    pytest.importorskip("dask")
+    import pandas as pd
+
+    big, survey, limits = tour["big"], tour["survey"], tour["limits"]
+    whole = cw.read_composition(survey, detection_limits=limits)  # in memory, same rows
+    assert big.n_rows == whole.n_rows == 4000 and big.npartitions == 4
+    pd.testing.assert_frame_equal(big.values.compute(), whole.values, check_dtype=False)
+    assert tour["counts"].sum() == len(whole.report)
+    parts = ["SiO2", "Al2O3", "Fe2O3", "MgO", "CaO"]
+    pd.testing.assert_frame_equal(
+        tour["big_T"], core.variation_matrix(whole.values[parts].dropna()), rtol=1e-12
+    )
+    pd.testing.assert_frame_equal(tour["T_cluster"], tour["big_T"], rtol=1e-12)
+    inside = tour["inside"].compute()
+    wide = tour["wide"]
+    assert tour["view"].notes.value  # says which layer is the sample
+    sampled = set(wide.model.index[wide.model.selection])
+    assert sampled <= set(inside.index)  # the sampled rows selected are among all rows inside

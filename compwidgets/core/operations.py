@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import _lazy
 from ._arrays import (
     CompositionError,
     as_table,
@@ -33,6 +34,8 @@ def closure(X, total: float = 1.0):
     -------
     Same form as ``X`` (DataFrame in, DataFrame out with the same index).
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(closure, X, total=total)
     try:
         bad_total = not np.isfinite(total) or total <= 0
     except (TypeError, ValueError):

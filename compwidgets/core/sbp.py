@@ -22,6 +22,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from . import _lazy
 from ._arrays import CompositionError, as_table, is_unlabelled, match_columns
 from .transforms import clr_values
 
@@ -171,6 +172,8 @@ def balances(X, sbp, names: Sequence[str] | None = None, complete: bool = True):
     complete : bool, default True
         With False, a partial SBP (its first k rows) gives its k balances.
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(balances, X, sbp, names=names, complete=complete)
     t = as_table(X, min_parts=2)
     D = t.values.shape[1]
     parts = t.part_names()

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import _lazy
 from ._arrays import CompositionError, as_table, require_positive
 from .transforms import clr_values
 
@@ -22,6 +23,8 @@ def _check_rows(n: int, what: str) -> None:
 
 def center(X):
     """Centre (closed geometric mean of each part) of a data set (Aitchison 1986)."""
+    if _lazy.is_lazy(X):
+        return _lazy.center(X)
     t = as_table(X, min_parts=2)
     require_positive(t)
     logv = np.log(t.values).mean(axis=0)
@@ -36,6 +39,8 @@ def center(X):
 
 def clr_covariance(X):
     """Covariance matrix (D, D) of the clr coordinates, ddof = 1."""
+    if _lazy.is_lazy(X):
+        return _lazy.clr_covariance(X)
     t = as_table(X, min_parts=2)
     _check_rows(t.values.shape[0], "clr_covariance")
     Z = clr_values(t)
@@ -69,6 +74,8 @@ def variation_matrix(X):
     Cost: two passes of logs and one Gram matrix (``n D^2`` products), plus
     ``n`` logs per pair in nearly constant proportion.
     """
+    if _lazy.is_lazy(X):
+        return _lazy.variation_matrix(X)
     t = as_table(X, min_parts=2)
     require_positive(t)
     n = t.values.shape[0]
@@ -110,6 +117,8 @@ def _log_ratio(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 def total_variance(X) -> float:
     """Total variance: trace of the clr covariance, ``sum_ij T_ij / (2 D)``."""
+    if _lazy.is_lazy(X):
+        return _lazy.total_variance(X)
     t = as_table(X, min_parts=2)
     _check_rows(t.values.shape[0], "total_variance")
     return float(np.var(clr_values(t), axis=0, ddof=DDOF).sum())

@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from . import _lazy
 from ._arrays import (
     CompositionError,
     Table,
@@ -51,12 +52,16 @@ def clr(X):
 
     Returns columns named ``clr(part)``; each row sums to zero.
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(clr, X)
     t = as_table(X, min_parts=2)
     return t.wrap(clr_values(t), [f"clr({p})" for p in t.part_names()])
 
 
 def clr_inv(Z, parts=None):
     """Inverse clr: closed ``exp(z)``. Column names ``clr(part)`` give back ``part``."""
+    if _lazy.is_lazy(Z):
+        return _lazy.rowwise(clr_inv, Z, parts=parts)
     t = as_table(Z, "Z", 2)
     require_finite(t)
     names = parts if parts is not None else (_strip(t.columns, "clr") if t.labelled else None)
@@ -82,6 +87,8 @@ def alr(X, denominator=-1):
     ----------
     denominator : int or part name, default -1 (the last part)
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(alr, X, denominator=denominator)
     t = as_table(X, min_parts=2)
     require_positive(t)
     names = t.part_names()
@@ -97,6 +104,8 @@ def alr_inv(Y, denominator=-1, parts=None):
     ``denominator`` is a position in the D-part result (default -1, the last).
     ``parts`` names the D parts of the result.
     """
+    if _lazy.is_lazy(Y):
+        return _lazy.rowwise(alr_inv, Y, denominator=denominator, parts=parts)
     t = as_table(Y, "Y", 1)
     require_finite(t)
     n, d1 = t.values.shape
@@ -195,6 +204,8 @@ def ilr(X, basis=None, names=None):
     names : list of str, optional
         Output column names (default ``ilr1 .. ilr{D-1}``).
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(ilr, X, basis=basis, names=names)
     t = as_table(X, min_parts=2)
     D = t.values.shape[1]
     parts = t.part_names() if t.labelled else None
@@ -210,6 +221,8 @@ def ilr_inv(Y, basis=None, parts=None):
     A DataFrame ``basis`` is matched to ``parts`` by its column labels; without
     ``parts`` its labels name the parts of the result.
     """
+    if _lazy.is_lazy(Y):
+        return _lazy.rowwise(ilr_inv, Y, basis=basis, parts=parts)
     t = as_table(Y, "Y", 1)
     require_finite(t)
     D = t.values.shape[1] + 1

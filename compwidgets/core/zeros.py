@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from . import _lazy
 from ._arrays import CompositionError, _listing, as_table, require_finite
 
 #: The fraction of the detection limit proposed by Martin-Fernandez et al. (2003).
@@ -163,6 +164,15 @@ def multiplicative_replacement(
     multiplicative_replacement_rows : the same, with the factor of each row, and rows
         where the replacement is impossible left out instead of refused.
     """
+    if _lazy.is_lazy(X):
+        return _lazy.rowwise(
+            multiplicative_replacement,
+            X,
+            detection_limits,
+            fraction=fraction,
+            below=below,
+            total=total,
+        )
     t, values, factors = _replace_rows(X, detection_limits, fraction, below, total)
     if np.isnan(factors).any():
         rows = np.flatnonzero(np.isnan(factors))
@@ -171,3 +181,8 @@ def multiplicative_replacement(
             "the whole row total; too few observed parts for multiplicative replacement"
         )
     return t.wrap(values)
+
+
+def _replacement_by_position(X, detection_limits, below, fraction, total):
+    """:func:`multiplicative_replacement` with the per-cell inputs first (for partitions)."""
+    return multiplicative_replacement(X, detection_limits, fraction, below, total)

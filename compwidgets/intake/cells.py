@@ -46,6 +46,8 @@ _UNIT_CELL = (
     r"\s*(?P<unit>[^\d\s<>=].*)"
 )
 _DATE_TEXT = re.compile(r"^\d{4}-\d{2}-\d{2}([ T]\d{2}:\d{2}(:\d{2}(\.\d+)?)?)?")
+#: First characters of text that may be read as a number (digits are tested apart).
+_NUMBER_STARTS = ("+", "-", "\u2212", "\u2013", ".", ",")
 _DATE_NOTE = "a date, not a number (a spreadsheet may have turned the value into a date)"
 _MAX_FLOAT_INT = 2**1024  # Python ints at or above this do not fit a float
 
@@ -86,6 +88,36 @@ class Parsed:
     @property
     def n_numbers(self) -> int:
         return int((self.kind == NUMBER).sum())
+
+    @property
+    def n_readable(self) -> int:
+        """Cells that are not missing."""
+        return int((self.kind != MISSING).sum())
+
+    @property
+    def n_unit_cells(self) -> int:
+        """Cells (numbers or '<x' entries) that carry a unit."""
+        return int(self.unit_pos.size)
+
+    def first_bad_texts(self, k: int) -> list:
+        """The first ``k`` unreadable cells as text."""
+        return self.originals(np.flatnonzero(self.kind == BAD)[:k]).tolist()
+
+    def unit_summary(self, index: pd.Index) -> list[tuple]:
+        """(unit, cells, first row label, first cell text) per unit in cells, by first row."""
+        if not self.unit_pos.size:
+            return []
+        units, first, counts = np.unique(self.unit_of, return_index=True, return_counts=True)
+        order = np.argsort(first, kind="stable")
+        return [
+            (
+                units[k],
+                int(counts[k]),
+                label(index, int(self.unit_pos[first[k]])),
+                self.originals([self.unit_pos[first[k]]])[0],
+            )
+            for k in order
+        ]
 
     @property
     def n_values(self) -> int:
@@ -321,6 +353,15 @@ def parse_column(
                 limit[pos[idx[ok]]] = lt[ok]
                 sub_unit[idx[~ok]] = None
             if other.any():
+                # only text that starts like a number can be one (or '150 ppm'): the
+                # number rules run on those cells alone, so text columns cost little
+                first = stripped[other].str[:1]
+                can = (first.isin(_NUMBER_STARTS) | first.str.isdecimal()).to_numpy(
+                    dtype=bool, na_value=False
+                )
+                other = other.copy()
+                other[np.flatnonzero(other)[~can]] = False
+            if other.any():
                 idx = np.flatnonzero(other)
                 val, val_how = read_numbers(stripped[other], decimal, thousands)
                 val[np.isin(lower[other].to_numpy(), ["true", "false"])] = np.nan
@@ -403,6 +444,8 @@ def bad_cell_error(
 ) -> CompositionError:
     """The error for the unreadable cells of a column that must be a part."""
     tokens = options.tokens
+    if not isinstance(parsed, Parsed):  # partition-wise summaries: the partition it is in
+        parsed, index = parsed.source("bad")
     bad = np.flatnonzero(parsed.kind == BAD)
     first = int(bad[0])
     value = parsed.originals([first])[0]

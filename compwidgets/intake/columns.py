@@ -26,7 +26,8 @@ import pandas as pd
 
 from ..core import CompositionError
 from . import codes
-from .cells import BAD, MISSING, Parsed, bad_cell_error, label, parse_column
+from .cells import Parsed, bad_cell_error, label, parse_column
+from .facts import ColumnFacts, SummaryFrame
 from .names import (
     header_unit,
     is_analyte,
@@ -79,6 +80,8 @@ def _blank(col: pd.Series) -> np.ndarray:
 
 def _id_problem(col: pd.Series) -> str:
     """'' when ``col`` can label the rows, else why not."""
+    if isinstance(col, ColumnFacts):
+        return col.id_problem()
     blank = _blank(col)
     if blank.any():
         return f"{int(blank.sum())} row(s) without a value (first at position {_first(blank)})"
@@ -93,6 +96,8 @@ def _first(mask: np.ndarray) -> int:
 
 
 def _textual(col: pd.Series) -> bool:
+    if isinstance(col, ColumnFacts):
+        return col.textual
     dtype = col.dtype
     if pd.api.types.is_string_dtype(dtype):
         return True
@@ -102,20 +107,29 @@ def _textual(col: pd.Series) -> bool:
 
 
 def _mostly_numbers(col: pd.Series) -> bool:
+    if isinstance(col, ColumnFacts):
+        return col.mostly_numbers
     numbers = pd.to_numeric(col, errors="coerce")
     return bool(numbers.notna().mean() >= 0.5)
+
+
+def id_candidate(pos: int, name: str, names: list[str]) -> bool:
+    """Whether the header (and position) of a column let it hold the sample ids."""
+    stem, unit_text, _ = header_unit(name)
+    if unit_text is not None or total_kind(stem) is not None:
+        return False
+    if is_id_header(stem):
+        return True
+    return pos == 0 and not is_analyte(stem) and not is_coordinate(stem, names)
 
 
 def _detect_id(frame: pd.DataFrame, names: list[str]) -> tuple[str | None, str, dict]:
     """The sample-id column (or None), why, and id-like columns that could not serve."""
     refused: dict[str, str] = {}
     for pos, name in enumerate(names):
-        stem, unit_text, _ = header_unit(name)
-        if unit_text is not None or total_kind(stem) is not None:
+        if not id_candidate(pos, name, names):
             continue
-        by_header = is_id_header(stem)
-        if not by_header and (pos != 0 or is_analyte(stem) or is_coordinate(stem, names)):
-            continue
+        by_header = is_id_header(header_unit(name)[0])
         col = frame[name]
         dtype = col.dtype
         integer = pd.api.types.is_integer_dtype(dtype) and not pd.api.types.is_bool_dtype(dtype)
@@ -185,7 +199,11 @@ def _check_labels(st: IntakeState) -> None:
         raise CompositionError(
             f"{where}: empty table ({frame.shape[0]} rows x {frame.shape[1]} columns)"
         )
-    dup_rows = frame.index[frame.index.duplicated()].unique()
+    dup_rows = (
+        frame.duplicate_labels()
+        if isinstance(frame, SummaryFrame)
+        else frame.index[frame.index.duplicated()].unique()
+    )
     if len(dup_rows):
         shown = dup_rows[:5].tolist()
         more = f" and {len(dup_rows) - 5} more" if len(dup_rows) > 5 else ""
@@ -196,6 +214,8 @@ def _check_labels(st: IntakeState) -> None:
 
 
 def _parse(st: IntakeState, name: str) -> Parsed:
+    if isinstance(st.frame, SummaryFrame):  # partition-wise summaries stand for the cells
+        return st.frame[name]
     loaded = st.loaded
     formulas = loaded.formulas.get(name, {})
     return parse_column(
@@ -294,7 +314,7 @@ def _decide(st: IntakeState, name: str, names: list[str], unit_given: set[str]) 
             return Column(name, METADATA, codes.EMPTY_COLUMN, "every cell is empty or missing")
         if canon is not None:
             code, detail = codes.PART_UNIT_HEADER, f"the header names the unit {unit_text!r}"
-        elif parsed.unit_pos.size:
+        elif parsed.n_unit_cells:
             code, detail = codes.PART_UNIT_IN_CELLS, "the cells carry the unit"
         elif is_analyte(stem):
             code, detail = codes.PART_ANALYTE_HEADER, f"{stem!r} names an element or analyte"
@@ -303,9 +323,9 @@ def _decide(st: IntakeState, name: str, names: list[str], unit_given: set[str]) 
         else:
             code, detail = codes.PART_NUMERIC, "numbers only"
         return Column(name, PART, code, detail, parsed=parsed)
-    readable = int((parsed.kind != MISSING).sum())
+    readable = parsed.n_readable
     looks_numeric = readable and parsed.n_numbers >= 0.5 * readable
-    if part_like or looks_numeric or parsed.unit_pos.size:
+    if part_like or looks_numeric or parsed.n_unit_cells:
         why = (
             "its header names a part"
             if part_like
@@ -316,7 +336,7 @@ def _decide(st: IntakeState, name: str, names: list[str], unit_given: set[str]) 
         raise bad_cell_error(name, parsed, st.index, st.options, auto=True, why=why)
     if parsed.n_values:
         n_bad = parsed.n_bad
-        first = parsed.originals(np.flatnonzero(parsed.kind == BAD)[:2]).tolist()
+        first = parsed.first_bad_texts(2)
         return Column(
             name,
             METADATA,
@@ -327,9 +347,12 @@ def _decide(st: IntakeState, name: str, names: list[str], unit_given: set[str]) 
 
 
 def _no_value_error(st: IntakeState, name: str, parsed: Parsed) -> CompositionError:
+    index = st.index
+    if isinstance(parsed, ColumnFacts):
+        parsed, index = parsed.source("values")
     first = range(min(3, len(parsed.kind)))
     shown = ", ".join(
-        f"{v!r} (row {label(st.index, i)!r})"
+        f"{v!r} (row {label(index, i)!r})"
         for i, v in zip(first, parsed.originals(first), strict=True)
     )
     return CompositionError(

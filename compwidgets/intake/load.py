@@ -201,6 +201,28 @@ def _read_xlsx(path: Path, sheet_name, where: str) -> tuple[pd.DataFrame, list, 
     )
 
 
+#: Extensions of Parquet files (read through dask, as a table larger than memory).
+PARQUET_EXTENSIONS = (".parquet", ".pq")
+
+
+def is_lazy_source(source) -> bool:
+    """A dask DataFrame, a Parquet file or folder, or a glob of files (read through dask)."""
+    from ..core._lazy import is_lazy
+
+    if is_lazy(source):
+        return True
+    if not isinstance(source, (str, os.PathLike)):
+        return False
+    text = os.fspath(source)
+    path = Path(text)
+    if path.suffix.lower() in PARQUET_EXTENSIONS:
+        return True
+    if path.is_dir():
+        return any(path.glob("*.parquet"))
+    # a glob of files; a file whose own name holds '*', '?' or '[' is read as that file
+    return any(ch in text for ch in "*?[") and not path.is_file()
+
+
 def load(source, options: Options) -> Loaded:
     """The table as given (DataFrame) or read as text (files)."""
     if isinstance(source, pd.DataFrame):

@@ -11,7 +11,7 @@ import pandas as pd
 from ..core import CompositionError
 from ..units import canonical_unit, conversion_factor, is_mass_unit, unit_factor
 from . import codes
-from .cells import LESS_THAN, MISSING, NUMBER, PLAIN, TOKEN_BELOW, label, place
+from .cells import LESS_THAN, MISSING, NUMBER, PLAIN, TOKEN_BELOW, place
 from .names import header_unit
 from .state import CellRecord, IntakeState, Part
 
@@ -38,23 +38,21 @@ def _lookup(lookup: dict, key):
 
 def _cell_unit(p: Part, header_canon: str | None, index: pd.Index) -> tuple[str, str] | None:
     """The unit the cells carry, checked against the header (None when no cell has one)."""
-    parsed = p.parsed
-    if not parsed.unit_pos.size:
+    summary = p.parsed.unit_summary(index)
+    if not summary:
         return None
-    units = parsed.unit_of
-    first = units[0]
+    first, _, first_label, first_text = summary[0]
     expected = header_canon if header_canon is not None else first
-    off = np.flatnonzero(units != expected)
-    if off.size:
-        i, j = int(parsed.unit_pos[off[0]]), int(parsed.unit_pos[0])
-        shown = parsed.originals([i])[0]
+    off = [u for u in summary if u[0] != expected]
+    if off:
+        unit, _, at, shown = off[0]
         if header_canon is not None:
             said = f"the header (or units=) says {header_canon!r}"
         else:
-            said = f"{parsed.originals([j])[0]!r} at row {label(index, j)!r} says {first!r}"
+            said = f"{first_text!r} at row {first_label!r} says {first!r}"
         raise CompositionError(
-            f"column {p.column!r}: the cell {shown!r} at row {label(index, i)!r} carries the "
-            f"unit {units[off[0]]!r} but {said} ({off.size:,} cell(s) disagree); units in "
+            f"column {p.column!r}: the cell {shown!r} at row {at!r} carries the "
+            f"unit {unit!r} but {said} ({sum(u[1] for u in off):,} cell(s) disagree); units in "
             "cells must agree with the header and with each other"
         )
     return expected, expected
@@ -103,7 +101,7 @@ def make_parts(st: IntakeState) -> None:
         p = Part(c.name, name, str(unit_text).strip(), unit, c.parsed)
         from_cells = _cell_unit(p, header_canon, st.index)
         if from_cells is not None:
-            n_cells = p.parsed.unit_pos.size
+            n_cells = p.parsed.n_unit_cells
             if header_canon is None:
                 p.unit_given, p.unit = from_cells
                 c.code = codes.PART_UNIT_IN_CELLS if c.code != codes.PART_NAMED else c.code

@@ -8,7 +8,7 @@ from ..composition import Composition
 from ..core import DEFAULT_FRACTION
 from . import codes
 from .columns import choose_index, classify_columns
-from .load import load
+from .load import is_lazy_source, load
 from .options import (
     DEFAULT_BELOW_TOKENS,
     DEFAULT_MISSING_TOKENS,
@@ -219,6 +219,10 @@ def read_composition(
         index_col=index_col,
         sep=sep,
     )
+    if is_lazy_source(source):  # dask: the same steps, partition by partition
+        from ..lazy.intake import read_lazy
+
+        return read_lazy(source, options)
     st = IntakeState(options, load(source, options))
     choose_index(st)
     classify_columns(st)

@@ -86,6 +86,7 @@ class IntakeState:
     scale: np.ndarray | None = None
     not_replaced: np.ndarray | None = None  # 0 ok, 1 no observed part, 2 overload
     report: list = field(default_factory=list)  # report pieces, in order
+    summed: dict = field(default_factory=dict)  # total column -> (parts, why) decided already
 
     @property
     def where(self) -> str:

@@ -22,6 +22,15 @@ from .report import chunk, number_text
 from .state import IntakeState
 
 
+def total_applies(st: IntakeState) -> bool:
+    """Whether the analytical total is checked (options and the parts' units decide)."""
+    return (
+        st.options.check_total
+        and st.unit != "count"
+        and any(unit_factor(p.unit, "wt%") == 1.0 for p in st.parts)
+    )
+
+
 def analytical_total(st: IntakeState) -> None:
     """The analytical total in wt% (sum of the observed parts as reported), when it applies.
 
@@ -29,11 +38,7 @@ def analytical_total(st: IntakeState) -> None:
     for a table of traces in ppm only or for point counts.
     """
     n = len(st.index)
-    st.total_checked = (
-        st.options.check_total
-        and st.unit != "count"
-        and any(unit_factor(p.unit, "wt%") == 1.0 for p in st.parts)
-    )
+    st.total_checked = total_applies(st)
     if st.total_checked:
         observed = np.where(st.status == OBS, st.raw, 0.0)
         st.totals = observed.sum(axis=1) * unit_factor(st.unit, "wt%")
@@ -50,12 +55,13 @@ def _total_unit(st: IntakeState, unit_text: str) -> str | None:
     return "count" if st.unit == "count" else "wt%"
 
 
-def compare_total_columns(st: IntakeState) -> None:
-    """Flag rows whose stated total differs from the sum of their parts beyond the tolerance."""
-    n = len(st.index)
-    st.stated_total = np.full(n, np.nan)
+def total_comparisons(st: IntakeState) -> list[tuple]:
+    """(column, unit, to_unit, tolerance) of each stated total compared with the parts.
+
+    Columns that are not compared get the reason appended to their detail.
+    """
     tolerance = st.options.total_tolerance
-    first = True
+    out = []
     for column in st.columns.values():
         if column.code != codes.TOTAL_COLUMN or column.parsed is None:
             continue
@@ -70,20 +76,51 @@ def compare_total_columns(st: IntakeState) -> None:
         if counts != (st.unit == "count"):
             column.detail += f"; in {unit}, the parts are not: not compared"
             continue
-        parsed = column.parsed
-        stated = np.where(parsed.kind == NUMBER, parsed.number, np.nan)
         to_unit = unit_factor(st.unit, unit)
         tol = tolerance if counts else tolerance * unit_factor("wt%", unit)
-        chosen, why = _summed_parts(st, column.total_kind, stated, to_unit, tol)
-        observed = st.status[:, chosen] == OBS
-        computed = np.where(observed, st.raw[:, chosen], 0.0).sum(axis=1) * to_unit
+        out.append((column, unit, to_unit, tol))
+    return out
+
+
+def stated_values(column) -> np.ndarray:
+    """The stated totals of a total column (NaN where the cell is not a number)."""
+    parsed = column.parsed
+    return np.where(parsed.kind == NUMBER, parsed.number, np.nan)
+
+
+def compare_rows(st: IntakeState, chosen, stated, to_unit: float, tol: float):
+    """(differs, compared, computed sum, observed-any) of each row against the stated total."""
+    observed = st.status[:, chosen] == OBS
+    computed = np.where(observed, st.raw[:, chosen], 0.0).sum(axis=1) * to_unit
+    compared = np.isfinite(stated) & observed.any(axis=1)
+    diff = stated - computed
+    # a hair of slack so that a difference of exactly the tolerance passes after rounding
+    off = compared & (np.abs(diff) > tol * (1 + 1e-9) + 1e-12)
+    return off, compared, computed, diff
+
+
+def compared_detail(why: str, unit: str, n_off: int, n_compared: int, tol: float) -> str:
+    return (
+        f"; compared with the sum of {why} in {unit}: {n_off:,} of "
+        f"{n_compared:,} row(s) differ by more than {tol:g} {unit}"
+    )
+
+
+def compare_total_columns(st: IntakeState) -> None:
+    """Flag rows whose stated total differs from the sum of their parts beyond the tolerance."""
+    n = len(st.index)
+    st.stated_total = np.full(n, np.nan)
+    first = True
+    for column, unit, to_unit, tol in total_comparisons(st):
+        counts = unit == "count"
+        stated = stated_values(column)
+        chosen, why = st.summed.get(column.name) or _summed_parts(
+            st, column.total_kind, stated, to_unit, tol
+        )
+        off, compared, computed, diff = compare_rows(st, chosen, stated, to_unit, tol)
         if first:
             st.stated_total = stated * (1.0 if counts else unit_factor(unit, "wt%"))
             first = False
-        compared = np.isfinite(stated) & observed.any(axis=1)
-        diff = stated - computed
-        # a hair of slack so that a difference of exactly the tolerance passes after rounding
-        off = compared & (np.abs(diff) > tol * (1 + 1e-9) + 1e-12)
         text = np.full(n, "", dtype=object)
         at = np.flatnonzero(off)
         text[at] = (
@@ -96,11 +133,49 @@ def compare_total_columns(st: IntakeState) -> None:
             + f" (tolerance {tol:g} {unit})"
         )
         st.total_flags.append((off, text))
-        _not_compared(st, column, parsed)
-        column.detail += (
-            f"; compared with the sum of {why} in {unit}: {int(off.sum()):,} of "
-            f"{int(compared.sum()):,} row(s) differ by more than {tol:g} {unit}"
+        _not_compared(st, column, column.parsed)
+        column.detail += compared_detail(why, unit, int(off.sum()), int(compared.sum()), tol)
+
+
+def part_groups(st: IntakeState) -> tuple[list[int], list[int]]:
+    """Positions of every part, and of the parts reported in percent (the majors)."""
+    every = list(range(len(st.parts)))
+    return every, [j for j, p in enumerate(st.parts) if p.unit == "wt%"]
+
+
+def needs_median(st: IntakeState, kind: str) -> bool:
+    """Whether the parts a stated total sums depend on the data (see :func:`_summed_parts`)."""
+    every, percent = part_groups(st)
+    return bool(percent) and len(percent) != len(every) and kind != "majors"
+
+
+def total_differences(st: IntakeState, stated: np.ndarray, to_unit: float):
+    """|stated - sum of all parts| and |stated - sum of the percent parts| where stated."""
+    every, percent = part_groups(st)
+    observed = np.where(st.status == OBS, st.raw, 0.0) * to_unit
+    rows = np.isfinite(stated)
+    return (
+        np.abs(stated[rows] - observed[rows].sum(axis=1)),
+        np.abs(stated[rows] - observed[rows][:, percent].sum(axis=1)),
+    )
+
+
+def choose_summed(st: IntakeState, kind: str, d_all, d_pct, tol: float):
+    """The parts a stated total sums, from the median differences (None: no stated row)."""
+    every, percent = part_groups(st)
+    if not needs_median(st, kind):
+        if percent and len(percent) != len(every):
+            return percent, f"the {len(percent)} parts reported in percent"
+        return every, f"the {len(every)} parts"
+    if d_all is None:
+        return every, f"the {len(every)} parts"
+    if d_all > tol / 2 and d_pct < d_all:
+        return percent, (
+            f"the {len(percent)} parts reported in percent (they fit the stated totals "
+            f"better than all {len(every)} parts: median difference {d_pct:.3g} against "
+            f"{d_all:.3g})"
         )
+    return every, f"the {len(every)} parts"
 
 
 def _summed_parts(st: IntakeState, kind: str, stated: np.ndarray, to_unit: float, tol: float):
@@ -113,25 +188,12 @@ def _summed_parts(st: IntakeState, kind: str, stated: np.ndarray, to_unit: float
     the median absolute difference decides, and the column's report entry
     says which.
     """
-    every = list(range(len(st.parts)))
-    percent = [j for j, p in enumerate(st.parts) if p.unit == "wt%"]
-    if not percent or len(percent) == len(every):
-        return every, f"the {len(every)} parts"
-    if kind == "majors":
-        return percent, f"the {len(percent)} parts reported in percent"
-    observed = np.where(st.status == OBS, st.raw, 0.0) * to_unit
-    rows = np.isfinite(stated)
-    if not rows.any():
-        return every, f"the {len(every)} parts"
-    d_all = float(np.median(np.abs(stated[rows] - observed[rows].sum(axis=1))))
-    d_pct = float(np.median(np.abs(stated[rows] - observed[rows][:, percent].sum(axis=1))))
-    if d_all > tol / 2 and d_pct < d_all:
-        return percent, (
-            f"the {len(percent)} parts reported in percent (they fit the stated totals "
-            f"better than all {len(every)} parts: median difference {d_pct:.3g} against "
-            f"{d_all:.3g})"
-        )
-    return every, f"the {len(every)} parts"
+    if not needs_median(st, kind):
+        return choose_summed(st, kind, None, None, tol)
+    a, b = total_differences(st, stated, to_unit)
+    if not a.size:
+        return choose_summed(st, kind, None, None, tol)
+    return choose_summed(st, kind, float(np.median(a)), float(np.median(b)), tol)
 
 
 def _not_compared(st: IntakeState, column, parsed) -> None:

@@ -119,6 +119,13 @@ class DensityImage:
         if rows is not None and n_rows is not None:
             self._by_row = _bins_by_row(index, rows, n_rows)
 
+    def set_all_counts(self, counts: np.ndarray) -> None:
+        """Replace the all-rows layer by counts on this grid (e.g. of rows not held here)."""
+        counts = np.asarray(counts, dtype=np.int64)
+        if counts.shape != self._all.shape:
+            raise ValueError(f"counts of shape {counts.shape}; the grid is {self._all.shape}")
+        self._all = counts
+
     @property
     def all_counts(self) -> np.ndarray:
         return self._all

@@ -909,10 +909,14 @@ class ScatterView(widgets.VBox):
 
     def select_rectangle(self, x_range, y_range, mode: str | None = None) -> None:
         """Select the rows shown inside a rectangle of data coordinates."""
+        corners = [[float(x_range[0]), float(y_range[0])], [float(x_range[1]), float(y_range[1])]]
+        self.last_selection_shape = {"kind": "rectangle", "vertices": corners}
         self._select(geometry.points_in_rectangle(self._x, self._y, x_range, y_range), mode)
 
     def select_polygon(self, vertices, mode: str | None = None) -> None:
         """Select the rows shown inside a polygon ((k, 2) data coordinates, even-odd rule)."""
+        vertices = np.asarray(vertices, dtype=float).tolist()
+        self.last_selection_shape = {"kind": "polygon", "vertices": vertices}
         self._select(geometry.points_in_polygon(self._x, self._y, vertices), mode)
 
     def clear_selection(self) -> None:

@@ -1,0 +1,262 @@
+"""The workbench on a table larger than memory: a sample for the points, all rows for the rest.
+
+:func:`explore_lazy` (what :func:`compwidgets.explore` does with a
+:class:`~compwidgets.lazy.LazyComposition`) draws a seeded uniform sample of
+rows into an ordinary in-memory :class:`~compwidgets.composition.Composition`
+and opens the usual workbench on it: every view, link and selection works as
+on any table. Beside it, :class:`AllRows` (``bench.all_rows``) knows the lazy
+composition and the sample's row positions:
+
+- density pictures of the ternary views are counted over **all** rows,
+  partition by partition (bin counts add), and each view's note says which
+  layer is which;
+- a selection drawn in a view is kept as the sampled rows (the model's
+  selection, linked as always) **and** as its shape in that view's
+  coordinates (:func:`selection_shape`), so that it can be applied to all
+  rows (:meth:`AllRows.selected_mask`), lazily;
+- statistics of the active parts and the balances of the SBP are computed
+  over all rows (:meth:`AllRows.variation_matrix`, :meth:`AllRows.balance_summary`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+from .. import core
+from ..core import geometry
+from ..core import ternary as core_ternary
+from .composition import DEFAULT_SAMPLE, LazyComposition
+
+
+def selection_shape(view) -> dict | None:
+    """The shape of the last selection drawn in ``view``: kind and vertices, view coordinates.
+
+    ``{"kind": "rectangle", "vertices": [[x0, y0], [x1, y1]]}`` (two corners) or
+    ``{"kind": "polygon", "vertices": (k, 2)}``; None when the view holds none.
+    The one place that reads a view's shape (its ``selection_shape`` attribute
+    when it has one, else the rectangle or polygon it last selected with).
+    """
+    own = getattr(type(view), "selection_shape", None)
+    if own is not None and not callable(own):
+        return view.selection_shape
+    return getattr(view, "last_selection_shape", None)
+
+
+def _inside(x: np.ndarray, y: np.ndarray, shape: dict) -> np.ndarray:
+    v = np.asarray(shape["vertices"], dtype=float)
+    if shape["kind"] == "rectangle":
+        return geometry.points_in_rectangle(x, y, sorted(v[:, 0]), sorted(v[:, 1]))
+    return geometry.points_in_polygon(x, y, v)
+
+
+def _part_block(values: pd.DataFrame, parts: Sequence[str], members) -> np.ndarray:
+    """Values of ``parts`` (amalgamations summed) of one partition."""
+    out = np.empty((len(values), len(parts)))
+    for j, p in enumerate(parts):
+        out[:, j] = values[list(members(p))].to_numpy(dtype=float).sum(axis=1)
+    return out
+
+
+def _ternary_xy(values: pd.DataFrame, parts, members, centring):
+    """(complete mask, x, y) of one partition in a ternary view's coordinates."""
+    v = _part_block(values, parts, members)
+    with np.errstate(invalid="ignore"):
+        ok = np.all(np.isfinite(v) & (v > 0), axis=1)
+    x = np.full(len(v), np.nan)
+    y = np.full(len(v), np.nan)
+    if ok.any():
+        closed = core.closure(v[ok])
+        if centring is not None:
+            closed = core_ternary.perturb_closed(closed, centring)
+        x[ok], y[ok] = core_ternary.ternary_to_xy(closed)
+    return ok, x, y
+
+
+class AllRows:
+    """What the workbench computes over all rows of a :class:`LazyComposition`.
+
+    Parameters
+    ----------
+    lazy : LazyComposition
+    model : CompositionModel
+        The model of the sample the views show.
+    positions : ndarray
+        Row position (over all rows) of each sampled row, in the model's order.
+    """
+
+    def __init__(self, lazy: LazyComposition, model, positions: np.ndarray):
+        self.lazy = lazy
+        self.model = model
+        self.positions = np.asarray(positions)
+
+    # ---------------------------------------------------------- coordinates
+    def _projector(self, view):
+        """A function (values partition) -> (ok, x, y) in ``view``'s coordinates."""
+        from ..views.ternary import TernaryView
+
+        if not isinstance(view, TernaryView):
+            raise core.CompositionError(
+                f"{type(view).__name__}: applying a shape to all rows needs a ternary view "
+                "(the biplot's axes come from the sample)"
+            )
+        parts = list(view.parts)
+        model = self.model
+        groups = {p: model.members(p) for p in parts}
+        centring = view._centring if view.centred else None
+        return lambda values: _ternary_xy(values, parts, groups.__getitem__, centring)
+
+    def density_counts(self, views: Sequence) -> list[np.ndarray]:
+        """Bin counts of all rows on each view's density grid, in one pass (exact)."""
+        import dask
+
+        grids = []
+        for view in views:
+            image = view._density_image
+            grids.append((self._projector(view), image.extent, image.bins))
+
+        def counts(values):
+            out = []
+            for project, extent, bins in grids:
+                ok, x, y = project(values)
+                index = geometry.bin_index(x[ok], y[ok], extent, bins)
+                out.append(geometry.counts_from_bins(index, bins))
+            return out
+
+        (pieces,) = dask.compute([dask.delayed(counts)(b) for b in self.lazy.values.to_delayed()])
+        return [np.sum([p[k] for p in pieces], axis=0) for k in range(len(grids))]
+
+    def show_density(self, *views) -> None:
+        """Draw the views' density layers from all rows (density mode), saying which is which."""
+        sample = f"a seeded sample of {self.model.n_rows:,} of {self.lazy.n_rows:,} rows"
+        dense = [v for v in views if v.active_mode == "density"]
+        for view in views:
+            if view.active_mode != "density":
+                view._set_note("rows", f"points: {sample}")
+        for view, counts in zip(dense, self.density_counts(dense) if dense else [], strict=True):
+            self._draw_density(view, counts, sample)
+
+    def _draw_density(self, view, counts: np.ndarray, sample: str) -> None:
+        view._density_image.set_all_counts(counts)
+        view._render_density()
+        view._set_note(
+            "rows",
+            f"grey density: all {self.lazy.n_rows:,} rows; selection and hover points: {sample}",
+        )
+
+    # ------------------------------------------------------------ selection
+    def selected_mask(self, view, shape: dict | None = None):
+        """Lazy boolean Series (all rows): inside the shape drawn in ``view`` (or ``shape``)."""
+        shape = shape or selection_shape(view)
+        if shape is None:
+            raise core.CompositionError(f"{type(view).__name__}: no selection shape drawn yet")
+        project = self._projector(view)
+
+        def inside(values):
+            ok, x, y = project(values)
+            mask = np.zeros(len(values), dtype=bool)
+            mask[ok] = _inside(x[ok], y[ok], shape)
+            return pd.Series(mask, index=values.index, name="selected")
+
+        return self.lazy.values.map_partitions(
+            inside, meta=pd.Series(dtype=bool, name="selected", index=self.lazy.values._meta.index)
+        )
+
+    def selected_rows(self, view, shape: dict | None = None, what: str = "values"):
+        """Lazy DataFrame of the rows of all rows inside the shape (``what``: a frame name,
+        or ``"ilr"`` for the balances of the model's SBP)."""
+        frame = ilr_frame(self) if what == "ilr" else getattr(self.lazy, what)
+        mask = self.selected_mask(view, shape)
+        return frame[mask]
+
+    # ------------------------------------------------------------ statistics
+    def part_values(self, parts: Sequence[str] | None = None):
+        """Lazy DataFrame of the values of ``parts`` (amalgamations summed) of all rows."""
+        parts = list(self.model.active_parts if parts is None else parts)
+        members = {p: self.model.members(p) for p in parts}
+
+        def block(values):
+            return pd.DataFrame(
+                _part_block(values, parts, members.__getitem__), index=values.index, columns=parts
+            )
+
+        meta = pd.DataFrame({p: pd.Series(dtype=float) for p in parts})
+        meta.index = self.lazy.values._meta.index
+        return self.lazy.values.map_partitions(block, meta=meta)
+
+    def complete_values(self, parts: Sequence[str] | None = None):
+        """:meth:`part_values` of the rows with a positive value in every part."""
+        v = self.part_values(parts)
+        return v[((v > 0) & v.notnull()).all(axis=1)]
+
+    def variation_matrix(self, parts: Sequence[str] | None = None) -> pd.DataFrame:
+        """Variation matrix of ``parts`` over all complete rows (one pass, exact)."""
+        return core.variation_matrix(self.complete_values(parts))
+
+    def balance_summary(self) -> pd.DataFrame:
+        """Per balance of the model's SBP, over all complete rows: mean, variance and its
+        share of the total variance of the active parts (one pass of partition-wise sums)."""
+        from ..core._lazy import clr_moments
+
+        model = self.model
+        sbp = core.require_sbp(model.sbp, model.active_parts)
+        basis = core.sbp_basis(sbp, complete=False)
+        m = clr_moments(self.complete_values())
+        cov = m.gram / (m.n - core.DDOF)
+        variance = np.einsum("ij,jk,ik->i", basis, cov, basis)
+        return pd.DataFrame(
+            {
+                "mean": basis @ m.mean,
+                "variance": variance,
+                "share": variance / np.trace(cov),
+                "rows": m.n,
+            },
+            index=pd.Index(list(model.balance_names), name="balance"),
+        )
+
+
+def ilr_frame(all_rows: AllRows):
+    """Lazy DataFrame of the balances of the model's SBP over all rows (NaN: incomplete)."""
+    model = all_rows.model
+    sbp = core.require_sbp(model.sbp, model.active_parts, complete=True)
+    names = list(model.balance_names)
+    values = all_rows.part_values()
+
+    def block(v: pd.DataFrame) -> pd.DataFrame:
+        a = v.to_numpy(dtype=float)
+        with np.errstate(invalid="ignore"):
+            ok = np.all(np.isfinite(a) & (a > 0), axis=1)
+        out = np.full((len(v), len(names)), np.nan)
+        if ok.any():
+            out[ok] = core.balances(a[ok], sbp)
+        return pd.DataFrame(out, index=v.index, columns=names)
+
+    meta = pd.DataFrame({n: pd.Series(dtype=float) for n in names})
+    meta.index = values._meta.index
+    return values.map_partitions(block, meta=meta)
+
+
+def explore_lazy(
+    lazy: LazyComposition,
+    *,
+    sample_size: int = DEFAULT_SAMPLE,
+    seed: int = 0,
+    active_parts=None,
+    group=None,
+    ternary_parts=None,
+    mode: str = "auto",
+):
+    """The workbench on a seeded sample of ``lazy``'s rows, with ``bench.all_rows``."""
+    from ..model import CompositionModel
+    from ..workbench import Workbench, default_group_column
+
+    composition, positions = lazy.sample(sample_size, seed)
+    if group is None:
+        group = default_group_column(composition.metadata)
+    model = CompositionModel(composition, active_parts=active_parts, group_column=group)
+    bench = Workbench(model, ternary_parts=ternary_parts, mode=mode)
+    bench.all_rows = AllRows(lazy, model, positions)
+    bench.all_rows.show_density(*bench.ternaries)
+    return bench
