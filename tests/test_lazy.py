@@ -306,3 +306,245 @@ def test_long_partitions_are_read_in_pieces_with_the_same_result(tmp_path, monke
         pd.testing.assert_frame_equal(got, getattr(mem, name), check_dtype=False, obj=name)
     pd.testing.assert_frame_equal(lazy.column_account, mem.column_account)
     assert lazy.report_counts().sum() == len(mem.report)
+
+
+# ------------------------------------------------------------ all rows in the workbench
+@pytest.fixture(scope="module")
+def small(tmp_path_factory):
+    """A smaller partitioned survey, its lazy and in-memory compositions."""
+    frame = survey(24_000, seed=11)
+    path = tmp_path_factory.mktemp("small") / "small.parquet"
+    dd.from_pandas(frame, npartitions=4, sort=False).to_parquet(path, write_index=False)
+    return cw.read_composition(path, **OPTIONS), cw.read_composition(frame, **OPTIONS)
+
+
+def _histogram(x, y, image) -> np.ndarray:
+    """numpy.histogram2d of the points on a density image's grid (rows = y bins)."""
+    x0, x1, y0, y1 = image.extent
+    nx, ny = np.broadcast_to(np.asarray(image.bins), (2,))
+    ok = np.isfinite(x) & np.isfinite(y)
+    counts, _, _ = np.histogram2d(y[ok], x[ok], bins=(ny, nx), range=[[y0, y1], [x0, x1]])
+    return counts.astype(np.int64)
+
+
+def assert_counts_match(counts, x, y, image) -> None:
+    """``counts`` equal numpy.histogram2d of (x, y), up to points on a bin edge (a point
+    within 1e-9 of an edge may fall on either side, by rounding of the bin arithmetic)."""
+    want = _histogram(x, y, image)
+    x0, x1, y0, y1 = image.extent
+    nx, ny = np.broadcast_to(np.asarray(image.bins), (2,))
+    fx, fy = (x - x0) * nx / (x1 - x0), (y - y0) * ny / (y1 - y0)
+    on_edge = int(np.sum((np.abs(fx - np.round(fx)) < 1e-9) | (np.abs(fy - np.round(fy)) < 1e-9)))
+    assert counts.sum() == want.sum()
+    assert np.abs(counts - want).sum() <= 2 * on_edge
+
+
+def _ternary_all_rows(mem, parts) -> tuple[np.ndarray, np.ndarray]:
+    v = mem.values[list(parts)].to_numpy()
+    ok = np.all(v > 0, axis=1)
+    return core_ternary.ternary_to_xy(core.closure(v[ok]))
+
+
+def test_builder_shows_balance_statistics_over_all_rows(small):
+    from compwidgets.core.summary import summarize_balances
+
+    lazy, mem = small
+    bench = cw.explore(lazy, sample_size=2000, active_parts=MAJORS, group="Unit")
+    builder = bench.builder
+    assert builder.n_rows == 24_000 and "24,000 rows" in bench.statistics_note.value
+    sbp = [[1, 1, -1, -1, -1], [1, -1, 0, 0, 0], [0, 0, 1, -1, -1], [0, 0, 0, 1, -1]]
+    bench.model.set_sbp(sbp)
+
+    def reference(parts, rows):
+        # in memory over all rows: core.summary on the balances of every row (the
+        # in-memory functions are checked against numpy elsewhere)
+        values = mem.values[parts]
+        ok = np.all(values.to_numpy() > 0, axis=1)
+        B = core.balances(values[ok], rows).to_numpy()
+        cat = pd.Categorical(mem.metadata["Unit"][ok])
+        total = core.total_variance(values[ok])
+        return (
+            summarize_balances(
+                B, codes=cat.codes.astype(int), n_groups=len(cat.categories), total=total
+            ),
+            total,
+            int(ok.sum()),
+        )
+
+    def check(parts, rows):
+        want, total, n = reference(parts, rows)
+        assert builder.n_samples == n and builder.total_variance == pytest.approx(total, 1e-12)
+        for got, ref in zip(builder.stats, want, strict=True):
+            for key in ("variance", "share", "mean"):
+                assert got[key] == pytest.approx(ref[key], rel=1e-12), key
+            assert got["n"] == ref["n"]
+            for g, r in zip(got["groups"], ref["groups"], strict=True):
+                assert g["n"] == r["n"] and g["mean"] == pytest.approx(r["mean"], rel=1e-12)
+
+    check(MAJORS, sbp)
+    # the sample's own variance differs: the table does show all rows
+    sample_B = core.balances(bench.model.composition.values[MAJORS], sbp)
+    assert builder.stats[0]["variance"] != pytest.approx(sample_B.iloc[:, 0].var(), rel=1e-6)
+    # another SBP over the same parts: no new pass over the moments; another set of parts
+    other = [[1, -1, -1, -1, -1], [0, 1, -1, -1, -1], [0, 0, 1, -1, -1], [0, 0, 0, 1, -1]]
+    bench.model.set_sbp(other)
+    check(MAJORS, other)
+    assert len(bench.all_rows._moments) == 1
+    parts = MAJORS[:4]
+    bench.model.active_parts = parts
+    four = [[1, 1, -1, -1], [1, -1, 0, 0], [0, 0, 1, -1]]
+    bench.model.set_sbp(four)
+    check(parts, four)
+
+
+def test_lazy_balance_summary_keeps_small_balances_precise():
+    # a balance of two parts that barely differ: psi G psi loses digits; the second pass
+    # recomputes it from the balance itself. Reference: numpy var / mean of that balance.
+    from compwidgets.core import _lazy
+
+    rng = np.random.default_rng(8)
+    n = 30_000
+    a = np.exp(rng.normal(size=n) * 3)
+    frame = pd.DataFrame(
+        {"a": a, "b": a * np.exp(rng.normal(size=n) * 1e-6), "c": np.exp(rng.normal(size=n))}
+    )
+    entries, _ = _lazy.summarize_balances(
+        dd.from_pandas(frame, npartitions=5), [[1, 1, -1], [1, -1, 0]]
+    )
+    ratio = np.log(frame["a"] / frame["b"]) / np.sqrt(2)  # the balance of a and b
+    assert entries[1]["variance"] == pytest.approx(np.var(ratio, ddof=1), rel=1e-12)
+    assert entries[1]["mean"] == pytest.approx(np.mean(ratio), rel=1e-9)
+
+
+def test_all_row_density_follows_parts_changes_and_equals_histogram2d(small):
+    lazy, mem = small
+    bench = cw.explore(
+        lazy, sample_size=2000, mode="density", ternary_parts=[MAJORS[:3], MAJORS[2:5]]
+    )
+    view = bench.ternaries[0]
+    image = view._density_image
+    x, y = _ternary_all_rows(mem, MAJORS[:3])
+    assert_counts_match(image.all_counts, x, y, image)
+    assert image.all_counts.sum() == 24_000
+    view.parts = ["SiO2", "MgO", "CaO"]  # a ternary's parts
+    x, y = _ternary_all_rows(mem, ["SiO2", "MgO", "CaO"])
+    assert_counts_match(view._density_image.all_counts, x, y, image)
+    # a change of the active parts redraws every view (from the sample): all rows again
+    bench.model.active_parts = ["Al2O3", "Fe2O3", "MgO", "CaO", "Zn"]
+    view.follow_active_parts()
+    assert list(view.parts) == ["Al2O3", "Fe2O3", "MgO"]
+    for v in bench.ternaries:
+        x, y = _ternary_all_rows(mem, v.parts)
+        assert_counts_match(v._density_image.all_counts, x, y, v._density_image)
+        assert "all 24,000 rows" in v.notes.value
+
+
+def test_biplot_density_counts_all_rows_in_the_sample_fit(small):
+    from compwidgets.core import _lazy
+
+    lazy, mem = small
+    bench = cw.explore(lazy, sample_size=2000, mode="density", active_parts=MAJORS)
+    view = bench.biplot
+    fit = view.biplot
+    # the projection of the sampled rows is the fit's own row coordinates
+    sample = bench.model.composition.values[MAJORS].to_numpy()
+    coords = _lazy.biplot_row_coords(fit, sample, [0, 1])
+    np.testing.assert_allclose(coords[:, 0], fit.row_column(0), rtol=1e-9, atol=1e-12)
+    np.testing.assert_allclose(coords[:, 1], fit.row_column(1), rtol=1e-9, atol=1e-12)
+    # all rows: clr, centred on the fit's centre, on its axes (numpy only)
+    Z = np.log(mem.values[MAJORS].to_numpy())
+    Z -= Z.mean(axis=1, keepdims=True)
+    scale = np.sqrt(fit.n_rows_used - 1) / fit.singular_values[:2]
+    xy = (Z - fit.clr_mean) @ fit.right_vectors[:, :2] * scale
+    image = view._density_image
+    assert_counts_match(image.all_counts, xy[:, 0], xy[:, 1], image)
+    assert "axes fitted on the sample" in view.notes.value
+    view.scaling = "form"  # the plane moves: counted again in the new coordinates
+    xy = (Z - fit.clr_mean) @ fit.right_vectors[:, :2]
+    image = view._density_image
+    assert_counts_match(image.all_counts, xy[:, 0], xy[:, 1], image)
+
+
+def test_second_use_of_a_lazy_composition_parses_nothing(tmp_path, monkeypatch):
+    from compwidgets.lazy import intake as lazy_intake
+
+    frame = survey(12_000, seed=5)
+    path = tmp_path / "t.parquet"
+    dd.from_pandas(frame, npartitions=3, sort=False).to_parquet(path, write_index=False)
+    calls = []
+    real = lazy_intake.partition_composition
+    monkeypatch.setattr(
+        lazy_intake,
+        "partition_composition",
+        lambda *a: (calls.append(a[2]) if len(a[0]) else None) or real(*a),  # rows parsed
+    )
+    spill = tmp_path / "spill"
+    lazy = cw.read_composition(path, spill=spill, **OPTIONS)
+    first = lazy.values.compute()
+    assert sorted(calls) == [0, 1, 2]
+    calls.clear()
+    again = lazy.values.compute()  # a second use: read from the kept partitions
+    counts = lazy.report_counts()
+    lazy.sample(100)
+    assert calls == []
+    pd.testing.assert_frame_equal(again, first)
+    mem = cw.read_composition(frame, **OPTIONS)
+    pd.testing.assert_series_equal(
+        counts, mem.report.groupby(["action", "code"]).size().sort_index(), check_names=False
+    )
+    assert len(list(spill.rglob("rest.pickle"))) == 3
+    # no spill: every use parses again
+    plain = cw.read_composition(path, spill=False, **OPTIONS)
+    plain.values.compute()
+    plain.values.compute()
+    assert sorted(calls) == [0, 0, 1, 1, 2, 2]
+    with pytest.raises(core.CompositionError, match="spill"):
+        cw.read_composition(frame, spill=spill)
+
+
+def test_temporary_spill_folder_goes_with_the_composition(tmp_path):
+    import gc
+
+    frame = survey(3000)
+    lazy = cw.read_composition(dd.from_pandas(frame, npartitions=2), **OPTIONS)
+    folder = lazy.spill.folder
+    lazy.values.compute()
+    assert os.path.isdir(folder) and len(os.listdir(folder)) == 2  # one per partition
+    del lazy
+    gc.collect()
+    assert not os.path.exists(folder)
+
+
+@pytest.mark.parametrize(
+    "index",
+    [
+        pd.Index(np.arange(5000) * 7 + 3),  # unnamed integers
+        pd.Index([f"S{k:05d}" for k in range(5000)][::-1]),  # unnamed text
+        pd.Index(np.arange(5000) + 10, name="bore"),  # named
+    ],
+    ids=["unnamed-int", "unnamed-str", "named"],
+)
+def test_row_labels_round_trip_through_parquet(tmp_path, index):
+    rng = np.random.default_rng(2)
+    frame = pd.DataFrame(
+        np.round(np.exp(rng.normal(size=(5000, 3))), 4),
+        columns=["Cu (ppm)", "Zn (ppm)", "Pb (ppm)"],
+    ).set_axis(index, axis=0)
+    frame.iloc[17, 0] = 0.0  # a cell below detection: its report entry names the row
+    options = {"detection_limits": 0.001}
+    mem = cw.read_composition(frame, **options)
+    # written by pandas (one file), by dask (a folder), and by the package's own writer
+    frame.to_parquet(tmp_path / "one.parquet")
+    dd.from_pandas(frame, npartitions=3, sort=False).to_parquet(tmp_path / "folder")
+    lazy = cw.read_composition(dd.from_pandas(frame, npartitions=3, sort=False), **options)
+    lazy_export.write_parquet(lazy.values, tmp_path / "own")
+    for source in ("one.parquet", "folder"):
+        back = cw.read_composition(tmp_path / source, **options)
+        got = back.values.compute()
+        pd.testing.assert_index_equal(got.index, mem.values.index, exact=False)
+        report = back.report.compute()
+        entry = report[report["action"] == "below_detection"]
+        assert entry["row"].tolist() == [index[17]]
+    own = cw.read_composition(tmp_path / "own", **options).values.compute()
+    assert own.index.tolist() == mem.values.index.tolist()
+    assert own.index.name == index.name

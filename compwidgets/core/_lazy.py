@@ -170,8 +170,8 @@ def _combine(items: list):
 
 
 def _blocks(X) -> list:
-    """The delayed pandas/numpy blocks of rows of ``X``."""
-    if _is_frame(X):
+    """The delayed pandas/numpy blocks of rows of ``X`` (a DataFrame, Series or array)."""
+    if hasattr(X, "divisions"):
         return list(X.to_delayed())
     return list(X.to_delayed().ravel())
 
@@ -302,3 +302,223 @@ def variation_matrix(X):
         T[i, j] = np.diag(direct.gram) / (direct.n - DDOF)
     T = np.triu(T, k=1)
     return _square(X, T + T.T, None)
+
+
+# ------------------------------------------------------------------ balances
+def _group_codes(labels, categories: list[str]) -> np.ndarray:
+    """Code of each row's group: its position in ``categories`` (-1: none or another)."""
+    values = pd.Series(np.asarray(labels, dtype=object))
+    present = values.notna().to_numpy()
+    codes = np.full(len(values), -1, dtype=np.int64)
+    if present.any():
+        found = pd.Index(categories).get_indexer(values[present].map(str))
+        codes[present] = found
+    return codes
+
+
+def _complete_block(block) -> tuple[np.ndarray, np.ndarray]:
+    """(mask of the rows positive and finite in every part, their values) of one block."""
+    a = np.asarray(block, dtype=float)
+    with np.errstate(invalid="ignore"):
+        ok = np.all(np.isfinite(a) & (a > 0), axis=1)
+    return ok, a[ok]
+
+
+def _balance_block(block, labels, categories, basis, direct: np.ndarray | None):
+    """(rows, Moments of all complete rows, Moments per group) of one partition.
+
+    The moments are of the clr coordinates (``direct`` None) or of the balances
+    ``direct`` (rows of ``basis``) computed row by row.
+    """
+    from ._arrays import as_table
+    from .transforms import clr_values
+
+    ok, a = _complete_block(block)
+    D = a.shape[1]
+    if a.shape[0]:
+        Z = clr_values(as_table(a, min_parts=2))
+        if direct is not None:
+            Z = Z @ basis[direct].T
+    else:
+        Z = np.empty((0, D if direct is None else len(direct)))
+    codes = _group_codes(labels, categories)[ok] if categories else None
+    per_group = (
+        [] if codes is None else [Moments.of(Z[codes == g]) for g in range(len(categories))]
+    )
+    return len(ok), Moments.of(Z), per_group
+
+
+def _balance_pass(X, groups, categories, basis, direct):
+    import dask
+
+    label_blocks = _blocks(groups) if groups is not None else [None] * X.npartitions
+    tasks = [
+        dask.delayed(_balance_block)(b, g, categories, basis, direct)
+        for b, g in zip(_blocks(X), label_blocks, strict=True)
+    ]
+    (pieces,) = dask.compute(tasks)
+    n_rows = sum(p[0] for p in pieces)
+    total = _combine([p[1] for p in pieces])
+    per_group = [_combine([p[2][g] for p in pieces]) for g in range(len(categories))]
+    return n_rows, total, per_group
+
+
+@dataclass
+class BalanceMoments:
+    """Moments of the clr coordinates of all complete rows, overall and per group.
+
+    What :func:`summarize_balances` needs of a table for any SBP over its parts:
+    one pass gives it, and every balance's mean and variance follow from it
+    (``psi @ mean``, ``psi @ G @ psi / (n - 1)``, ``psi`` the balance's contrast).
+    """
+
+    n_rows: int
+    total: Moments
+    groups: list
+    categories: list
+
+
+def balance_moments(X, groups=None, categories: list[str] | None = None) -> BalanceMoments:
+    """One pass over a dask DataFrame of parts (NaN, zero: incomplete rows): clr moments.
+
+    Parameters
+    ----------
+    X : dask DataFrame (n, D)
+        Part values; a row counts when every part is positive and finite.
+    groups : dask Series, optional
+        Group label of each row, partitioned like ``X``.
+    categories : list of str, optional
+        The groups (a row whose label, as text, is not one of them is in none).
+    """
+    X = _as_rows(X)
+    if not _is_frame(X):
+        raise CompositionError("balance_moments: needs a dask DataFrame of parts")
+    categories = list(categories or [])
+    if groups is not None and groups.npartitions != X.npartitions:
+        raise CompositionError(
+            f"balance_moments: groups has {groups.npartitions} partitions, X {X.npartitions}"
+        )
+    n_rows, total, per_group = _balance_pass(X, groups, categories, None, None)
+    return BalanceMoments(n_rows, total, per_group, categories)
+
+
+def summarize_balances(
+    X,
+    sbp,
+    groups=None,
+    categories: list[str] | None = None,
+    names=None,
+    moments: BalanceMoments | None = None,
+) -> tuple[list[dict], float | None]:
+    """Per-balance summaries over all complete rows of a dask table, and the total variance.
+
+    The entries of :func:`compwidgets.core.summary.summarize_balances` that add up
+    partition by partition, with the same keys and meaning: ``index``, ``name``,
+    ``n``, ``n_missing``, ``variance`` (ddof = 1), ``share`` (of the total
+    variance of the same rows), ``mean`` and ``groups`` (``{"code", "n",
+    "mean"}`` per category). Quantiles need the rows in order and are not given
+    here (the keys are absent).
+
+    One pass (:func:`balance_moments`, reusable through ``moments`` for another
+    SBP over the same parts) gives every balance; a balance whose variance or
+    mean is small next to the size of the clr terms it is made of (below
+    :data:`LAZY_DIRECT_SHARE`, where ``psi @ G @ psi`` would lose digits) is
+    recomputed from its values row by row in a second pass, as
+    :func:`variation_matrix` does; every entry then agrees with the in-memory
+    summary of the same rows to about 1e-12 relative.
+    """
+    from .sbp import sbp_basis
+    from .stats import DDOF
+
+    if moments is None:
+        moments = balance_moments(X, groups, categories)
+    categories = moments.categories
+    m = moments.total
+    sbp = np.asarray(sbp)
+    # no balance yet (one group of parts): the total variance alone
+    basis = sbp_basis(sbp, complete=False) if sbp.size else np.zeros((0, m.mean.shape[0]))
+    if basis.shape[1] != m.mean.shape[0]:
+        raise CompositionError(
+            f"summarize_balances: the SBP has {basis.shape[1]} parts, the table {m.mean.shape[0]}"
+        )
+    k = basis.shape[0]
+    if names is not None and len(names) != k:
+        raise CompositionError(f"summarize_balances: {len(names)} names for {k} balances")
+    enough = m.n > DDOF
+    total = float(np.trace(m.gram) / (m.n - DDOF)) if enough else None
+    mean = basis @ m.mean if m.n else np.full(k, np.nan)
+    variance = np.einsum("ij,jk,ik->i", basis, m.gram, basis) / (m.n - DDOF) if enough else None
+    group_n = [g.n for g in moments.groups]
+    group_mean = [basis @ g.mean if g.n else np.full(k, np.nan) for g in moments.groups]
+    if m.n:
+        spread = np.sqrt(np.maximum(np.diag(m.gram), 0.0) / max(m.n - DDOF, 1))
+        var_scale = (np.abs(basis) @ spread) ** 2
+        mean_scale = np.abs(basis) @ np.abs(m.mean)
+        small = np.abs(mean) < LAZY_DIRECT_SHARE * mean_scale
+        for gm, g in zip(group_mean, moments.groups, strict=True):
+            if g.n:
+                small |= np.abs(gm) < LAZY_DIRECT_SHARE * (np.abs(basis) @ np.abs(g.mean))
+        if variance is not None:
+            small |= variance < LAZY_DIRECT_SHARE * var_scale
+        direct = np.flatnonzero(small)
+        if direct.size:
+            Xr = _as_rows(X)
+            _, dm, dg = _balance_pass(Xr, groups, categories, basis, direct)
+            mean[direct] = dm.mean
+            if variance is not None:
+                variance[direct] = np.diag(dm.gram) / (dm.n - DDOF)
+            for gm, g in zip(group_mean, dg, strict=True):
+                if g.n:
+                    gm[direct] = g.mean
+
+    def num(x) -> float | None:
+        x = float(x)
+        return x if np.isfinite(x) else None
+
+    out = []
+    for j in range(k):
+        var = None if variance is None else num(variance[j])
+        out.append(
+            {
+                "index": j,
+                "name": None if names is None else str(names[j]),
+                "n": int(m.n),
+                "n_missing": int(moments.n_rows - m.n),
+                "variance": var,
+                "share": var / total if var is not None and total else None,
+                "mean": num(mean[j]) if m.n else None,
+                "groups": [
+                    {
+                        "code": g,
+                        "n": int(group_n[g]),
+                        "mean": num(group_mean[g][j]) if group_n[g] else None,
+                    }
+                    for g in range(len(categories))
+                ],
+            }
+        )
+    return out, total
+
+
+def biplot_row_coords(fit, values: np.ndarray, components) -> np.ndarray:
+    """Row coordinates of further rows in a fitted biplot's components (rows, k).
+
+    A row with clr coordinates ``z`` lies at ``(z - clr_mean) @ V[:, c] / s[c]``
+    times the row factor of the scaling (``s[c]`` for the form biplot,
+    ``sqrt(n - 1)`` for the covariance biplot): for a row that entered the fit
+    this is its own row coordinate, as ``U = Zc V / s``. ``values`` are positive
+    part values in the order of ``fit.parts``.
+    """
+    from ._arrays import as_table
+    from .stats import DDOF
+    from .transforms import clr_values
+
+    components = [int(c) for c in components]
+    V = fit.right_vectors[:, components]
+    s = fit.singular_values[components]
+    Z = clr_values(as_table(values, min_parts=2))
+    Z -= fit.clr_mean
+    coords = Z @ V
+    if fit.scaling != "form":
+        coords *= np.sqrt(fit.n_rows_used - DDOF) / s
+    return coords

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Hashable, Iterable, Mapping, Sequence
 
 from ..composition import Composition
-from ..core import DEFAULT_FRACTION
+from ..core import DEFAULT_FRACTION, CompositionError
 from . import codes
 from .columns import choose_index, classify_columns
 from .load import is_lazy_source, load
@@ -52,6 +52,7 @@ def read_composition(
     missing_tokens: Iterable[str] = DEFAULT_MISSING_TOKENS,
     index_col: Hashable | None = None,
     sep: str | None = None,
+    spill=None,
 ) -> Composition:
     """Read a table of compositions into a :class:`~compwidgets.composition.Composition`.
 
@@ -172,6 +173,12 @@ def read_composition(
     sep : str, optional
         Text files only: the delimiter; default tab for .tsv, else the most
         frequent of tab ; , | in the header line.
+    spill : path, False or None
+        Tables read partition by partition only (a dask DataFrame, Parquet,
+        a glob of files): where the parsed partitions are kept once read, so
+        that a second use does not parse again (:mod:`compwidgets.lazy.spill`).
+        None (default): a temporary folder, removed with the composition;
+        a path: that folder (kept); False: parse again at every use.
 
     Returns
     -------
@@ -222,7 +229,12 @@ def read_composition(
     if is_lazy_source(source):  # dask: the same steps, partition by partition
         from ..lazy.intake import read_lazy
 
-        return read_lazy(source, options)
+        return read_lazy(source, options, spill=spill)
+    if spill is not None:
+        raise CompositionError(
+            "spill applies to tables read partition by partition (dask, Parquet, a glob of "
+            "files); this table is read into memory whole"
+        )
     st = IntakeState(options, load(source, options))
     choose_index(st)
     classify_columns(st)

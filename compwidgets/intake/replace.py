@@ -33,16 +33,25 @@ def replace_below(st: IntakeState) -> None:
         values[below] = fraction * dl[below]
         return
     rows = np.flatnonzero(below.any(axis=1))
-    sub_status, sub_below = status[rows], below[rows]
-    observed = np.where(sub_status == OBS, raw[rows], 0.0)
-    limits = np.where(sub_below, dl[rows], np.nan)
+    every = rows.size == n  # a value below detection in every row: no copies of the rows
+    sub_status, sub_below = (status, below) if every else (status[rows], below[rows])
+    is_observed = sub_status == OBS
+    observed = np.where(is_observed, raw if every else raw[rows], 0.0)
+    limits = np.where(sub_below, dl if every else dl[rows], np.nan)
     replaced, factors = multiplicative_replacement_rows(
         observed, limits, fraction=fraction, below=sub_below
     )
     feasible = np.isfinite(factors)
-    no_observed = ~(sub_status == OBS).any(axis=1)
-    not_replaced[rows[~feasible & no_observed]] = 1
-    not_replaced[rows[~feasible & ~no_observed]] = 2
-    ok = rows[feasible]
-    values[ok] = np.where(sub_status[feasible] == MISS, np.nan, replaced[feasible])
-    scale[ok] = factors[feasible]
+    if not feasible.all():
+        no_observed = ~is_observed.any(axis=1)
+        not_replaced[rows[~feasible & no_observed]] = 1
+        not_replaced[rows[~feasible & ~no_observed]] = 2
+        ok = rows[feasible]
+        values[ok] = np.where(sub_status[feasible] == MISS, np.nan, replaced[feasible])
+        scale[ok] = factors[feasible]
+    elif every:
+        values[:] = np.where(sub_status == MISS, np.nan, replaced)
+        scale[:] = factors
+    else:
+        values[rows] = np.where(sub_status == MISS, np.nan, replaced)
+        scale[rows] = factors

@@ -375,13 +375,37 @@ def _account(st: IntakeState) -> pd.DataFrame:
     )
 
 
+def _status_column(codes_: np.ndarray, index: pd.Index) -> pd.Series:
+    """One column of status names from its codes, as pandas' string dtype ("str").
+
+    With pyarrow behind that dtype the names are taken by code from a small
+    dictionary (no Python string per cell: several times faster); the values
+    and dtype are those of ``pd.Series(names, dtype="str")``.
+    """
+    if _ARROW_STR:
+        import pyarrow as pa
+
+        names = pa.DictionaryArray.from_arrays(
+            pa.array(codes_, type=pa.int8()), _arrow_status_names()
+        ).dictionary_decode()
+        return pd.Series(names, index=index, dtype="str", copy=False)
+    return pd.Series(_STATUS_NAMES[codes_], index=index, dtype="str", copy=False)
+
+
+#: True when pandas' "str" dtype is stored by pyarrow (pandas >= 3 with pyarrow).
+_ARROW_STR = getattr(pd.api.types.pandas_dtype("str"), "storage", "") == "pyarrow"
+
+
+def _arrow_status_names():
+    import pyarrow as pa
+
+    return pa.array([str(s) for s in _STATUS_NAMES], type=pa.large_string())  # pandas' own
+
+
 def _status_frame(codes_: np.ndarray, index: pd.Index, cols: pd.Index) -> pd.DataFrame:
     """Status names from codes, column by column (pandas' string dtype where available)."""
     frame = pd.DataFrame(
-        {
-            j: pd.Series(_STATUS_NAMES[codes_[:, j]], index=index, dtype="str", copy=False)
-            for j in range(codes_.shape[1])
-        },
+        {j: _status_column(codes_[:, j], index) for j in range(codes_.shape[1])},
         index=index,
     )
     frame.columns = cols

@@ -31,6 +31,17 @@ def total_applies(st: IntakeState) -> bool:
     )
 
 
+def observed_values(st: IntakeState) -> np.ndarray:
+    """The observed numbers as read (0 where a cell is not observed); kept while the state's
+    raw numbers and status are the same arrays (the totals' steps read it several times)."""
+    key = (id(st.raw), id(st.status))
+    kept = getattr(st, "_observed", None)
+    if kept is None or kept[0] != key:
+        kept = (key, np.where(st.status == OBS, st.raw, 0.0))
+        st._observed = kept
+    return kept[1]
+
+
 def analytical_total(st: IntakeState) -> None:
     """The analytical total in wt% (sum of the observed parts as reported), when it applies.
 
@@ -40,8 +51,7 @@ def analytical_total(st: IntakeState) -> None:
     n = len(st.index)
     st.total_checked = total_applies(st)
     if st.total_checked:
-        observed = np.where(st.status == OBS, st.raw, 0.0)
-        st.totals = observed.sum(axis=1) * unit_factor(st.unit, "wt%")
+        st.totals = observed_values(st).sum(axis=1) * unit_factor(st.unit, "wt%")
     else:
         st.totals = np.full(n, np.nan)
 
@@ -152,11 +162,13 @@ def needs_median(st: IntakeState, kind: str) -> bool:
 def total_differences(st: IntakeState, stated: np.ndarray, to_unit: float):
     """|stated - sum of all parts| and |stated - sum of the percent parts| where stated."""
     every, percent = part_groups(st)
-    observed = np.where(st.status == OBS, st.raw, 0.0) * to_unit
+    observed = observed_values(st) * to_unit
     rows = np.isfinite(stated)
+    if not rows.all():  # (every row stated: no copy of the rows)
+        observed, stated = observed[rows], stated[rows]
     return (
-        np.abs(stated[rows] - observed[rows].sum(axis=1)),
-        np.abs(stated[rows] - observed[rows][:, percent].sum(axis=1)),
+        np.abs(stated - observed.sum(axis=1)),
+        np.abs(stated - observed[:, percent].sum(axis=1)),
     )
 
 

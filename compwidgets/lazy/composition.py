@@ -45,15 +45,21 @@ class LazyComposition:
     n_rows: int
     offsets: np.ndarray = field(repr=False)
     partitions: list = field(repr=False)  # delayed Composition of each partition
+    spill: object = field(default=None, repr=False)  # lazy.spill.Spill, or None
 
     @classmethod
-    def from_plan(cls, blocks, plan, n, settings, head, account, meta_frame) -> LazyComposition:
+    def from_plan(
+        cls, blocks, plan, n, settings, head, account, meta_frame, spill=None
+    ) -> LazyComposition:
         import dask
         import dask.dataframe as dd
 
         from .intake import partition_composition
+        from .spill import Unread, frame_of, partition_task
 
-        parts = [dask.delayed(partition_composition)(b, plan, k) for k, b in enumerate(blocks)]
+        # the input block goes in unread: a task reads it only when no kept copy exists
+        task = dask.delayed(partition_task)
+        parts = [task(Unread(b), plan, k, spill) for k, b in enumerate(blocks)]
         meta = _with_label_dtype(
             partition_composition(meta_frame.iloc[:0], plan, 0), plan, meta_frame
         )
@@ -63,7 +69,7 @@ class LazyComposition:
             divisions = tuple(int(o) for o in offsets[:-1]) + (int(offsets[-1]) - 1,)
 
         def lazy(name: str):
-            pieces = [dask.delayed(getattr)(p, name) for p in parts]
+            pieces = [dask.delayed(frame_of)(p, name) for p in parts]
             keyed = divisions if name not in ("report", "flags") else None
             if name == "flags" and divisions is not None:
                 keyed = None
@@ -91,6 +97,7 @@ class LazyComposition:
             n_rows=n,
             offsets=offsets,
             partitions=parts,
+            spill=spill,
         )
 
     # ----------------------------------------------------------------- basics
@@ -172,8 +179,11 @@ class LazyComposition:
         return comp, positions
 
 
-def _take(comp: Composition, local: np.ndarray) -> Composition:
+def _take(part, local: np.ndarray) -> Composition:
     """The rows at ``local`` positions of one partition's Composition."""
+    from .spill import composition_of
+
+    comp = composition_of(part)
     labels = comp.values.index[local]
     report = comp.report[comp.report["row"].isin(labels)]
     flags = comp.flags[comp.flags.index.isin(labels)]

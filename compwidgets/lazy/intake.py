@@ -107,10 +107,15 @@ def load_lazy(source, options: Options):
     suffixes = {Path(f).suffix.lower() for f in files if not os.path.isdir(f)}
     note = {"source": text, "sheet_name": None, "sep": None, "encoding": None}
     if suffixes <= set(PARQUET_EXTENSIONS):
-        frame = dd.read_parquet(files if len(files) > 1 else files[0], index=False)
+        src = files if len(files) > 1 else files[0]
+        stored = _stored_index(files)
+        frame = dd.read_parquet(src, index=None if stored else False)  # None: the stored one
+        if stored and frame._meta.index.name in _PLACEHOLDER_INDEX_NAMES:
+            frame = frame.rename_axis(None)  # stored unnamed: read back unnamed
         names = [str(c) for c in frame.columns]
         refuse_duplicate_names(names, where)
-        return frame, note, where, True, []
+        # row labels stored as the files' index are the table's own (as a DataFrame's)
+        return frame, note, where, not stored, []
     if suffixes <= {".csv", ".tsv", ".txt"}:
         ext = suffixes.pop()
         sep = options.sep or ("\t" if ext == ".tsv" else _guess(files[0]))
@@ -131,6 +136,34 @@ def load_lazy(source, options: Options):
         f"{where}: the files must all be Parquet ({', '.join(PARQUET_EXTENSIONS)}) or all "
         f"CSV/TSV/TXT; found {sorted(suffixes)!r}"
     )
+
+
+#: Names pandas and dask give an unnamed index stored in a Parquet file.
+_PLACEHOLDER_INDEX_NAMES = ("__index_level_0__", "__null_dask_index__")
+
+
+def _stored_index(files: list[str]) -> str | None:
+    """The column holding the row labels stored as the index of the Parquet files, if any.
+
+    Read from the pandas metadata of the first file (a RangeIndex is stored as
+    metadata only: those labels are positions, None is returned).
+    """
+    import json
+
+    import pyarrow.parquet as pq
+
+    first = files[0]
+    if os.path.isdir(first):
+        inside = sorted(str(p) for p in Path(first).rglob("*") if p.suffix in PARQUET_EXTENSIONS)
+        if not inside:
+            return None
+        first = inside[0]
+    meta = pq.read_schema(first).metadata or {}
+    if b"pandas" not in meta:
+        return None
+    columns = json.loads(meta[b"pandas"]).get("index_columns", [])
+    named = [c for c in columns if isinstance(c, str)]
+    return named[0] if len(named) == 1 else None
 
 
 def _guess(path: str) -> str:
@@ -356,8 +389,11 @@ def _chunk_totals(pdf: pd.DataFrame, plan: Plan, k: int, comparisons, groups, st
 
 
 # ------------------------------------------------------------------ driver
-def read_lazy(source, options: Options):
-    """:func:`compwidgets.read_composition` of a dask DataFrame or Parquet/CSV files."""
+def read_lazy(source, options: Options, spill=None):
+    """:func:`compwidgets.read_composition` of a dask DataFrame or Parquet/CSV files.
+
+    ``spill``: where the parsed partitions are kept (see :mod:`.spill`).
+    """
     import dask
 
     from .composition import LazyComposition
@@ -386,6 +422,8 @@ def read_lazy(source, options: Options):
     del pieces  # the partitions' facts (and their hashes) live on only in the sums
     pieces = lengths_only
     default = from_file or _default_labels(pieces, offsets, meta_index)
+    if not default and isinstance(meta_index, pd.RangeIndex):
+        meta_index = blocks[0].compute().index  # dask's empty frame may not know the kind
     index = pd.RangeIndex(n) if default else meta_index[:0]
 
     state: dict = {}
@@ -464,9 +502,15 @@ def read_lazy(source, options: Options):
     head = pd.concat(
         _report._column_entries(st) + _report._conversion_entries(st), ignore_index=True
     )[list(REPORT_COLUMNS)]
-    return LazyComposition.from_plan(
-        blocks, plan, n, settings, head, _report._account(st), ddf._meta
+    from .spill import make_spill, remove_when_unused
+
+    store, temporary = make_spill(spill)
+    lazy = LazyComposition.from_plan(
+        blocks, plan, n, settings, head, _report._account(st), ddf._meta, spill=store
     )
+    if temporary:
+        remove_when_unused(store)
+    return lazy
 
 
 def _sum_facts(items: list[ColumnFacts], offsets) -> ColumnFacts:

@@ -91,31 +91,83 @@ class AllRows:
         self.lazy = lazy
         self.model = model
         self.positions = np.asarray(positions)
+        self._counts: dict = {}  # density counts of all rows, per view geometry
+        self._moments: dict = {}  # clr moments of all rows, per parts and groups
+        self._statistics: dict = {}  # balance statistics, per parts, groups and SBP
+        self._shown: list = []  # the views whose density layer counts all rows
+
+    def _members(self, parts) -> tuple:
+        return tuple((p, tuple(self.model.members(p))) for p in parts)
 
     # ---------------------------------------------------------- coordinates
-    def _projector(self, view):
-        """A function (values partition) -> (ok, x, y) in ``view``'s coordinates."""
+    def _geometry(self, view, shapes: bool = False):
+        """(key, function (values partition) -> (ok, x, y)) of ``view``'s coordinates.
+
+        The key names what the coordinates depend on (parts and their members,
+        centring, biplot fit and plane), so that counts found once are kept.
+        """
+        from ..views.biplot import BiplotView
         from ..views.ternary import TernaryView
 
-        if not isinstance(view, TernaryView):
-            raise core.CompositionError(
-                f"{type(view).__name__}: applying a shape to all rows needs a ternary view "
-                "(the biplot's axes come from the sample)"
-            )
-        parts = list(view.parts)
         model = self.model
-        groups = {p: model.members(p) for p in parts}
-        centring = view._centring if view.centred else None
-        return lambda values: _ternary_xy(values, parts, groups.__getitem__, centring)
+        if isinstance(view, TernaryView):
+            parts = list(view.parts)
+            groups = {p: model.members(p) for p in parts}
+            centring = view._centring if view.centred else None
+            key = (
+                "ternary",
+                self._members(parts),
+                None if centring is None else np.asarray(centring).tobytes(),
+            )
+            return key, lambda values: _ternary_xy(values, parts, groups.__getitem__, centring)
+        if isinstance(view, BiplotView) and not shapes:
+            fit = view.biplot
+            if fit is None:
+                raise core.CompositionError("BiplotView: no biplot fitted (too few rows)")
+            parts = list(fit.parts)
+            groups = {p: model.members(p) for p in parts}
+            cx, cy = view._plane()
+            components = [cx] if cy is None else [cx, cy]
+            key = (
+                "biplot",
+                self._members(parts),
+                fit.scaling,
+                tuple(components),
+                fit.right_vectors.tobytes(),
+                fit.clr_mean.tobytes(),
+            )
+            return key, lambda values: _biplot_xy(values, parts, groups.__getitem__, fit, cx, cy)
+        raise core.CompositionError(
+            f"{type(view).__name__}: applying a shape to all rows needs a ternary view "
+            "(the biplot's axes come from the sample)"
+        )
+
+    def _projector(self, view):
+        """A function (values partition) -> (ok, x, y) in ``view``'s coordinates."""
+        return self._geometry(view, shapes=True)[1]
 
     def density_counts(self, views: Sequence) -> list[np.ndarray]:
-        """Bin counts of all rows on each view's density grid, in one pass (exact)."""
-        import dask
+        """Bin counts of all rows on each view's density grid, in one pass (exact).
 
-        grids = []
+        Counts found before for the same geometry (parts, centring, fit, plane,
+        grid) are a lookup; the others are counted together in one pass.
+        """
+        keys, todo = [], []
         for view in views:
             image = view._density_image
-            grids.append((self._projector(view), image.extent, image.bins))
+            key, project = self._geometry(view)
+            key = (*key, tuple(image.extent), tuple(np.atleast_1d(image.bins)))
+            keys.append(key)
+            if key not in self._counts and key not in [k for k, _ in todo]:
+                todo.append((key, (project, image.extent, image.bins)))
+        if todo:
+            found = self._count([grid for _, grid in todo])
+            for (key, _), counts in zip(todo, found, strict=True):
+                self._counts[key] = counts
+        return [self._counts[key] for key in keys]
+
+    def _count(self, grids: list) -> list[np.ndarray]:
+        import dask
 
         def counts(values):
             out = []
@@ -129,21 +181,58 @@ class AllRows:
         return [np.sum([p[k] for p in pieces], axis=0) for k in range(len(grids))]
 
     def show_density(self, *views) -> None:
-        """Draw the views' density layers from all rows (density mode), saying which is which."""
-        sample = f"a seeded sample of {self.model.n_rows:,} of {self.lazy.n_rows:,} rows"
-        dense = [v for v in views if v.active_mode == "density"]
+        """Draw the views' density layers from all rows (density mode), saying which is which.
+
+        The views are then followed: after a change of the active parts (or
+        their amalgamations), of a ternary's parts or centring, or of the
+        biplot's plane or scaling, their all-row density is drawn again
+        (counted once per geometry, then looked up).
+        """
         for view in views:
-            if view.active_mode != "density":
+            if view not in self._shown:
+                self._shown.append(view)
+                self._follow(view)
+        self._redraw(views)
+
+    def _follow(self, view) -> None:
+        names = [
+            n
+            for n in ("parts", "centred", "grid_step", "scaling", "components", "mode")
+            if view.has_trait(n)
+        ]
+        view.observe(lambda change: self._redraw([view]), names=names)
+        if len(self._shown) == 1:
+            self.model.observe(
+                lambda change: self._redraw(self._shown), names=["active_parts", "amalgamations"]
+            )
+
+    def _redraw(self, views) -> None:
+        sample = f"a seeded sample of {self.model.n_rows:,} of {self.lazy.n_rows:,} rows"
+        dense = []
+        for view in views:
+            if view.active_mode == "density" and self._drawable(view):
+                dense.append(view)
+            else:
                 view._set_note("rows", f"points: {sample}")
         for view, counts in zip(dense, self.density_counts(dense) if dense else [], strict=True):
             self._draw_density(view, counts, sample)
 
+    @staticmethod
+    def _drawable(view) -> bool:
+        from ..views.biplot import BiplotView
+
+        return not isinstance(view, BiplotView) or view.biplot is not None
+
     def _draw_density(self, view, counts: np.ndarray, sample: str) -> None:
+        from ..views.biplot import BiplotView
+
         view._density_image.set_all_counts(counts)
         view._render_density()
+        fit = "; axes fitted on the sample" if isinstance(view, BiplotView) else ""
         view._set_note(
             "rows",
-            f"grey density: all {self.lazy.n_rows:,} rows; selection and hover points: {sample}",
+            f"grey density: all {self.lazy.n_rows:,} rows; selection and hover points: "
+            f"{sample}{fit}",
         )
 
     # ------------------------------------------------------------ selection
@@ -216,6 +305,63 @@ class AllRows:
             index=pd.Index(list(model.balance_names), name="balance"),
         )
 
+    def _group_source(self):
+        model = self.model
+        column = model.group_column
+        if not column:
+            return None, [], ""
+        cats, _ = model.group_codes()
+        return self.lazy.metadata[column], list(cats), column
+
+    def builder_statistics(self, sbp: np.ndarray, names: Sequence[str]):
+        """The builder's statistics over all rows: ``(entries, total, n_used, n_rows)``.
+
+        ``entries`` (one per SBP row) hold ``n``, ``n_missing``, ``variance``,
+        ``share``, ``mean`` and ``groups`` over all rows complete in the active
+        parts (:func:`compwidgets.core._lazy.summarize_balances`); one pass over
+        all rows per set of active parts and grouping (the clr moments), kept,
+        and the figures of each SBP kept too.
+        """
+        from ..core import _lazy
+
+        model = self.model
+        parts = list(model.active_parts)
+        groups, cats, column = self._group_source()
+        base = (self._members(parts), column, tuple(cats))
+        sbp = np.asarray(sbp, dtype=np.int8)
+        key = (base, sbp.shape, sbp.tobytes(), tuple(names))
+        if key not in self._statistics:
+            values = self.part_values(parts)
+            if base not in self._moments:
+                self._moments[base] = _lazy.balance_moments(values, groups, cats)
+            moments = self._moments[base]
+            entries, total = _lazy.summarize_balances(
+                values, sbp, groups, cats, list(names), moments=moments
+            )
+            self._statistics[key] = (entries, total, moments.total.n, moments.n_rows)
+        return self._statistics[key]
+
+    def show_statistics(self, builder) -> None:
+        """Make ``builder`` show its balances' statistics over all rows (and say so)."""
+        builder.set_statistics_source(self.builder_statistics)
+
+
+def _biplot_xy(values: pd.DataFrame, parts, members, fit, cx: int, cy: int | None):
+    """(complete mask, x, y) of one partition in a biplot's plane (the sample's fit)."""
+    from ..core import _lazy
+
+    v = _part_block(values, parts, members)
+    with np.errstate(invalid="ignore"):
+        ok = np.all(np.isfinite(v) & (v > 0), axis=1)
+    x = np.full(len(v), np.nan)
+    y = np.full(len(v), np.nan)
+    if ok.any():
+        components = [cx] if cy is None else [cx, cy]
+        coords = _lazy.biplot_row_coords(fit, v[ok], components)
+        x[ok] = coords[:, 0]
+        y[ok] = 0.0 if cy is None else coords[:, 1]
+    return ok, x, y
+
 
 def ilr_frame(all_rows: AllRows):
     """Lazy DataFrame of the balances of the model's SBP over all rows (NaN: incomplete)."""
@@ -258,5 +404,14 @@ def explore_lazy(
     model = CompositionModel(composition, active_parts=active_parts, group_column=group)
     bench = Workbench(model, ternary_parts=ternary_parts, mode=mode)
     bench.all_rows = AllRows(lazy, model, positions)
-    bench.all_rows.show_density(*bench.ternaries)
+    bench.all_rows.show_density(*bench.ternaries, bench.biplot)
+    bench.all_rows.show_statistics(bench.builder)
+    import ipywidgets as widgets
+
+    bench.statistics_note = widgets.Label(
+        f"balance table and dendrogram: n, mean, variance, share and group means over all "
+        f"{lazy.n_rows:,} rows (complete rows of the active parts); quantiles, group "
+        f"separation and the selection from the sample of {model.n_rows:,} rows"
+    )
+    bench.footer = widgets.VBox([bench.statistics_note, bench.builder])
     return bench

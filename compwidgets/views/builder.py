@@ -207,6 +207,9 @@ class BalanceBuilder(anywidget.AnyWidget):
     max_exhaustive: int = 16
     #: Rows ranked for the Kruskal-Wallis test of a balance (a seeded random subset above).
     max_rank_rows: int = 100_000
+    #: Optional ``source(sbp, names) -> (entries, total, n_used, n_rows)`` whose entries'
+    #: keys replace the model's statistics in ``stats`` (set by :meth:`set_statistics_source`).
+    statistics_source: Callable | None = None
 
     def __init__(self, model: CompositionModel, **kwargs):
         if not isinstance(model, CompositionModel):
@@ -309,6 +312,12 @@ class BalanceBuilder(anywidget.AnyWidget):
     def reset(self) -> None:
         """Back to one group holding every active part (the model's SBP is cleared)."""
         self._propose(_leaf(list(self.parts)))
+
+    def set_statistics_source(self, source: Callable | None) -> None:
+        """Take the balances' statistics from ``source`` (e.g. all rows of a larger table)."""
+        self.statistics_source = source
+        with self.hold_sync():
+            self._publish_stats()
 
     def request_figure(
         self, fmt: str, scale: int, reply: Callable[[bytes | None, str], None]
@@ -663,11 +672,16 @@ class BalanceBuilder(anywidget.AnyWidget):
     def _publish_stats(self) -> None:
         part = self._part
         stats = []
+        total, n_used, n_rows, over = self._total, self._n_ok, self.model.n_rows, None
+        if self.statistics_source is not None:
+            over, total, n_used, n_rows = self.statistics_source(part.sbp, part.display)
         for k in range(part.sbp.shape[0]):
             if k < len(self._summary):
                 summary = {key: self._summary[k].get(key) for key in _STAT_KEYS}
             else:  # no statistics (too few rows): the structure only
                 summary = {**dict.fromkeys(_STAT_KEYS), "index": k, "n": 0, "groups": []}
+            if over is not None:
+                summary.update({key: over[k][key] for key in _STAT_KEYS if key in over[k]})
             stats.append(
                 {
                     "id": part.ids[k],
@@ -681,10 +695,12 @@ class BalanceBuilder(anywidget.AnyWidget):
             )
         if self.stats != stats:
             self.stats = stats
-        if self.total_variance != self._total:
-            self.total_variance = self._total
-        if self.n_samples != self._n_ok:
-            self.n_samples = self._n_ok
+        if self.total_variance != total:
+            self.total_variance = total
+        if self.n_samples != n_used:
+            self.n_samples = n_used
+        if self.n_rows != n_rows:
+            self.n_rows = n_rows
 
     def _publish_selection(self) -> None:
         """Statistics of the selected complete rows (cheap: nothing else is resent)."""
