@@ -77,43 +77,21 @@ def default_id_column(metadata: pd.DataFrame) -> str:
 def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[str]]:
     """Triples of active parts that spread the data, one per ternary view.
 
-    Only parts whose median share of the active composition is at least
-    :data:`MIN_SHARE` take part (when three or more do), since a ternary of parts
-    that differ a thousandfold in size piles every point in one corner. For
-    each triple: the pair of those parts with the largest log-ratio variance
-    (variation matrix), and the part that adds most log-ratio variance to both;
-    later triples use the parts not shown yet first.
+    The rule is :func:`compwidgets.core.ternary.spread_triples` (parts of at least
+    :data:`MIN_SHARE` median share; the triples whose points spread most in the
+    triangle; later triples use parts not shown yet first), measured on a seeded
+    sample of the rows.
     """
     active = list(model.active_parts)
     if len(active) < 3:
         raise CompositionError(f"a ternary view needs 3 active parts, got {active}")
-    ok = np.flatnonzero(model.complete_rows(active))
-    if ok.size > MAX_SHARE_ROWS:  # a seeded sample is plenty for a median share
-        ok = np.sort(np.random.default_rng(0).choice(ok, MAX_SHARE_ROWS, replace=False))
-    values = model.part_values(active)[ok]
-    share = np.median(core.closure(values), axis=0) if ok.size else np.zeros(len(active))
-    parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
-    if len(parts) < 3:
-        parts = active
-    if model.complete_rows(active).all():
-        # same rows: the variation matrix of a subcomposition is the sub-block (Aitchison
-        # 1986), so nothing is computed again
-        T = model.variation_matrix(active).loc[parts, parts].to_numpy()
-    else:
-        T = model.variation_matrix(parts).to_numpy()
-    triples: list[list[str]] = []
-    unused = list(range(len(parts)))
-    for _ in range(count):
-        pool = unused if len(unused) >= 3 else list(range(len(parts)))
-        sub = T[np.ix_(pool, pool)]
-        i, j = np.unravel_index(np.argmax(sub), sub.shape)
-        score = sub[i] + sub[j]
-        score[[i, j]] = -np.inf
-        k = int(np.argmax(score))
-        triple = [pool[i], pool[j], pool[k]]
-        triples.append([parts[p] for p in triple])
-        unused = [p for p in unused if p not in triple]
-    return triples
+    values = model.part_values(active)
+    rows = core.ternary.SPREAD_ROWS
+    if model.n_rows > rows:  # the sample spread_triples would draw, taken here: no full copy
+        values = values[np.sort(np.random.default_rng(0).choice(model.n_rows, rows, False))]
+    # a row with a part missing counts for the triples it is complete in
+    triples = core.ternary.spread_triples(values, count, min_share=MIN_SHARE)
+    return [[active[p] for p in triple] for triple in triples]
 
 
 def release_freed_memory() -> None:
@@ -223,6 +201,8 @@ class Workbench(w.AppLayout):
         self.discriminant = following(
             DiscriminantView(model, mode=mode, id_column=ident), "discriminant"
         )
+        for view in self.ternaries:  # their decision boundaries use the discriminant's priors
+            w.link((self.discriminant, "priors"), (view, "boundary_priors"))
         report(5, n_stages, "balance builder")
         self.builder = following(BalanceBuilder(model), "balance builder")
         report(6, n_stages, "parts and variation matrix")

@@ -1,5 +1,7 @@
 """explore(): one call from a table to the linked workbench (kernel-side, no browser)."""
 
+import itertools
+
 import ipywidgets as w
 import numpy as np
 import pandas as pd
@@ -66,23 +68,27 @@ def test_hover_names_samples_by_their_id(table, bench):
     assert all(v.id_column == "sample_id" for v in (*kept.ternaries, kept.biplot))
 
 
-def test_default_ternaries_show_the_most_variable_pair_among_major_parts(bench):
+def test_default_ternaries_are_the_triples_spreading_the_points_most(bench):
     model = bench.model
     (first, second) = default_ternary_parts(model)
     assert len(set(first) | set(second)) == 6  # two ternaries, no part shown twice
-    # independent route: numpy log-ratio variances (ddof=1) on the complete rows,
-    # over the parts holding at least 1 % of the composition (median)
+    # independent route: numpy's covariance of the drawn points of every triple of the
+    # parts holding at least 1 % of the composition (median share of the known parts),
+    # each triple on the rows complete in it
     active = list(model.active_parts)
-    ok = model.complete_rows(active)
-    values = model.part_values(active)[ok]
-    closed = values / values.sum(axis=1, keepdims=True)
-    big = [p for p, s in zip(active, np.median(closed, axis=0), strict=True) if s >= 0.01]
-    logs = np.log(model.part_values(big)[model.complete_rows(big)])
-    best = max(
-        ((a, b) for a in range(len(big)) for b in range(a + 1, len(big))),
-        key=lambda ab: np.var(logs[:, ab[0]] - logs[:, ab[1]], ddof=1),
-    )
-    assert {big[best[0]], big[best[1]]} <= set(first)
+    values = model.part_values(active)
+    shares = values / np.nansum(values, axis=1, keepdims=True)
+    big = [p for p, s in zip(active, np.nanmedian(shares, axis=0), strict=True) if s >= 0.01]
+
+    def spread(triple):
+        v = model.part_values(list(triple))
+        v = v[np.all(v > 0, axis=1)]
+        v = v / v.sum(axis=1, keepdims=True)
+        xy = v @ np.array([[0.5, np.sqrt(3) / 2], [0.0, 0.0], [1.0, 0.0]])
+        return np.trace(np.cov(xy.T, bias=True))
+
+    spreads = {t: spread(t) for t in itertools.combinations(big, 3)}
+    assert tuple(first) == max(spreads, key=spreads.get)
     assert [v.parts for v in bench.ternaries] == [list(first), list(second)]
 
 

@@ -35,13 +35,13 @@ Friedman, J. (2009) The Elements of Statistical Learning, 2nd ed., section 4.3
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
-from ._arrays import MAX_LISTED, CompositionError, Table, as_table, require_positive
+from ._arrays import MAX_LISTED, CompositionError, Table, _listing, as_table, require_positive
 from .outliers import chi2_cutoff, robust_distances
 from .transforms import check_basis, clr_values, default_basis
 
@@ -315,12 +315,40 @@ def _categorical_codes(
     return remap[codes], names  # code -1 (no label) reads the last entry: -1
 
 
+def group_shares(groups, classes: Sequence[str] | None = None) -> dict[str, float]:
+    """Each group's share of the rows that have a group (weights for ``priors``).
+
+    Parameters
+    ----------
+    groups : array-like of shape (n,)
+        A group label per row (None / NaN: no group); a pandas Categorical is read
+        by its codes.
+    classes : sequence of str, optional
+        The groups to count (default: the labels, sorted); rows of other labels
+        are not counted.
+
+    Returns
+    -------
+    dict
+        Group name -> share (the shares sum to 1; groups without rows are left out).
+
+    >>> group_shares(["a", "b", "a", None])
+    {'a': 0.666..., 'b': 0.333...}
+    """
+    codes, names = _group_codes(groups, len(groups), classes)
+    counts = np.bincount(codes[codes >= 0], minlength=len(names))
+    total = counts.sum()
+    if total == 0:
+        raise CompositionError("group_shares: no row has a group")
+    return {name: float(c / total) for name, c in zip(names, counts, strict=True) if c > 0}
+
+
 def fit_discriminant(
     X,
     groups,
     *,
     kind: str = "linear",
-    priors: str = "proportional",
+    priors: str | Mapping[str, float] = "proportional",
     basis=None,
     classes: Sequence[str] | None = None,
     min_group_rows: int | None = None,
@@ -336,9 +364,11 @@ def fit_discriminant(
     groups : array-like of shape (n,)
         A group label per row; rows without one (None, NaN) take no part.
     kind : {"linear", "quadratic"}, default "linear"
-    priors : {"proportional", "equal"}, default "proportional"
+    priors : {"proportional", "equal"} or mapping, default "proportional"
         Prior probabilities: each group's share of the rows given (of the
-        groups fitted), or ``1 / K`` each.
+        groups fitted), ``1 / K`` each, or a weight per group name (positive
+        for every group fitted; scaled to sum to 1 over them), e.g. the
+        shares of another set of rows (:func:`group_shares`).
     basis : array-like of shape (D-1, D), optional
         Orthonormal contrasts of the ilr coordinates (default: the pivot
         basis); the assignments do not depend on it.
@@ -369,8 +399,10 @@ def fit_discriminant(
     )
 
     _check_kind(kind)
-    if priors not in PRIORS:
-        raise CompositionError(f"unknown priors {priors!r}; use 'proportional' or 'equal'")
+    if not isinstance(priors, Mapping) and priors not in PRIORS:
+        raise CompositionError(
+            f"unknown priors {priors!r}; use 'proportional', 'equal' or a weight per group"
+        )
     t = as_table(X, min_parts=2, copy=False)  # only read here
     require_positive(t)
     n, D = t.values.shape
@@ -391,11 +423,19 @@ def fit_discriminant(
     fitted_codes = np.where(codes >= 0, remap[np.maximum(codes, 0)], -1)
     fitted_names = [names[k] for k in kept]
     available = counts[kept]
-    prior = (
-        available / available.sum()
-        if priors == "proportional"
-        else np.full(len(kept), 1 / len(kept))
-    )
+    if isinstance(priors, Mapping):
+        weights = np.array([float(priors.get(name, 0.0)) for name in fitted_names])
+        bad = [n for n, w in zip(fitted_names, weights, strict=True) if not w > 0]
+        if bad or not np.all(np.isfinite(weights)):
+            raise CompositionError(
+                f"priors: no positive finite weight for group(s) {_listing(bad)}; every group "
+                f"fitted needs one (groups: {_listing(fitted_names)})"
+            )
+        prior = weights / weights.sum()
+    elif priors == "proportional":
+        prior = available / available.sum()
+    else:
+        prior = np.full(len(kept), 1 / len(kept))
     rows = stratified_rows(fitted_codes, max_rows, seed, minimum)
     # clr of the fitted rows only (not of every row), laid out as a copy of the input
     # would be (a frame's values column-major, an array's as they are): each row's mean is

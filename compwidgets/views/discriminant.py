@@ -43,11 +43,11 @@ import numpy as np
 import traitlets as t
 
 from ..core import CompositionError, geometry
-from ..core import biplot as core_biplot
 from ..core import discriminant as core_discriminant
 from ..discriminant import CAUTION, GroupDiscriminant
 from ..model import CompositionModel
 from . import _common as cm
+from ._plot_layout import plane_limits
 from ._scatter import ScatterView
 from ._threads import one_blas_thread
 
@@ -250,7 +250,7 @@ class DiscriminantView(ScatterView):
 
     def _plane_ranges(self, xy: np.ndarray):
         corners = geometry.bounding_corners(xy[:, 0], xy[:, 1])  # the same limits, 4 numbers
-        (x0, x1), (y0, y1) = core_biplot.plane_limits(
+        (x0, x1), (y0, y1) = plane_limits(
             corners, np.zeros((0, 2)), aspect_range=(0.75, _MAX_ASPECT)
         )
         legend = (self.legend_width_px + _LEGEND_GAP_PX) / self._plot_height_px()
