@@ -18,6 +18,8 @@ __all__ = ["plane_limits", "ray_label_positions", "text_width_px"]
 _MAX_PUSH_STEPS = 40
 #: Candidate positions of a part name tested at a time (the first free one wins).
 _PUSH_CHUNK = 32
+#: Largest number of candidates tested at a time (chunks grow to it).
+_MAX_CHUNK = 256
 #: Rings of candidates tried beyond ``max_shift`` (out to ``2**_WIDER_RINGS`` times it).
 _WIDER_RINGS = 3
 
@@ -262,16 +264,30 @@ def _pushes(step: float, inner: float, outer: float) -> tuple[np.ndarray, np.nda
 
 def _first_free(origin, a, b, along, side, half, boxes, box_half, tips, r):
     """The first candidate ``origin + a along + b side`` whose box is free, else None."""
-    for first in range(0, a.size, _PUSH_CHUNK):
-        cand = origin + a[first : first + _PUSH_CHUNK, None] * along
-        cand = cand + b[first : first + _PUSH_CHUNK, None] * side  # (m, 2)
-        gap = np.abs(cand[:, None, :] - boxes[None])  # (m, nearby boxes, 2)
-        hits = np.all(gap < half + box_half, axis=2).any(axis=1)
-        near = np.abs(cand[:, None, :] - tips[None]) < half + r
-        covers_tip = np.all(near, axis=2).any(axis=1)
-        free = np.flatnonzero(~(hits | covers_tip))
+    first, size = 0, _PUSH_CHUNK
+    limit = half + box_half  # (boxes, 2): closer centres than this intersect
+    while first < a.size:
+        cand = origin + a[first : first + size, None] * along
+        cand = cand + b[first : first + size, None] * side  # (m, 2)
+        # the candidates of a chunk lie close together: only boxes and tips near the
+        # chunk's own bounding box can be hit
+        lo, hi = cand.min(axis=0), cand.max(axis=0)
+        mid, reach = (lo + hi) / 2, (hi - lo) / 2
+        nb = np.all(np.abs(boxes - mid) < reach + limit, axis=1)
+        gx = np.abs(cand[:, 0, None] - boxes[nb, 0]) < limit[nb, 0]
+        gy = np.abs(cand[:, 1, None] - boxes[nb, 1]) < limit[nb, 1]
+        blocked = (gx & gy).any(axis=1)
+        nt = np.all(np.abs(tips - mid) < reach + half + r, axis=1)
+        if nt.any():
+            tx = np.abs(cand[:, 0, None] - tips[nt, 0]) < half[0] + r
+            ty = np.abs(cand[:, 1, None] - tips[nt, 1]) < half[1] + r
+            blocked |= (tx & ty).any(axis=1)
+        free = np.flatnonzero(~blocked)
         if free.size:
             return cand[free[0]]
+        # chunks grow: most names find room in the first few candidates, a crowded one
+        # tests the rest in fewer, larger steps
+        first, size = first + size, min(2 * size, _MAX_CHUNK)
     return None
 
 
