@@ -155,7 +155,8 @@ class TernaryView(ScatterView):
         )  # fmt: skip
         self._boundary_menu = widgets.Dropdown(
             options=[("linear rule", "linear"), ("quadratic rule", "quadratic")],
-            value="linear", layout=widgets.Layout(width="150px"),
+            value="linear", description="rule", style={"description_width": "initial"},
+            layout=widgets.Layout(width="auto"),
         )  # fmt: skip
         self._boundary_links = [
             t.link((self._boundary_toggle, "value"), (self, "boundaries")),
