@@ -74,7 +74,7 @@ class SelectionBar(w.VBox):
         self.invert_button.on_click(capture(lambda _b: self.model.invert_selection()))
 
         self.group_name = w.Text(
-            placeholder="name of the new group column",
+            placeholder="new column name",
             description="Group",
             style={"description_width": "initial"},
             layout=w.Layout(width="17em"),

@@ -11,7 +11,8 @@ tests alone); then, at each window size, the page is measured:
 * no cell of the grid overlaps another and nothing is wider than the notebook (the grid wraps);
 * no text is cut: every element with its own text (or an input, select or button), visible,
   outside any SVG, whose overflow is not a scroll box, has ``scrollWidth <= clientWidth + 1``,
-  unless it shows its full text on hover (a ``title`` holding it);
+  and the placeholder of an empty field fits in it (measured with a canvas in the field's
+  font), unless it shows its full text on hover (a ``title`` holding it);
 * every SVG text label of a figure lies inside its figure's box;
 * every control has an accessible name.
 
@@ -104,6 +105,19 @@ for (const el of bench.querySelectorAll("*")) {
   clipped.push({el: describe(el), classes: String(el.className), text: text.slice(0, 80),
                 scroll: el.scrollWidth, client: el.clientWidth,
                 whiteSpace: getComputedStyle(el).whiteSpace});
+}
+
+// a placeholder wider than its empty field is cut too (scrollWidth does not count it)
+const pen = document.createElement("canvas").getContext("2d");
+for (const el of bench.querySelectorAll("input[placeholder], textarea[placeholder]")) {
+  if (el.value || !el.placeholder || !visible(el) || el.closest("svg")) continue;
+  const s = getComputedStyle(el);
+  pen.font = `${s.fontStyle} ${s.fontWeight} ${s.fontSize} ${s.fontFamily}`;
+  const room = el.clientWidth - parseFloat(s.paddingLeft) - parseFloat(s.paddingRight);
+  if (pen.measureText(el.placeholder).width <= room + 1) continue;
+  if ((el.getAttribute("title") || "").includes(el.placeholder)) continue;
+  clipped.push({el: describe(el), text: "placeholder: " + el.placeholder.slice(0, 70),
+                need: pen.measureText(el.placeholder).width, room});
 }
 
 // SVG labels inside their figure
