@@ -435,7 +435,11 @@ class BiplotView(ScatterView):
         )
         self._plane_menu.observe(self._guard(self._on_plane_menu), names=["value"])
         self.info = widgets.Textarea(
-            value=_HINT, disabled=True, layout=widgets.Layout(width="260px", height="170px")
+            value=_HINT,
+            disabled=True,
+            description="rays",
+            style={"description_width": "initial"},
+            layout=widgets.Layout(width="300px", height="170px"),
         )
         self.ray_note = widgets.Label(layout=widgets.Layout(margin="0 0 0 12px"))
         self.controls = widgets.HBox([self._scaling_buttons, self._plane_menu, self.ray_note])

@@ -172,7 +172,8 @@ class TernaryView(ScatterView):
         )  # fmt: skip
         self._boundary_menu = widgets.Dropdown(
             options=[("linear rule", "linear"), ("quadratic rule", "quadratic")],
-            value="linear", layout=widgets.Layout(width="150px"),
+            value="linear", description="rule", style={"description_width": "initial"},
+            layout=widgets.Layout(width="auto"),
         )  # fmt: skip
         self._boundary_links = [
             widgets.link((self._centring_toggle, "value"), (self, "centred")),
