@@ -548,3 +548,18 @@ def test_row_labels_round_trip_through_parquet(tmp_path, index):
     own = cw.read_composition(tmp_path / "own", **options).values.compute()
     assert own.index.tolist() == mem.values.index.tolist()
     assert own.index.name == index.name
+
+
+def test_statistics_note_sits_above_the_builder(small):
+    lazy, _ = small
+    bench = cw.explore(lazy, sample_size=1000)
+    holders = []
+    boxes = [bench]
+    while boxes:
+        box = boxes.pop()
+        children = list(getattr(box, "children", ()))
+        if bench.builder in children:
+            holders.append(children)
+        boxes.extend(c for c in children if hasattr(c, "children"))
+    (children,) = holders
+    assert children[children.index(bench.builder) - 1] is bench.statistics_note

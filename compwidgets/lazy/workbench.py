@@ -413,5 +413,19 @@ def explore_lazy(
         f"{lazy.n_rows:,} rows (complete rows of the active parts); quantiles, group "
         f"separation and the selection from the sample of {model.n_rows:,} rows"
     )
-    bench.footer = widgets.VBox([bench.statistics_note, bench.builder])
+    _place_above(bench, bench.builder, bench.statistics_note)
     return bench
+
+
+def _place_above(bench, view, note) -> None:
+    """Put ``note`` right above ``view`` in the box that holds it (the view's grid cell)."""
+    boxes = [bench]
+    while boxes:
+        box = boxes.pop()
+        children = list(getattr(box, "children", ()))
+        if view in children:
+            k = children.index(view)
+            box.children = (*children[:k], note, *children[k:])
+            return
+        boxes.extend(c for c in children if hasattr(c, "children"))
+    bench.children = (*bench.children, note)  # not found: at the end of the workbench
