@@ -16,8 +16,10 @@ view:
   tests, the outline of the last shape and ``selection_shape``;
 * :mod:`._polygon`: polygon vertices clicked one by one;
 * :mod:`._legend`: point colours, group symbols and the legend;
+* :mod:`._density_layer`: the density picture of density mode;
+* :mod:`._hover`: the hover tooltip;
 * this module: building, coordinates and redrawing, points / density modes,
-  the selection highlight, hover, view ranges and closing.
+  the selection highlight, view ranges and closing.
 
 Two modes, chosen by the number of rows shown (``mode="auto"``; threshold
 5,000 rows by default, see DESIGN.md, Scale):
@@ -51,13 +53,13 @@ import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
-from ..core import geometry
 from ..model import CompositionModel
 from . import _common as cm
-from ._density import DensityImage
+from ._density_layer import DensityLayer
 from ._drawing import MODE_LABELS, DrawingTools
 from ._errors import shows_errors
 from ._figure_save import BqplotFigureSource, FigureSaveControl
+from ._hover import HoverTips
 from ._legend import ColourKey, _same
 from ._polygon import PolygonEditing
 
@@ -66,7 +68,7 @@ __all__ = ["ScatterView"]
 _EMPTY_ROWS = np.zeros(0, dtype=np.uint32)
 
 
-class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
+class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTips, widgets.VBox):
     """Base of every scatter-like view bound to a :class:`CompositionModel`.
 
     Parameters
@@ -295,23 +297,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
     def _refresh_extra(self) -> None:
         """Update the subclass's marks after new coordinates or groups."""
 
-    def _hover_lines(self, row: int) -> list[str]:
-        """Text lines of the tooltip of model row ``row`` (``tooltip_max_lines`` are shown)."""
-        return self._hover_heading(row)
-
-    def _hover_heading(self, row: int) -> list[str]:
-        """The first tooltip lines of a row: its sample id, then its group (if any)."""
-        m = self.model
-        if self.id_column:
-            lines = [str(m.metadata[self.id_column].iloc[row])]
-        else:
-            lines = [str(m.index[row])]
-        if m.group_column:
-            categories, codes = m.group_codes()
-            code = int(codes[row])
-            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
-        return lines
-
     @t.validate("id_column")
     def _check_id_column(self, proposal):
         name = proposal["value"]
@@ -342,30 +327,8 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
         )
         xy = {"x": self.scale_x, "y": self.scale_y}
 
-        self._density_image = self._new_density_image()
-        ex = self._density_image.extent
-        # Two picture widgets made once: a new picture goes into the one not shown, which
-        # then becomes the mark's image (bqplot's Image mark redraws when its ``image``
-        # changes, not when the shown widget's value does; seen in Chromium). Messages
-        # reach the front end in order, so the value is there before the switch.
-        blank = self._density_image.render()
-        self._pictures = (
-            widgets.Image(value=blank, format="png"),
-            widgets.Image(value=blank, format="png"),
-        )
-        self._png = self._pictures[0]
-        self.density = bq.Image(
-            image=self._png, x=[ex[0], ex[1]], y=[ex[2], ex[3]], scales=xy, visible=False
-        )
-        self.density.on_element_click(self._guard(self._on_image_click))
-
-        self._tooltip_lines = [
-            widgets.Label(layout=widgets.Layout(height="20px", margin="0px"))
-            for _ in range(int(self.tooltip_max_lines))
-        ]
-        self.hover_box = widgets.VBox(
-            self._tooltip_lines, layout=widgets.Layout(padding="2px 6px")
-        )
+        self._build_density_layer(xy)
+        self._build_hover()
         self.scatter = bq.Scatter(
             x=np.zeros(0, np.float32),
             y=np.zeros(0, np.float32),
@@ -475,13 +438,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
         """Default file name of the saved figure: the kind of view (e.g. "ternary")."""
         name = type(self).__name__
         return (name[: -len("View")] if name.endswith("View") else name).lower() or "figure"
-
-    def _new_density_image(self) -> DensityImage:
-        """An empty density grid over ``_density_extent()``, ``density_pixels`` wide."""
-        ex = self._density_extent()
-        nx = int(self.density_pixels)
-        ny = max(1, int(round(nx * (ex[3] - ex[2]) / (ex[1] - ex[0]))))
-        return DensityImage(ex, (nx, ny))
 
     def _size_figure(self) -> None:
         """Fix the figure's size so one data unit is as long in x as in y (equal aspect)."""
@@ -736,25 +692,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
         self._apply_colours()
         self._apply_selection()
 
-    def _set_density_points(self, cached: bool = False) -> None:
-        """Bin the points shown on the density grid (kept by model row for selections).
-
-        With ``cached`` (coordinates straight from ``_coordinates()``) and a
-        ``_coordinates_key()``, the bin numbers are kept in the model's cache
-        per set of parts, so that showing these parts again does not bin again.
-        """
-        image = self._density_image
-        key = self._coordinates_key() if cached else None
-        index = None
-        if key is not None:
-            x, y = self._x, self._y
-            index = self.model.derived(
-                ("density-bins", type(self).__name__, key, image.extent, image.bins),
-                self.shown_parts(),
-                lambda: geometry.bin_index(x, y, image.extent, image.bins),
-            )
-        image.set_points(self._x, self._y, self.rows, self.model.n_rows, index=index)
-
     def _draw_replaced(self) -> None:
         """Hollow diamonds on the drawn points with a replaced value in the shown parts."""
         mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
@@ -792,24 +729,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
         if self.active_mode == "density":
             self._render_density()
 
-    def _render_density(self, mask: np.ndarray | None = None) -> None:
-        """Show the density image of the rows shown, with the selection on top.
-
-        ``mask`` (model rows) is used when given; otherwise the model's selection
-        is looked up in the bins kept by row (the cost follows the selection's size).
-        """
-        if mask is not None:
-            in_view = mask[self.rows]
-            png = self._density_image.render(in_view if in_view.any() else None)
-        else:
-            png = self._density_image.render_rows(self.model.selection)
-        if png == self._png.value:
-            return
-        spare = self._pictures[1] if self._png is self._pictures[0] else self._pictures[0]
-        spare.value = png
-        self._png = spare
-        self.density.image = spare
-
     def _set_mark_selected(self, pos) -> None:
         if _same(self.scatter.selected, pos):
             return
@@ -843,19 +762,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, widgets.VBox):
 
     def _on_model_parts(self, change) -> None:
         self._on_parts_source_changed()
-
-    def _on_hover(self, mark, content) -> None:
-        point = content.get("point") or content.get("data") or {}
-        index = point.get("index")
-        if index is None or not 0 <= int(index) < self._mark_rows.size:
-            return
-        lines = self._hover_lines(int(self._mark_rows[int(index)]))
-        for label, text in zip(
-            self._tooltip_lines, lines + [""] * len(self._tooltip_lines), strict=False
-        ):
-            if label.value != text:
-                label.value = text
-            label.layout.display = None if text else "none"
 
     # ------------------------------------------------------------------ export
     def save_png(self, path: str = "view.png", scale: float | None = None) -> None:

@@ -65,8 +65,9 @@ import numpy as _np
 from matplotlib.path import Path as _Path
 _box = {box!r}
 _px = _np.asarray({path!r}, dtype=float)
-_x = view.scale_x.min + (_px[:, 0] - _box["x"]) / _box["width"] * (view.scale_x.max - view.scale_x.min)
-_y = view.scale_y.max - (_px[:, 1] - _box["y"]) / _box["height"] * (view.scale_y.max - view.scale_y.min)
+_sx, _sy = view.scale_x, view.scale_y
+_x = _sx.min + (_px[:, 0] - _box["x"]) / _box["width"] * (_sx.max - _sx.min)
+_y = _sy.max - (_px[:, 1] - _box["y"]) / _box["height"] * (_sy.max - _sy.min)
 _in = _Path(_np.column_stack([_x, _y])).contains_points(_np.column_stack([view._x, view._y]))
 _cw_inside = [int(r) for r in view.rows[_in]]
 """
