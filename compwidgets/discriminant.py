@@ -148,15 +148,14 @@ class GroupDiscriminant:
     seed : int, default 0
         Seed of the samples and of the shuffled folds.
     far_quantile : float, default 0.999
-        Chi-square quantile of the far-from-every-group cut-off
-        (:func:`compwidgets.core.discriminant.fit_group_distances`).
+        Quantile of the far-from-every-group cut-off: a new member of a normal
+        group is flagged with probability close to ``1 - far_quantile``
+        (:func:`compwidgets.core.discriminant.mcd_prediction_cutoff`, one cut-off
+        per group from the rows its robust fit used).
     far_rows_per_group : int or None, default 500
-        Rows of each group its robust (MCD) centre and scatter are fitted on.
-        With few rows per coordinate the chi-square cut-off flags more members
-        of a group than ``1 - far_quantile`` (about 5 % at 500 rows for 50
-        coordinates in ``benchmarks/bench_discriminant.py``, none of 24 for 5
-        coordinates in the example notebook): more rows flag fewer, and cost
-        more time.
+        Rows of each group its robust (MCD) centre and scatter are fitted on
+        (a seeded random subset beyond): more rows give steadier estimates and
+        cost more time.
 
     Attributes
     ----------
@@ -347,7 +346,7 @@ class GroupDiscriminant:
             ``group`` (assigned; None where a part is missing or zero),
             ``posterior`` (of that group), ``far`` (True when the robust
             distance to every training group exceeds the cut-off of
-            :attr:`far_cutoff`), ``distance`` (robust distance to the nearest
+            :attr:`far_cutoffs`), ``distance`` (robust distance to the nearest
             group), ``nearest`` (that group), ``note`` (why a row has no
             group), then ``posterior: <group>`` for each group.
         """
@@ -374,9 +373,16 @@ class GroupDiscriminant:
         return out
 
     @property
-    def far_cutoff(self) -> float:
-        """Robust distance beyond which a sample is far from a group (chi-square quantile)."""
-        return self.distances.cutoff
+    def far_cutoffs(self) -> pd.Series:
+        """Robust distance beyond which a sample is far from each group, by group.
+
+        :func:`compwidgets.core.discriminant.mcd_prediction_cutoff` of the rows
+        each group's robust fit used (NaN for a group without one).
+        """
+        gd = self.distances
+        return pd.Series(
+            gd.cutoff_row(), index=pd.Index(self.classes, name="group"), name="cutoff"
+        )
 
     def _frame(self, index, complete, rows, post, Y) -> pd.DataFrame:
         n = len(index)
@@ -399,7 +405,7 @@ class GroupDiscriminant:
                     dmin = np.where(
                         usable, np.nanmin(np.where(np.isfinite(d), d, np.inf), 1), np.nan
                     )
-                far[rows] = dmin > self.distances.cutoff
+                far[rows] = self.distances.far(Y, distances=d)
                 dist[rows] = dmin
                 idx = np.argmin(np.where(np.isfinite(d), d, np.inf), axis=1)
                 nearest[rows] = np.where(usable, names[idx], None)

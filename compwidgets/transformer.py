@@ -28,6 +28,9 @@ from sklearn.utils.validation import check_array, check_is_fitted
 from . import core
 from .core._arrays import is_unlabelled as _unlabelled
 from .core._arrays import match_columns
+from .core.sbp import pivot_sbp
+
+__all__ = ["BalanceTransformer", "TransformerInputError", "pivot_sbp"]
 
 
 class TransformerInputError(core.CompositionError):
@@ -63,19 +66,6 @@ _FINITE = (
     if "ensure_all_finite" in inspect.signature(check_array).parameters
     else "force_all_finite"
 )
-
-
-def pivot_sbp(D: int) -> np.ndarray:
-    """The pivot SBP of D parts: row i opposes part i to the parts after it.
-
-    Its contrast matrix (``core.sbp_basis``) is ``core.default_basis(D)``.
-    """
-    if int(D) != D or D < 2:
-        raise core.SBPError(f"pivot_sbp: need at least 2 parts, got {D!r}")
-    D = int(D)
-    cols = np.arange(D)[None, :]
-    rows = np.arange(D - 1)[:, None]
-    return np.where(cols == rows, 1, np.where(cols > rows, -1, 0)).astype(np.int8)
 
 
 class BalanceTransformer(TransformerMixin, BaseEstimator):

@@ -29,8 +29,6 @@ _HEAD_ROWS = 5000
 
 #: Smallest median share of the active composition for a part in a default ternary.
 MIN_SHARE = 0.01
-#: Rows (a seeded sample beyond) whose median shares choose the default ternary parts.
-MAX_SHARE_ROWS = 100_000
 
 
 def default_group_column(metadata: pd.DataFrame) -> str:
@@ -77,43 +75,21 @@ def default_id_column(metadata: pd.DataFrame) -> str:
 def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[str]]:
     """Triples of active parts that spread the data, one per ternary view.
 
-    Only parts whose median share of the active composition is at least
-    :data:`MIN_SHARE` take part (when three or more do), since a ternary of parts
-    that differ a thousandfold in size piles every point in one corner. For
-    each triple: the pair of those parts with the largest log-ratio variance
-    (variation matrix), and the part that adds most log-ratio variance to both;
-    later triples use the parts not shown yet first.
+    The rule is :func:`compwidgets.core.ternary.spread_triples` (parts of at least
+    :data:`MIN_SHARE` median share; the triples whose points spread most in the
+    triangle; later triples use parts not shown yet first), measured on a seeded
+    sample of the rows.
     """
     active = list(model.active_parts)
     if len(active) < 3:
         raise CompositionError(f"a ternary view needs 3 active parts, got {active}")
-    ok = np.flatnonzero(model.complete_rows(active))
-    if ok.size > MAX_SHARE_ROWS:  # a seeded sample is plenty for a median share
-        ok = np.sort(np.random.default_rng(0).choice(ok, MAX_SHARE_ROWS, replace=False))
-    values = model.part_values(active)[ok]
-    share = np.median(core.closure(values), axis=0) if ok.size else np.zeros(len(active))
-    parts = [p for p, s in zip(active, share, strict=True) if s >= MIN_SHARE]
-    if len(parts) < 3:
-        parts = active
-    if model.complete_rows(active).all():
-        # same rows: the variation matrix of a subcomposition is the sub-block (Aitchison
-        # 1986), so nothing is computed again
-        T = model.variation_matrix(active).loc[parts, parts].to_numpy()
-    else:
-        T = model.variation_matrix(parts).to_numpy()
-    triples: list[list[str]] = []
-    unused = list(range(len(parts)))
-    for _ in range(count):
-        pool = unused if len(unused) >= 3 else list(range(len(parts)))
-        sub = T[np.ix_(pool, pool)]
-        i, j = np.unravel_index(np.argmax(sub), sub.shape)
-        score = sub[i] + sub[j]
-        score[[i, j]] = -np.inf
-        k = int(np.argmax(score))
-        triple = [pool[i], pool[j], pool[k]]
-        triples.append([parts[p] for p in triple])
-        unused = [p for p in unused if p not in triple]
-    return triples
+    values = model.part_values(active)
+    rows = core.ternary.SPREAD_ROWS
+    if model.n_rows > rows:  # the sample spread_triples would draw, taken here: no full copy
+        values = values[np.sort(np.random.default_rng(0).choice(model.n_rows, rows, False))]
+    # a row with a part missing counts for the triples it is complete in
+    triples = core.ternary.spread_triples(values, count, min_share=MIN_SHARE)
+    return [[active[p] for p in triple] for triple in triples]
 
 
 def release_freed_memory() -> None:
@@ -141,8 +117,38 @@ def release_freed_memory() -> None:
 _MALLOC_TRIM = None
 
 
-class Workbench(w.AppLayout):
-    """The linked workbench: picker, triage, two ternaries, biplot, builder, selection bar.
+#: Human names of the views that are not ternaries (shown above each view).
+VIEW_NAMES = {
+    "biplot": "clr biplot",
+    "discriminant": "Group discriminant (ilr)",
+    "builder": "Balance dendrogram",
+    "panels": "Parts and triage",
+}
+
+
+def ternary_title(k: int, parts: Sequence[str]) -> str:
+    """The name of ternary view ``k`` (from 0): "Ternary 1 · MgO–K2O–CaO"."""
+    return f"Ternary {k + 1} \u00b7 " + "\u2013".join(str(p) for p in parts)
+
+
+class Workbench(w.VBox):
+    """The linked workbench: builder, two ternaries, biplot, discriminant, parts, triage.
+
+    The screen, top to bottom:
+
+    * the selection bar: one line of controls that wraps (count, clear, invert,
+      group from the selection, exports of the ilr coordinates, SBP and selected
+      rows);
+    * the progress line of a change of the active parts (hidden otherwise);
+    * a grid of cells, each a view under its human name ("Ternary 1 · A–B–C",
+      "clr biplot", ...), in rows that wrap with the width of the notebook. The
+      first row holds the balance builder (it takes the room left over) next to
+      the ternaries, so that a balance and a brushable view are seen together
+      without scrolling at 1920 x 1080; then the clr biplot, the parts and
+      triage tabs (``sidebar``: a cell of its own, at most about 800 px wide and
+      scrolling inside when taller than the screen) and the discriminant view.
+      On a narrower screen (1366 x 768) the same cells wrap into more rows; no
+      cell is wider than the notebook and text wraps instead of being cut.
 
     Parameters
     ----------
@@ -164,6 +170,13 @@ class Workbench(w.AppLayout):
         Its outlier screening runs when its tab is first opened (then after each
         change of the active parts while it has been shown).
     selection_bar : SelectionBar
+    sidebar : ipywidgets.Tab
+        The "parts" (picker) and "triage" tabs.
+    grid : ipywidgets.Box
+        The cells of the views (CSS class ``cw-grid``).
+    titles : dict of str to ipywidgets.Label
+        The name shown above each cell, by key ("ternary-1", "ternary-2",
+        "biplot", "discriminant", "builder", "panels").
     progress : ProgressLine
         Stage and progress of a change of the active parts (hidden otherwise).
     """
@@ -175,6 +188,7 @@ class Workbench(w.AppLayout):
         mode: str = "auto",
         progress=None,
     ):
+        from .views import _layout
         from .views._progress import ProgressLine
         from .views.biplot import BiplotView
         from .views.builder import BalanceBuilder
@@ -212,18 +226,22 @@ class Workbench(w.AppLayout):
 
         # the biplot first: its fit needs the most memory for a moment, the less is held
         # by then the lower the peak on a long table
-        report(1, n_stages, "clr biplot")
-        self.biplot = following(BiplotView(model, mode=mode, id_column=ident), "clr biplot")
+        report(1, n_stages, VIEW_NAMES["biplot"])
+        self.biplot = following(
+            BiplotView(model, mode=mode, id_column=ident), VIEW_NAMES["biplot"]
+        )
         self.ternaries = []
         for k, p in enumerate(triples):
-            report(2 + k, n_stages, f"ternary {k + 1} ({', '.join(map(str, p))})")
+            report(2 + k, n_stages, ternary_title(k, p))
             view = TernaryView(model, parts=list(p), mode=mode, id_column=ident)
             self.ternaries.append(following(view, f"ternary {k + 1}"))
-        report(4, n_stages, "discriminant")
+        report(4, n_stages, VIEW_NAMES["discriminant"])
         self.discriminant = following(
             DiscriminantView(model, mode=mode, id_column=ident), "discriminant"
         )
-        report(5, n_stages, "balance builder")
+        for view in self.ternaries:  # their decision boundaries use the discriminant's priors
+            w.link((self.discriminant, "priors"), (view, "boundary_priors"))
+        report(5, n_stages, VIEW_NAMES["builder"])
         self.builder = following(BalanceBuilder(model), "balance builder")
         report(6, n_stages, "parts and variation matrix")
         self.picker = following(
@@ -232,31 +250,44 @@ class Workbench(w.AppLayout):
         report(7, n_stages, "triage")
         self.triage = TriagePanel(model)  # screens for outliers when its tab opens
         self.views = [*self.ternaries, self.biplot, self.discriminant]
-        self.selection_bar = SelectionBar(model, views=self.views)
+        self.selection_bar = SelectionBar(model)
         self._watch_parts(self._parts_end)
 
-        # the variation heat map of many parts is wider than the column: it scrolls there
-        sidebar = w.Tab(children=[self.picker, self.triage], layout=w.Layout(overflow="auto"))
+        sidebar = w.Tab(children=[self.picker, self.triage])
         sidebar.titles = ("parts", "triage")
         sidebar.observe(self._tab_changed, names=["selected_index"])
         self.sidebar = sidebar
-        # each view keeps its own (equal-aspect) width; the row wraps on narrow screens
-        plots = w.Box(
-            children=self.views,
-            layout=w.Layout(display="flex", flex_flow="row wrap", grid_gap="8px"),
-        )
+
+        self.titles: dict[str, w.Label] = {}
+        cells = []
+
+        def cell(key: str, title: str, view, kind: str):
+            self.titles[key] = w.Label(value=title)
+            cells.append(_layout.titled(self.titles[key], view, kind))
+
+        cell("builder", VIEW_NAMES["builder"], self.builder, "builder")
+        for k, view in enumerate(self.ternaries):
+            cell(f"ternary-{k + 1}", ternary_title(k, view.parts), view, "view")
+            view.observe(self._retitle(k), names=["parts"])
+        cell("biplot", VIEW_NAMES["biplot"], self.biplot, "view")
+        cell("panels", VIEW_NAMES["panels"], sidebar, "panels")
+        cell("discriminant", VIEW_NAMES["discriminant"], self.discriminant, "view")
+        self.grid = _layout.grid(cells)
         super().__init__(
-            header=self.selection_bar,
-            left_sidebar=sidebar,
-            center=w.VBox([self.progress, plots]),
-            footer=self.builder,
-            pane_widths=["420px", 1, 0],
-            grid_gap="8px",
+            children=[_layout.stylesheet(), self.selection_bar, self.progress, self.grid],
+            layout=w.Layout(grid_gap="8px"),
         )
-        # every row as tall as its content (AppLayout's own sizes are fixed or fractions)
-        self.layout.grid_template_rows = "auto auto auto"
-        self.add_class("cw-workbench")
+        self.add_class(_layout.ROOT)
         report(n_stages, n_stages, "ready")
+
+    def _retitle(self, k: int):
+        def retitle(change) -> None:
+            text = ternary_title(k, change["new"])
+            label = self.titles[f"ternary-{k + 1}"]
+            if label.value != text:
+                label.value = text
+
+        return retitle
 
     # ----------------------------------------------------------- progress
     def _watch_parts(self, handler) -> None:

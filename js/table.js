@@ -265,6 +265,7 @@ function drawRow(doc, row, active, grouped) {
   );
   input.value = row.customName;
   input.placeholder = row.defaultName;
+  input.title = row.customName || row.defaultName; // the whole name on hover (the field is narrow)
   nameCell.appendChild(input);
   tr.appendChild(nameCell);
   tr.appendChild(html(doc, "td", { class: "cw-parts", "data-role": "numerator" }, partsLabel(row.numerator)));

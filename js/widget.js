@@ -2,7 +2,7 @@
 //
 // The kernel owns the truth: this view proposes a new tree by setting the synced trait
 // "tree"; the kernel validates it, updates the shared model and sends the statistics
-// back (or sends the last valid tree back with a message in "error"). Undo / redo keep
+// back (or sends the last valid tree back with a message in "messages"). Undo / redo keep
 // snapshots of the trees here. All text from the data is set with textContent.
 //
 // Keyboard focus stays in the builder after every action (split, merge, unsplit, undo,
@@ -12,7 +12,7 @@
 // the next Ctrl+Z still reaches the builder.
 //
 // Synced traits read here: parts, tree, stats, selection_summary, total_variance,
-// n_selected, n_samples, n_rows, groups, error, busy, progress, colour_balance,
+// n_selected, n_samples, n_rows, groups, messages, busy, progress, colour_balance,
 // figure_control (a reference to the kernel's figure-saving control, shown under the
 // dendrogram through the page's widget manager). Written here: tree, colour_balance.
 // Custom messages sent: {type: "suggest", method}, and the answers to the kernel's
@@ -57,7 +57,7 @@ const WATCHED = [
   "n_samples",
   "n_rows",
   "groups",
-  "error",
+  "messages",
   "busy",
   "progress",
   "colour_balance",
@@ -351,7 +351,7 @@ export function render({ model, el }) {
     rowsLine.toggleAttribute("hidden", !rowsLine.textContent);
     progressLine.textContent = busy ? String(model.get("progress") || "computing\u2026") : "";
     progressLine.toggleAttribute("hidden", !busy);
-    const message = String(model.get("error") || state.localError || "");
+    const message = String(model.get("messages") || state.localError || "");
     errorLine.textContent = message;
     errorLine.toggleAttribute("hidden", !message);
 

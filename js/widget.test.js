@@ -22,7 +22,7 @@ function setup(extra = {}) {
     n_selected: 7,
     n_samples: 40,
     groups: [],
-    error: "",
+    messages: "",
     busy: false,
     progress: "",
     colour_balance: "",
@@ -152,7 +152,7 @@ test("a refused edit: the kernel sends the old tree back, the error shows, no un
   const t = setup();
   splitByKeyboard(t);
   assert.equal(t.one("undo").disabled, false);
-  t.model.kernel({ tree: ROOT, error: "change refused: a reason <b>not bold</b>." });
+  t.model.kernel({ tree: ROOT, messages: "change refused: a reason <b>not bold</b>." });
   assert.equal(t.one("error").textContent, "change refused: a reason <b>not bold</b>.");
   assert.equal(t.el.querySelectorAll("b").length, 0);
   assert.equal(t.one("error").hidden, false);

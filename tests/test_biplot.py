@@ -29,10 +29,8 @@ from compwidgets.core.biplot import (
     link_length,
     logratio_sd,
     nice_factor,
-    plane_limits,
     ray_associations,
     ray_display_factor,
-    ray_label_positions,
 )
 
 TOL = {"rtol": 1e-8, "atol": 1e-9}
@@ -389,34 +387,6 @@ def test_logratio_sd_is_numpy_std_in_either_scaling(scaling):
     assert logratio_sd(b, "x2", "x2") == 0.0
 
 
-def test_plane_limits_contain_everything_and_respect_aspect():
-    rng = np.random.default_rng(0)
-    pts = rng.normal(size=(50, 2)) * [10.0, 0.5]  # very wide cloud
-    pts[3] = np.nan  # ignored
-    tips = np.array([[1.0, 2.0], [-0.5, -3.0]])
-    (x0, x1), (y0, y1) = plane_limits(pts, tips, pad=0.05, right_margin=0.2)
-    finite = pts[np.isfinite(pts).all(axis=1)]
-    for a in (finite, tips, np.zeros((1, 2))):
-        assert np.all(a[:, 0] > x0) and np.all(a[:, 0] < x1)
-        assert np.all(a[:, 1] > y0) and np.all(a[:, 1] < y1)
-    assert (x1 - x0) / (y1 - y0) <= 2.0 + 1e-12
-    assert x1 - finite[:, 0].max() > 0.2 * np.ptp(finite[:, 0])  # room for a legend
-    (a0, a1), (b0, b1) = plane_limits(np.zeros((0, 2)), np.zeros((2, 2)))
-    assert a0 < 0 < a1 and b0 < 0 < b1  # nothing to show: still a valid window
-
-
-def test_ray_label_positions_along_rays():
-    tips = np.array([[3.0, 4.0], [0.0, 0.0], [-1.0, 0.0]])
-    pos = ray_label_positions(tips, 0.5)
-    np.testing.assert_allclose(pos, [[3.3, 4.4], [0.0, 0.0], [-1.5, 0.0]])
-
-
-def test_ray_label_positions_zero_ray_without_boxes_stays_at_origin():
-    # Unchanged behaviour without box sizes, by hand: the offset along each unit ray.
-    pos = ray_label_positions(np.array([[0.0, -2.0], [0.0, 0.0]]), 0.25)
-    np.testing.assert_allclose(pos, [[0.0, -2.25], [0.0, 0.0]])
-
-
 # ---------------------------------------------------------- display scale of the rays
 
 
@@ -505,133 +475,3 @@ def test_ray_factor_bad_options():
         ray_display_factor(b, true_length_range=(2.0, 1.0))
     with pytest.raises(CompositionError, match="component 9 is not one of"):
         ray_display_factor(b, (0, 9))
-
-
-# ------------------------------------------------------------------ ray label placement
-
-
-def _boxes_intersect(centres: np.ndarray, half: np.ndarray) -> list[tuple[int, int]]:
-    """Pairs of axis-aligned boxes whose interiors intersect (numpy, by definition)."""
-    gap = np.abs(centres[:, None, :] - centres[None, :, :])
-    touch = np.all(gap < half[:, None, :] + half[None, :, :] - 1e-12, axis=2)
-    return [(i, j) for i, j in zip(*np.nonzero(np.triu(touch, 1)), strict=True)]
-
-
-def _fan(n: int = 8):
-    """n rays within 7 degrees and 8 % in length of each other: their names pile up."""
-    angle = np.deg2rad(30.0 + np.arange(n))
-    length = 1.0 + 0.01 * np.arange(n)[::-1]
-    tips = np.column_stack([length * np.cos(angle), length * np.sin(angle)])
-    names = [f"part{i}" for i in range(n)]
-    sizes = np.array([[0.05 * len(name), 0.12] for name in names])
-    return tips, sizes
-
-
-def test_ray_labels_of_a_fan_do_not_overlap():
-    tips, sizes = _fan(8)
-    half = sizes / 2
-    offset, radius = 0.02, 0.03
-    # control: just beyond each tip (no moves allowed) the boxes do overlap
-    first = ray_label_positions(tips, offset, box_sizes=sizes, max_shift=1e-9, tip_radius=radius)
-    assert len(_boxes_intersect(first, half)) >= 10
-    pos = ray_label_positions(tips, offset, box_sizes=sizes, tip_radius=radius)
-    assert _boxes_intersect(pos, half) == []
-    # no box comes within the dot radius of any tip (its own included)
-    near = np.all(np.abs(pos[:, None, :] - tips[None]) < half[:, None, :] + radius, axis=2)
-    assert not near.any()
-    # every label stays near its tip: within the documented bound (default max_shift = 8
-    # times the tallest box), and on the far side of its tip along its ray
-    bound = offset + radius + 8 * sizes[:, 1].max() + np.hypot(*(half + radius).T)
-    assert np.all(_norms(pos - tips) <= bound)
-    unit = tips / _norms(tips)[:, None]
-    assert np.all(np.sum((pos - tips) * unit, axis=1) >= offset)
-    # deterministic: the same call gives the same positions, bit for bit
-    again = ray_label_positions(tips, offset, box_sizes=sizes, tip_radius=radius)
-    np.testing.assert_array_equal(pos, again)
-
-
-def test_ray_label_clears_its_tip_when_nothing_is_in_the_way():
-    # By hand: four rays along the axes, far apart. Each box edge is `offset` beyond the dot.
-    tips = np.array([[2.0, 0.0], [0.0, -3.0], [-1.0, 0.0], [0.0, 0.5]])
-    sizes = np.array([0.4, 0.2])  # one size for every label
-    pos = ray_label_positions(tips, 0.1, box_sizes=sizes, tip_radius=0.05)
-    np.testing.assert_allclose(
-        pos, [[2.35, 0.0], [0.0, -3.25], [-1.35, 0.0], [0.0, 0.75]], atol=1e-12
-    )
-    # a ray of zero length has its name above its tip
-    pos0 = ray_label_positions(np.zeros((1, 2)), 0.1, box_sizes=sizes)
-    np.testing.assert_allclose(pos0, [[0.0, 0.2]], atol=1e-12)
-
-
-def test_ray_labels_that_cannot_be_placed_stay_just_beyond_their_tip():
-    # 60 names on one tip, at most 2 box heights of moves: most cannot be placed. The call
-    # ends (one pass) and those stay where they clear the tip.
-    tips = np.tile([[1.0, 1.0]], (60, 1))
-    sizes = np.array([0.3, 0.1])
-    start = ray_label_positions(tips, 0.05, box_sizes=sizes, max_shift=1e-12)
-    np.testing.assert_allclose(start, np.tile(start[0], (60, 1)))
-    pos = ray_label_positions(tips, 0.05, box_sizes=sizes, max_shift=0.2)
-    assert np.all(np.isfinite(pos))
-    stayed = np.all(np.isclose(pos, start[0]), axis=1)
-    assert 30 < stayed.sum() < 60  # some were placed, most stayed
-    assert np.all(_norms(pos - start) <= 0.2 + 1e-12)
-    moved = pos[~stayed]
-    assert _boxes_intersect(moved, np.tile(sizes / 2, (len(moved), 1))) == []
-
-
-def test_ray_label_positions_rejects_bad_boxes():
-    tips = np.array([[1.0, 0.0]])
-    with pytest.raises(CompositionError, match="box sizes"):
-        ray_label_positions(tips, 0.1, box_sizes=[-1.0, 0.2])
-    with pytest.raises(CompositionError, match="tip_radius"):
-        ray_label_positions(tips, 0.1, box_sizes=[1.0, 0.2], tip_radius=-1.0)
-
-
-def reference_label_positions(tips, offset, boxes, tip_radius):
-    """The placement rule of ``ray_label_positions`` written out with plain loops (one
-    candidate and one box at a time), as its docstring states it."""
-    T = np.asarray(tips, dtype=float)
-    D = T.shape[0]
-    half = boxes / 2
-    length = np.hypot(T[:, 0], T[:, 1])
-    along = np.array([T[i] / length[i] if length[i] > 0 else [0.0, 1.0] for i in range(D)])
-    side = np.column_stack([-along[:, 1], along[:, 0]])
-    reach = offset + (half[:, 0] + tip_radius) * np.abs(along[:, 0])
-    reach = reach + (half[:, 1] + tip_radius) * np.abs(along[:, 1])
-    start = T + along * reach[:, None]
-    tallest = boxes[:, 1].max()
-    step, max_shift = tallest / 2, 8 * tallest
-    k = int(np.floor(max_shift / step + 1e-9))
-    pushes = [
-        (a, b)
-        for a in range(k + 1)
-        for b in range(-k, k + 1)
-        if np.hypot(a, b) * step <= max_shift * (1 + 1e-9)
-    ]
-    # nearest first; then smaller |b|, outward (smaller a), left (larger b) first
-    pushes.sort(key=lambda ab: (np.hypot(*ab), abs(ab[1]), ab[0], -ab[1]))
-    placed: list[int] = []
-    out = start.copy()
-    for i in sorted(range(D), key=lambda i: -length[i]):
-        for a, b in pushes:
-            c = start[i] + a * step * along[i] + b * step * side[i]
-            hit = any(np.all(np.abs(c - out[j]) < half[i] + half[j]) for j in placed)
-            tip = any(np.all(np.abs(c - T[j]) < half[i] + tip_radius) for j in range(D))
-            if not hit and not tip:
-                out[i] = c
-                break
-        placed.append(i)
-    return out
-
-
-@settings(max_examples=25, deadline=None)
-@given(st.integers(2, 14), st.integers(0, 10_000), st.floats(0.05, 1.0))
-def test_label_positions_follow_their_rule(D, seed, spread):
-    # crowded and sparse layouts alike: the vectorised placement (chunks of candidates,
-    # nearby boxes only) gives the positions of the rule applied one candidate at a time
-    rng = np.random.default_rng(seed)
-    tips = rng.normal(size=(D, 2)) * spread
-    boxes = np.column_stack([rng.uniform(0.05, 0.4, D), np.full(D, 0.08)])
-    got = core.biplot.ray_label_positions(tips, 0.02, box_sizes=boxes, tip_radius=0.01)
-    expected = reference_label_positions(tips, 0.02, boxes, 0.01)
-    np.testing.assert_allclose(got, expected, atol=1e-12)

@@ -769,12 +769,12 @@ def _label_boxes_px(view):
     Box size from the view's own character widths (the same estimate that places them);
     a fixed 7 px per character would be a rougher, independent bound.
     """
-    from compwidgets.views import biplot as vb
+    from compwidgets.views._plot_layout import text_width_px
 
     (x0, x1), (y0, y1) = view.view_ranges
     px = view._plot_height_px() / (y1 - y0)
     centres = np.column_stack([view.ray_labels.x, view.ray_labels.y]).astype(float) * px
-    half = np.array([[vb._text_width_px(str(n)) / 2, 7.0] for n in view.ray_labels.text])
+    half = np.array([[text_width_px(str(n)) / 2, 7.0] for n in view.ray_labels.text])
     return centres, half, px
 
 

@@ -139,7 +139,7 @@ def test_starts_as_one_group_of_all_parts(builder, model):
         {"code": 0, "name": "north", "colour": group_colours(["north", "south"])[0]},
         {"code": 1, "name": "south", "colour": group_colours(["north", "south"])[1]},
     ]
-    assert builder.error == ""
+    assert builder.messages == ""
 
 
 def test_needs_a_model():
@@ -215,22 +215,22 @@ def _bad_trees():
 @pytest.mark.parametrize(("label", "bad", "words"), list(_bad_trees()), ids=lambda x: str(x)[:24])
 def test_invalid_tree_from_front_end_is_refused(builder, model, label, bad, words):
     from_front_end(builder, tree=first_split())
-    assert builder.error == ""
+    assert builder.messages == ""
     sbp_before = model.sbp.copy()
     names_before = list(model.balance_names)
     builder.comm.sent.clear()
 
     from_front_end(builder, tree=bad)
 
-    assert builder.error.startswith("change refused:")
-    assert words in builder.error
+    assert builder.messages.startswith("change refused:")
+    assert words in builder.messages
     assert np.array_equal(model.sbp, sbp_before)
     assert model.balance_names == names_before
     assert builder.tree == first_split()
     # the front end is told: the last valid tree and the message go back
     states = sent_states(builder)
     assert any(s.get("tree") == first_split() for s in states)
-    assert any(s.get("error", "").startswith("change refused:") for s in states)
+    assert any(s.get("messages", "").startswith("change refused:") for s in states)
 
 
 def test_refused_tree_keeps_model_without_sbp(builder, model):
@@ -238,7 +238,7 @@ def test_refused_tree_keeps_model_without_sbp(builder, model):
     from_front_end(builder, tree=bad)
     assert model.sbp is None
     assert builder.tree == leaf("n0", PARTS)
-    assert "Cc" in builder.error
+    assert "Cc" in builder.messages
 
 
 def test_front_end_message_path_end_to_end(builder, model, caplog):
@@ -263,7 +263,7 @@ def test_valid_splits_update_model_sbp_and_stats(builder, model):
     from_front_end(builder, tree=two_splits())
     # SBP written by hand: columns Aa, Bb, Cc, Dd, X
     expected = np.array([[1, 1, -1, -1, -1], [0, 0, 1, -1, -1]], dtype=np.int8)
-    assert builder.error == ""
+    assert builder.messages == ""
     assert np.array_equal(model.sbp, expected)
     assert model.balance_names == [f"Aa,Bb | Cc,Dd,{HTML_PART}", f"Cc | Dd,{HTML_PART}"]
 
@@ -324,7 +324,7 @@ def test_rename_reaches_the_model_and_duplicates_are_refused(builder, model):
     clash["name"] = "Cc vs rest"
     clash["children"][1]["name"] = "Cc vs rest"
     from_front_end(builder, tree=clash)
-    assert "used twice" in builder.error
+    assert "used twice" in builder.messages
     assert model.balance_names[1] == "Cc vs rest"
     assert model.balance_names[0] == f"Aa,Bb | Cc,Dd,{HTML_PART}"
 
@@ -430,7 +430,7 @@ def test_unknown_colour_balance_is_refused(builder, model):
     from_front_end(builder, colour_balance="n0")
     from_front_end(builder, colour_balance="n4")  # a leaf id, not a balance
     assert builder.colour_balance == "n0"
-    assert "n4" in builder.error
+    assert "n4" in builder.messages
     assert model.colour_by == model.balance_names[0]
 
 
@@ -486,7 +486,7 @@ def _clr_by_definition() -> np.ndarray:
 def test_principal_suggestion_message(builder, model):
     builder._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
     expected = principal.principal_balances(_clr_by_definition(), kind="clr")
-    assert builder.error == ""
+    assert builder.messages == ""
     validate_tree(builder.tree, PARTS)
     assert np.array_equal(model.sbp, expected)
     assert len(builder.stats) == len(PARTS) - 1
@@ -501,7 +501,7 @@ def test_ward_suggestion_message(builder, model):
 
 def test_unknown_suggestion_is_an_error(builder, model):
     builder._handle_custom_msg({"type": "suggest", "method": "astrology"}, [])
-    assert "astrology" in builder.error
+    assert "astrology" in builder.messages
     assert model.sbp is None
 
 
@@ -566,15 +566,15 @@ def test_statistics_and_suggestions_use_the_complete_rows(recording_comms):
 def test_too_few_complete_rows_is_said_and_the_tree_still_works(recording_comms):
     model = _model_with_missing([0, 1], n=3)
     b = BalanceBuilder(model)
-    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
+    assert "only 1 row has a positive value" in b.messages and "at least 2 rows" in b.messages
     assert b.total_variance is None
     from_front_end(b, tree=first_split())
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
     assert b.stats[0]["variance"] is None
     assert b.stats[0]["numerator"] == PARTS[:2]
-    assert "only 1 row has a positive value" in b.error and "at least 2 rows" in b.error
+    assert "only 1 row has a positive value" in b.messages and "at least 2 rows" in b.messages
     b._handle_custom_msg({"type": "suggest", "method": "principal"}, [])
-    assert b.error.startswith("no suggestion:")
+    assert b.messages.startswith("no suggestion:")
     assert np.array_equal(model.sbp, [[1, 1, -1, -1, -1]])
     b.close()
 

@@ -116,3 +116,15 @@ def test_import_scanner_sees_nested_imports():
         "import numpy\ndef f():\n    import traitlets.config\n    from ipywidgets import Box\n"
     )
     assert _imported_roots(source) == {"numpy", "traitlets", "ipywidgets"}
+
+
+def test_the_plot_layout_of_the_views_imports_no_widget_library():
+    # views/_plot_layout.py holds the layout code that left core: it stays widget-free
+    path = CORE_DIR.parent / "views" / "_plot_layout.py"
+    found = _imported_roots(path.read_text(encoding="utf-8")) & set(WIDGET_LIBRARIES)
+    assert not found, f"views/_plot_layout.py imports {sorted(found)}"
+    # and core keeps no label placement or plot limits (they moved there)
+    import compwidgets.core.biplot as core_biplot
+
+    assert not hasattr(core_biplot, "ray_label_positions")
+    assert not hasattr(core_biplot, "plane_limits")

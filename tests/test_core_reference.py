@@ -61,6 +61,18 @@ def test_default_basis_is_reversed_negated_helmert(D):
     np.testing.assert_allclose(core.default_basis(D), -helmert(D)[::-1, ::-1], **TOL)
 
 
+@pytest.mark.parametrize("D", [2, 3, 5, 8])
+def test_pivot_sbp_has_the_pivot_basis_as_contrasts(D):
+    # Source: scipy.linalg.helmert(D) (full=False), reversed and negated as in
+    # test_default_basis_is_reversed_negated_helmert: the contrasts of the pivot SBP
+    # (part i against the parts after it) are that basis
+    sbp = core.pivot_sbp(D)
+    assert sbp.dtype == np.int8 and sbp.shape == (D - 1, D)
+    np.testing.assert_allclose(core.sbp_basis(sbp), -helmert(D)[::-1, ::-1], **TOL)
+    with pytest.raises(core.SBPError, match="at least 2 parts"):
+        core.pivot_sbp(1)
+
+
 @PROPERTY_SETTINGS
 @given(positive_compositions())
 def test_helmert_basis_gives_the_same_ilr_distances(X):

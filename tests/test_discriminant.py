@@ -34,6 +34,7 @@ from sklearn.model_selection import StratifiedKFold, cross_val_predict
 from compwidgets import core
 from compwidgets.core import CompositionError
 from compwidgets.core import discriminant as cd
+from compwidgets.core.outliers import robust_distances
 
 GROUPS = ["north", "south", "west"]
 
@@ -273,22 +274,68 @@ def test_boundaries_need_three_parts():
         cd.decision_boundaries(cd.fit_discriminant(X, labels))
 
 
-def test_group_distances_are_mcd_distances_with_a_chi_square_cutoff():
+def test_group_distances_are_mcd_distances_with_a_prediction_cutoff():
     X, labels = invented_groups(n_per=(120, 100, 110), spread=0.3)
     fit = cd.fit_discriminant(X, labels)
     Y = fit.coordinates(X)
     y = codes_of(labels, fit.classes)
     gd = cd.fit_group_distances(fit, Y, y, quantile=0.999, seed=0)
-    # Source: scipy.stats.chi2 quantile of the squared distance, p = D - 1
-    assert gd.cutoff == pytest.approx(np.sqrt(stats.chi2.ppf(0.999, 4)))
+    p = 4
+    for k, n in zip(range(3), (120, 100, 110), strict=True):
+        assert gd.fitted_rows[k] == n
+        # Source: Johnson & Wichern, Applied Multivariate Statistical Analysis, ch. 5, the
+        # prediction region of a new observation, (m - 1) p (m + 1) / (m (m - p)) F(p, m - p),
+        # with m = (n + p + 1) // 2, the MCD subset size (sklearn MinCovDet's default);
+        # quantiles from scipy.stats.f
+        m = (n + p + 1) // 2
+        expected = np.sqrt((m - 1) * p * (m + 1) / (m * (m - p)) * stats.f.ppf(0.999, p, m - p))
+        assert gd.cutoffs[k] == pytest.approx(expected, rel=1e-12)
+        assert gd.cutoffs[k] > np.sqrt(stats.chi2.ppf(0.999, p))  # wider than the chi-square
     # Source: sklearn.covariance.MinCovDet on each group's rows (same seed)
     d = gd.distances(Y)
     for k in range(3):
         mcd = MinCovDet(random_state=0).fit(Y[y == k])
         np.testing.assert_allclose(d[:, k], np.sqrt(mcd.mahalanobis(Y)), rtol=1e-8)
-    assert gd.far(Y).mean() < 0.05  # training rows are mostly near their group
+    far = gd.far(Y)
+    np.testing.assert_array_equal(far, (d > gd.cutoff_row()).all(axis=1))
+    np.testing.assert_array_equal(gd.far(Y, distances=d), far)
+    assert far.mean() < 0.05  # training rows are mostly near their group
     far_away = Y.mean(axis=0) + 30 * Y.std(axis=0)
     assert gd.far(far_away[None, :])[0]
+
+
+@pytest.mark.parametrize(("p", "n"), [(5, 100), (20, 500), (49, 500)])
+def test_far_flag_rate_on_new_members_is_near_its_nominal_level(p, n):
+    # Seeded simulation: new samples from the same normal population as the training group.
+    # The cut-off promises P(far | member) close to 1 - quantile = 0.001. The chi-square
+    # cut-off with estimates treated as known gave about 0.08 at p = 49, n = 500 (seen while
+    # writing this test); the bound below (5x nominal over 3 groups x 4,000 draws, i.e. a
+    # binomial standard error of about 0.0003 at the nominal rate) fails for it.
+    rng = np.random.default_rng(20261202 + p)
+    quantile = 0.999
+    rates = []
+    for _ in range(3):
+        A = rng.normal(size=(p, p))
+        cov = A @ A.T + p * np.eye(p)
+        L = np.linalg.cholesky(cov)
+        train = rng.normal(size=(n, p)) @ L.T
+        new = rng.normal(size=(4000, p)) @ L.T
+        r = robust_distances(train, quantile=quantile, random_state=0)
+        d = new - r.location
+        d2 = np.einsum("ij,jk,ik->i", d, np.linalg.inv(r.covariance), d)
+        cut = cd.mcd_prediction_cutoff(n, p, quantile)
+        rates.append(float((d2 > cut**2).mean()))
+    rate = float(np.mean(rates))
+    assert rate <= 5 * (1 - quantile), rates
+    # and not so wide that it never flags: at least a tenth of the nominal rate
+    assert rate >= 0.1 * (1 - quantile), rates
+
+
+def test_mcd_prediction_cutoff_refuses_too_few_rows():
+    with pytest.raises(CompositionError, match="more fitted rows than coordinates"):
+        cd.mcd_prediction_cutoff(5, 5, 0.999)
+    with pytest.raises(CompositionError, match="quantile"):
+        cd.mcd_prediction_cutoff(50, 5, 1.0)
 
 
 def test_small_groups_are_left_out_and_named():

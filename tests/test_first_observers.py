@@ -41,7 +41,7 @@ def test_bar_and_builder_answer_before_a_view_made_earlier(model):
     bar.count_label.observe(lambda change: order.append("bar"), names=["value"])
     model.select([1, 2, 3])
     assert order[-1] == "view" and set(order[:-1]) == {"builder", "bar"}
-    assert bar.count_label.value == "3 of 40 samples selected"
+    assert bar.count_label.value == "3 of 40 rows selected"
     bar.close()
     builder.close()
     order.clear()

@@ -129,8 +129,8 @@ def test_fewer_than_two_parts_are_refused_with_a_message(picker, model, chosen):
     seen = changes(model, "active_parts")
     picker.parts_select.value = chosen
     assert state(model) == before and seen == []
-    assert "at least 2 active parts" in picker.message.value
-    assert "Qz, Fsp, Mica" in picker.message.value  # says what the views keep
+    assert "at least 2 active parts" in picker.status.value
+    assert "Qz, Fsp, Mica" in picker.status.value  # says what the views keep
     picker.set_active_parts(["Qz", "Fsp", "Mica"])  # back to the model's choice
     assert set(picker.parts_select.value) == {"Qz", "Fsp", "Mica"}
 
@@ -139,7 +139,7 @@ def test_set_active_parts_refuses_unknown_parts(picker, model):
     before = state(model)
     assert picker.set_active_parts(["Qz", "Basalt"]) is False
     assert state(model) == before
-    assert "Basalt" in picker.message.value
+    assert "Basalt" in picker.status.value
 
 
 # --------------------------------------------------------------- amalgamations
@@ -196,14 +196,14 @@ def test_invalid_amalgamations_leave_the_model_unchanged(picker, model, name, me
     seen = changes(model, "amalgamations")
     assert picker.add_amalgamation(name, members) is False
     assert state(model) == before and seen == []
-    assert message in picker.message.value
-    assert picker.message.value.startswith("Amalgamation not added")
+    assert message in picker.status.value
+    assert picker.status.value.startswith("Amalgamation not added")
 
 
 def test_removing_an_unknown_amalgamation_is_refused(picker, model):
     before = state(model)
     assert picker.remove_amalgamation("nope") is False
-    assert state(model) == before and "'nope' is not defined" in picker.message.value
+    assert state(model) == before and "'nope' is not defined" in picker.status.value
 
 
 # ----------------------------------------------------------------- ternaries
@@ -222,7 +222,7 @@ def test_a_part_chosen_twice_is_refused(picker, ternary):
     a, b, c = picker.ternary_dropdowns[0]
     b.value = "Qz"
     assert list(ternary.parts) == ["Qz", "Fsp", "Lith"]
-    assert "Qz is chosen twice" in picker.message.value
+    assert "Qz is chosen twice" in picker.status.value
     a.value = "Fsp"  # a swap finishes: both drop-downs now make a valid triple
     assert list(ternary.parts) == ["Fsp", "Qz", "Lith"]
 
@@ -232,7 +232,7 @@ def test_ternary_may_not_show_an_amalgamation_with_its_member(picker, ternary):
     before = list(ternary.parts)
     assert picker.set_ternary_parts(0, ["QF", "Qz", "Lith"]) is False
     assert list(ternary.parts) == before
-    assert "Qz would be counted twice" in picker.message.value
+    assert "Qz would be counted twice" in picker.status.value
     assert picker.set_ternary_parts(0, ["QF", "Lith", "Mica"]) is True
     assert list(ternary.parts) == ["QF", "Lith", "Mica"]
 
@@ -250,7 +250,7 @@ def test_heat_table_equals_the_variation_matrix_by_definition(picker, model, fra
     # total variance = sum_ij T_ij / (2 D) (Aitchison 1986)
     assert picker.total_variance == pytest.approx(T.sum() / (2 * len(PARTS)), rel=1e-10)
     assert f"{T.sum() / (2 * len(PARTS)):.3f}" in picker.total_label.value
-    assert "39 of 40 rows" in picker.rows_label.value and "1 row(s)" in picker.rows_label.value
+    assert "39 of 40 rows" in picker.rows_label.value and "1 row with" in picker.rows_label.value
 
 
 def test_heat_table_follows_the_active_parts(picker, model, frame):
@@ -334,7 +334,7 @@ def test_bulk_choices_by_unit_majors_and_traces():
     assert picker.choose("unit:ppm", "remove")
     assert model.active_parts == ["SiO2", "Al2O3", "CaO"]
     assert not picker.choose("majors", "remove")  # nothing would be left: refused, said so
-    assert model.active_parts == ["SiO2", "Al2O3", "CaO"] and "not changed" in picker.message.value
+    assert model.active_parts == ["SiO2", "Al2O3", "CaO"] and "not changed" in picker.status.value
     picker.part_filter.value = "ppm"  # the filter matches units too
     assert list(picker.parts_select.options) == ["Zr", "Ba"]
     assert picker.choose("filter")

@@ -26,6 +26,7 @@ from compwidgets.core import discriminant as core_discriminant
 from compwidgets.core import geometry
 from compwidgets.core import ternary as core_ternary
 from compwidgets.model import CompositionModel
+from compwidgets.views import _plot_layout as plot_layout
 
 
 @pytest.fixture(scope="module")
@@ -126,7 +127,7 @@ def test_switching_parts_back_reuses_every_derived_array(monkeypatch):
         (geometry, "bin_index"),
     ]:
         counted(monkeypatch, module, name, calls)
-    counted(monkeypatch, core_biplot, "ray_label_positions", calls, rows=1)  # one per part
+    counted(monkeypatch, plot_layout, "ray_label_positions", calls, rows=1)  # one per part
     counted(monkeypatch, core_discriminant, "fit_discriminant", calls)
     model.active_parts = fewer
     first = len(calls)

@@ -45,41 +45,22 @@ def bar(model):
     return SelectionBar(model)
 
 
-class FakeView:
-    """A view whose save_png / save_svg write fixed bytes (stands in for a real figure)."""
-
-    title = "test view"
-
-    def __init__(self):
-        self.calls = []
-
-    def save_png(self, path):
-        self.calls.append(("png", path))
-        with open(path, "wb") as handle:
-            handle.write(b"\x89PNG fake")
-
-    def save_svg(self, path):
-        self.calls.append(("svg", path))
-        with open(path, "w", encoding="utf-8") as handle:
-            handle.write("<svg/>")
-
-
 # ------------------------------------------------------------------ the count
 
 
 def test_count_follows_the_model(bar, model):
     assert bar.count_value.value == "0" and bar.count == 0
-    assert bar.count_label.value == "0 of 40 samples selected"
+    assert bar.count_label.value == "0 of 40 rows selected"
     model.select([1, 5, 9])
     assert bar.count_value.value == "3"
-    assert bar.count_label.value == "3 of 40 samples selected"
+    assert bar.count_label.value == "3 of 40 rows selected"
 
 
 def test_large_counts_are_easy_to_read():
     model = CompositionModel(read_composition(frame(2000), check_total=False))
     bar = SelectionBar(model)
     model.select(np.arange(0, 2000, 2))
-    assert bar.count_label.value == "1,000 of 2,000 samples selected"
+    assert bar.count_label.value == "1,000 of 2,000 rows selected"
     assert int(bar.count_value.value) == 1000
 
 
@@ -104,7 +85,7 @@ def test_group_from_the_selection(bar, model):
     assert (column == "selected").to_numpy().nonzero()[0].tolist() == [4, 7]
     assert (column == "other").sum() == 38
     assert model.group_column == "picked"
-    assert "'picked'" in bar.message.value and "2 selected" in bar.message.value
+    assert "'picked'" in bar.status.value and "2 rows selected" in bar.status.value
 
 
 @pytest.mark.parametrize("name, message", [("plot", "exists already"), ("  ", "non-empty")])
@@ -113,14 +94,14 @@ def test_bad_group_names_are_refused(bar, model, name, message):
     before = list(model.metadata.columns)
     assert bar.make_group(name) is False
     assert list(model.metadata.columns) == before
-    assert message in bar.message.value
+    assert message in bar.status.value
 
 
 def test_no_group_from_an_empty_selection(bar, model):
     before = list(model.metadata.columns)
     assert bar.make_group("nothing") is False
     assert list(model.metadata.columns) == before
-    assert "nothing is selected" in bar.message.value
+    assert "nothing is selected" in bar.status.value
 
 
 # ------------------------------------------------------------------- exports
@@ -133,9 +114,9 @@ def test_ilr_export_matches_the_export_module(bar, model, tmp_path):
     written = tmp_path / "coords.csv"
     reference = export.save_ilr_csv(model, tmp_path / "reference.csv")
     assert written.read_bytes() == reference.read_bytes()
-    assert str(written) in bar.message.value and "40 rows" in bar.message.value
+    assert str(written) in bar.status.value and "40 rows" in bar.status.value
     # every count names what it counts (one row of the frame lacks a part)
-    assert "40 rows x 4 balances; 1 of the rows is incomplete" in bar.message.value
+    assert "40 rows x 4 balances; 1 row of them incomplete" in bar.status.value
     # first balance by its definition (Egozcue & Pawlowsky-Glahn 2005): Sand, Silt | rest
     data = pd.read_csv(written, index_col=0)
     x = frame()[PARTS].to_numpy()
@@ -152,7 +133,7 @@ def test_sbp_export_matches_the_export_module(bar, model, tmp_path):
     bar.sbp_button.click()
     reference = export.save_sbp(model, tmp_path / "reference.json")
     assert (tmp_path / "partition.json").read_bytes() == reference.read_bytes()
-    assert "4 balances over 5 parts" in bar.message.value
+    assert "4 balances over 5 parts" in bar.status.value
 
 
 def test_selected_rows_export_matches_the_export_module(bar, model, tmp_path):
@@ -162,7 +143,7 @@ def test_selected_rows_export_matches_the_export_module(bar, model, tmp_path):
     reference = tmp_path / "reference.csv"
     n = export.save_selected_csv(model, reference)
     assert (tmp_path / "picked.csv").read_bytes() == reference.read_bytes()
-    assert n == 3 and "(3 rows)" in bar.message.value
+    assert n == 3 and "(3 rows)" in bar.status.value
     assert pd.read_csv(tmp_path / "picked.csv", index_col=0).index.tolist() == [
         "C0002",
         "C0003",
@@ -174,7 +155,7 @@ def test_exports_without_an_sbp_say_so(bar, model, tmp_path):
     bar.file_name.value = str(tmp_path / "x")
     for button, suffix in ((bar.ilr_button, "csv"), (bar.sbp_button, "json")):
         button.click()
-        assert "no SBP yet: build one in the balance builder" in bar.message.value
+        assert "no SBP yet: build one in the balance builder" in bar.status.value
         assert not (tmp_path / f"x.{suffix}").exists()
 
 
@@ -186,7 +167,7 @@ def test_bad_file_names_are_refused(bar, model, tmp_path, name, message):
     model.select([1])
     bar.file_name.value = str(tmp_path / name) if name else ""
     bar.selected_button.click()
-    assert message in bar.message.value
+    assert message in bar.status.value
     assert list(tmp_path.iterdir()) == []
 
 
@@ -194,7 +175,7 @@ def test_missing_folder_is_named(bar, model, tmp_path):
     model.select([1])
     bar.file_name.value = str(tmp_path / "no-such-folder" / "picked.csv")
     bar.selected_button.click()
-    assert "does not exist" in bar.message.value and "no-such-folder" in bar.message.value
+    assert "does not exist" in bar.status.value and "no-such-folder" in bar.status.value
 
 
 def test_existing_files_are_kept_unless_overwrite_is_ticked(bar, model, tmp_path):
@@ -204,56 +185,48 @@ def test_existing_files_are_kept_unless_overwrite_is_ticked(bar, model, tmp_path
     bar.file_name.value = str(target)
     bar.selected_button.click()
     assert target.read_text(encoding="utf-8") == "keep me"
-    assert "exists already" in bar.message.value
+    assert "exists already" in bar.status.value
     bar.overwrite.value = True
     bar.selected_button.click()
     assert target.read_text(encoding="utf-8") != "keep me"
-    assert "Wrote selected rows" in bar.message.value
+    assert "Wrote selected rows" in bar.status.value
 
 
 def test_empty_selection_export_is_refused(bar, tmp_path):
     bar.file_name.value = str(tmp_path / "picked.csv")
     bar.selected_button.click()
-    assert "nothing is selected" in bar.message.value
+    assert "nothing is selected" in bar.status.value
     assert not (tmp_path / "picked.csv").exists()
 
 
-# ---------------------------------------------------------------- view images
+# ------------------------------------------------------------------ figures
 
 
-def test_views_are_saved_as_png_and_svg(model, tmp_path):
-    views = [FakeView(), FakeView()]
-    bar = SelectionBar(model, views=views)
-    assert [text for text, _ in bar.view_select.options][1].startswith("2: FakeView")
-    bar.view_select.value = 1
-    bar.file_name.value = str(tmp_path / "figure")
-    bar.png_button.click()
-    bar.svg_button.click()
-    assert views[0].calls == []
-    assert views[1].calls == [
-        ("png", str(tmp_path / "figure.png")),
-        ("svg", str(tmp_path / "figure.svg")),
-    ]
-    assert (tmp_path / "figure.svg").read_text(encoding="utf-8") == "<svg/>"
-    assert str(tmp_path / "figure.svg") in bar.message.value
+def test_figures_are_not_saved_here(bar):
+    # each view saves its own figure (its "Save figure" control); the bar keeps the CSV
+    # export of the selected rows and lists no views
+    def walk(widget):
+        yield widget
+        for child in getattr(widget, "children", ()):
+            yield from walk(child)
+
+    texts = [getattr(w, "description", "") for w in walk(bar)]
+    assert "Selected rows (CSV)" in texts
+    assert not [t for t in texts if "PNG" in t or "SVG" in t or t == "View"]
+    assert not hasattr(bar, "export_view") and not hasattr(bar, "view_select")
 
 
-def test_a_browser_saved_view_is_reported_as_a_download(model, tmp_path):
-    ternary = pytest.importorskip("compwidgets.views.ternary")
-    view = ternary.TernaryView(model, parts=["Sand", "Silt", "Clay"])
-    bar = SelectionBar(model, views=[view])
-    bar.file_name.value = str(tmp_path / "triangle")
-    bar.png_button.click()
-    # bqplot figures are rendered and saved by the browser, not by the kernel
-    assert "download named 'triangle.png'" in bar.message.value
-    assert not (tmp_path / "triangle.png").exists()
+def test_messages_is_the_error_area(bar, model):
+    # the same name as in the scatter views: errors raised in callbacks are shown there
+    assert isinstance(bar.messages, widgets.Output)
+    assert bar.messages in bar.children and bar.status in bar.children
 
 
 # ------------------------------------------------------------------ text only
 
 
 def test_only_text_widgets(model):
-    bar = SelectionBar(model, views=[FakeView()])
+    bar = SelectionBar(model)
 
     def walk(widget):
         yield widget

@@ -12,8 +12,12 @@ their tolerances are 4 binomial standard deviations.
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from matplotlib.path import Path
 from scipy.stats import gmean
 
@@ -386,3 +390,99 @@ def test_unknown_region_kind_is_refused():
         rg.probability_region(simulate(20, 5), 0.95, kind="tolerance")
     with pytest.raises(CompositionError, match="number of rows"):
         rg.prediction_radius2(0.95, None)
+
+
+# ------------------------------------------------------------ centring, its inverse
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.floats(0.01, 100.0), min_size=3, max_size=3))
+def test_centre_of_centring_undoes_the_centring(g):
+    # Aitchison inverse (closure of the reciprocals; Aitchison 1986, from memory): the
+    # centre perturbed by its centring perturbation is the barycentre, and the centre
+    # comes back from that perturbation
+    g = np.asarray(g) / np.sum(g)
+    p = tn.centring_perturbation(centre=g)
+    np.testing.assert_allclose(tn.centre_of_centring(p), g, rtol=1e-12)
+    np.testing.assert_allclose(tn.perturb_closed(g, p)[0], [1 / 3] * 3, rtol=1e-12)
+    with pytest.raises(CompositionError, match="positive"):
+        tn.centre_of_centring([0.5, 0.5, 0.0])
+
+
+# -------------------------------------------------------- triples that spread the data
+
+
+def _brute_spread(X, triple) -> float:
+    """Mean squared distance of the drawn points from their mean, by numpy's covariance
+    (bias=True: divisor n) of the barycentric points a*A + b*B + c*C (definition)."""
+    sub = X[:, list(triple)]
+    sub = sub / sub.sum(axis=1, keepdims=True)
+    xy = sub @ np.array([[0.5, H], [0.0, 0.0], [1.0, 0.0]])
+    return float(np.trace(np.cov(xy.T, bias=True)))
+
+
+def test_spread_triples_takes_the_widest_triples_first():
+    rng = np.random.default_rng(3)
+    # six parts of similar size, three of them varying a lot, and a tiny seventh part
+    logs = rng.normal(0, [1.2, 1.0, 0.9, 0.2, 0.15, 0.1, 1.5], size=(500, 7))
+    X = np.exp(logs + [0, 0, 0, 0, 0, 0, -8])
+    chosen = tn.spread_triples(X, 2)
+    big = range(6)  # the seventh part's median share is far below 1 %
+    spreads = {t: _brute_spread(X, t) for t in itertools.combinations(big, 3)}
+    first = max(spreads, key=spreads.get)
+    assert chosen[0] == first == (0, 1, 2)
+    disjoint = {t: s for t, s in spreads.items() if not set(t) & set(first)}
+    assert chosen[1] == max(disjoint, key=disjoint.get)
+    assert tn.triple_spread(X[:, first]) == pytest.approx(spreads[first], rel=1e-12)
+
+
+def test_spread_triples_on_the_demo_keep_points_out_of_the_corners():
+    # The criterion, defined apart from the scoring: for each chosen ternary, no corner
+    # (a part above 80 % of the three) holds a quarter of the points or more, and the
+    # points cover at least 0.3 (of the side 1) between their 10th and 90th percentiles
+    # along x or y. Control: a triple of the largest part with two small ones fails it.
+    import compwidgets as cw
+    from compwidgets.model import CompositionModel
+    from compwidgets.workbench import default_ternary_parts
+
+    table = cw.demo.stream_sediments()
+    model = CompositionModel(cw.read_composition(table, detection_limits=cw.demo.DETECTION_LIMITS))
+
+    def spread_out(parts) -> bool:
+        v = model.part_values(parts)[model.complete_rows(parts)]
+        X = v / v.sum(axis=1, keepdims=True)
+        corners = (X > 0.8).mean(axis=0)
+        x, y = X[:, 2] + X[:, 0] / 2, H * X[:, 0]
+        cover = max(np.ptp(np.percentile(x, [10, 90])), np.ptp(np.percentile(y, [10, 90])))
+        return bool(corners.max() < 0.25 and cover >= 0.3)
+
+    triples = default_ternary_parts(model)
+    assert len(triples) == 2 and not set(triples[0]) & set(triples[1])
+    assert all(spread_out(t) for t in triples)
+    assert not spread_out(["SiO2", "Na2O", "K2O"])  # the control fails the criterion
+
+
+def test_spread_triples_leave_out_rows_missing_in_a_triple_only():
+    # a part missing (NaN) or zero in half of the rows: the other triples keep those rows,
+    # and its own triples are measured on the rows where it is present (as drawn)
+    rng = np.random.default_rng(5)
+    X = np.exp(rng.normal(0, [1.0, 0.9, 0.8, 1.3], size=(300, 4)))
+    X[::2, 3] = np.nan
+    X[1::4, 3] = 0.0
+    spreads = {}
+    for t in itertools.combinations(range(4), 3):
+        ok = np.all(X[:, list(t)] > 0, axis=1)  # NaN > 0 is False
+        spreads[t] = _brute_spread(X[ok], t)
+    assert tn.spread_triples(X, 1) == [max(spreads, key=spreads.get)]
+    assert np.isnan(X[0, 3]) and X[1, 3] == 0.0  # the caller's array is not changed
+
+
+def test_spread_triples_refuses_bad_input():
+    with pytest.raises(CompositionError, match="at least 3 parts"):
+        tn.spread_triples(np.ones((4, 2)))
+    with pytest.raises(CompositionError, match=r"infinite values in rows \[1\]"):
+        tn.spread_triples([[1, 2, 3], [1, np.inf, 3]])
+    with pytest.raises(CompositionError, match="no triple of parts has 2 rows"):
+        tn.spread_triples([[1, 2, np.nan], [np.nan, 2, 3], [1, np.nan, 3]])
+    with pytest.raises(CompositionError, match="count"):
+        tn.spread_triples(np.ones((4, 3)), 0)

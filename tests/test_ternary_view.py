@@ -692,3 +692,117 @@ def test_hover_reads_traces_back_in_the_unit_they_were_reported_in():
     lines = [label.value for label in v._tooltip_lines if label.value]
     # the caller's own numbers, in the caller's own units
     assert lines[1].endswith("| 60 wt%") and lines[3].endswith("| 45 ppm")
+
+
+# ------------------------------------------------- centring control, parts left active
+
+
+def test_the_centring_toggle_mirrors_the_trait(model):
+    v = TernaryView(model, ["A", "B", "C"])
+    toggle = v._centring_toggle
+    assert toggle in v.boundary_controls.children and not toggle.value
+    plain = v._x.copy()
+    toggle.set_state({"value": True})  # a click in the browser
+    assert v.centred
+    # the points moved: their centre is the barycentre now (numpy geometric mean, closed)
+    shown = core_ternary.xy_to_ternary(v._x, v._y)
+    g = np.exp(np.log(shown).mean(axis=0))
+    np.testing.assert_allclose(g / g.sum(), 1 / 3, atol=1e-12)
+    assert not np.allclose(v._x, plain)
+    v.centred = False  # set in code: the toggle follows
+    assert toggle.value is False
+    np.testing.assert_allclose(v._x, plain)
+    v.close()
+    assert toggle.comm is None
+
+
+def test_a_part_taken_out_of_the_active_parts_is_noted_until_it_is_back(model):
+    v = TernaryView(model, ["A", "B", "C"])  # chosen parts: the view keeps them
+    model.active_parts = ["A", "C", "D", "E"]
+    assert v.parts == ["A", "B", "C"]
+    assert "B is no longer among the active parts" in v.notes.value
+    model.active_parts = ["A", "C", "D"]  # another change: still noted
+    assert "B is no longer among the active parts" in v.notes.value
+    model.active_parts = list(PARTS)  # back: the note goes
+    assert "no longer" not in v.notes.value
+    model.active_parts = ["C", "D", "E"]
+    assert "A, B are no longer among the active parts" in v.notes.value
+    v.parts = ["C", "D", "E"]  # the user chose again: nothing to say
+    assert "no longer" not in v.notes.value
+    model.active_parts = ["A", "C", "D", "E"]
+    v.parts = ["A", "B", "C"]  # B was not active when chosen: no note about a change
+    assert "no longer" not in v.notes.value
+    model.active_parts = ["C", "D", "E"]
+    assert "A is no longer among the active parts" in v.notes.value
+    v.follow_active_parts()
+    assert v.parts == ["C", "D", "E"] and "no longer" not in v.notes.value
+
+
+# ------------------------------------------------------------- boundary priors
+
+
+def _posteriors_on_the_curves(view, model, priors):
+    """scikit-learn's LDA with the given priors, fitted on the rows shown (ilr of the
+    3 parts, pivot basis: numpy), evaluated at every point of the view's boundary curves:
+    the top two posteriors of each point."""
+    from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
+
+    from compwidgets import core
+
+    categories, codes = model.group_codes()
+    X = model.part_values(view.parts)[view.rows]
+    L = np.log(X)
+    Z = (L - L.mean(axis=1, keepdims=True)) @ core.default_basis(3).T
+    y = codes[view.rows]
+    lda = LinearDiscriminantAnalysis(priors=[priors[c] for c in categories]).fit(Z, y)
+    tops = []
+    for curve in view.boundary_curves:
+        C = np.log(curve)
+        P = np.sort(
+            lda.predict_proba((C - C.mean(axis=1, keepdims=True)) @ core.default_basis(3).T)
+        )
+        tops.append(P[:, -2:])
+    return np.concatenate(tops)
+
+
+@pytest.mark.parametrize("priors", ["proportional", "equal"])
+def test_boundaries_use_the_priors_of_the_discriminant_view(frame, priors):
+    from compwidgets.views.discriminant import DiscriminantView
+
+    # unequal groups, and rows missing in a part that is active but not shown: the shares
+    # of the discriminant's rows differ from those of the ternary's rows
+    frame = frame.copy()
+    frame.loc[frame.index[:60], "site"] = "upper"
+    frame.loc[frame.index[100:130], "E"] = np.nan
+    m = CompositionModel(read_composition(frame, check_total=False), group_column="site")
+    d = DiscriminantView(m, priors=priors)
+    v = TernaryView(m, ["A", "B", "C"], boundaries=True)
+    widgets.link((d, "priors"), (v, "boundary_priors"))  # as the workbench links them
+    assert v.boundary_priors == priors
+    fit = d.rule.fit
+    used = dict(zip(fit.classes, fit.priors, strict=True))
+    if priors == "proportional":  # the discriminant's rows: complete in A..E (numpy count)
+        ok = np.isfinite(m.part_values(list(PARTS))).all(axis=1)
+        labels = frame["site"].to_numpy()[ok]
+        expected = {c: float(np.mean(labels == c)) for c in used}
+        assert used == pytest.approx(expected, rel=1e-12)
+        shown = frame["site"].to_numpy()[v.rows]
+        assert abs(np.mean(shown == "upper") - used["upper"]) > 1e-3  # they do differ
+    top = _posteriors_on_the_curves(v, m, used)
+    assert top.shape[0] > 100
+    # every point of every boundary: the two largest posteriors are equal (to 1e-9)
+    np.testing.assert_allclose(top[:, 0], top[:, 1], atol=1e-9, rtol=0)
+    assert "priors: " + ("group shares" if priors == "proportional" else "equal") in v.notes.value
+    # the control: with other priors the same curves are not boundaries (equal ones, or
+    # the group shares of the ternary's own rows)
+    shown = frame["site"].to_numpy()[v.rows]
+    if priors == "proportional":
+        other = dict.fromkeys(used, 1 / len(used))
+    else:
+        other = {c: float(np.mean(shown == c)) for c in used}
+    off = _posteriors_on_the_curves(v, m, other)
+    assert np.max(np.abs(off[:, 0] - off[:, 1])) > 1e-3
+    d.priors = "equal" if priors == "proportional" else "proportional"  # the view follows
+    assert v.boundary_priors == d.priors
+    v.close()
+    d.close()

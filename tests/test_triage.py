@@ -27,6 +27,11 @@ MAJORS = ["SiO2", "Al2O3", "FeO", "MgO", EVIL]
 N = 80
 
 
+def rows_text(n: int) -> str:
+    """A count of rows as the panel words it: the unit named, singular for one."""
+    return f"{n:,} row" if n == 1 else f"{n:,} rows"
+
+
 def invented_table() -> tuple[pd.DataFrame, dict]:
     """Majors in wt% summing to 100 and Cu in ppm, with planted problems."""
     rng = np.random.default_rng(21)
@@ -107,7 +112,7 @@ def test_flagged_rows_match_the_flags(panel, model, table):
     flags = model.composition.flags
     label, pos = item(panel, "all flagged rows")
     assert sorted(pos.tolist()) == positions(model, flags.index)
-    assert label.endswith(f"({len(flags)})")
+    assert label.endswith(f"({rows_text(len(flags))})")
     # the planted problems are all among them
     for rows in planted.values():
         if rows is not planted["below"]:
@@ -143,7 +148,7 @@ def test_missing_and_below_detection_per_part_match_the_status(panel, model, tab
                 assert labels == []
                 continue
             label, pos = item(panel, f"{part}: {text} (")
-            assert pos.tolist() == expected and label.endswith(f"({len(expected)})")
+            assert pos.tolist() == expected and label.endswith(f"({rows_text(len(expected))})")
     assert item(panel, "Cu: below detection")[1].tolist() == positions(model, planted["below"])
     assert item(panel, "MgO: missing")[1].tolist() == positions(model, planted["missing"])
 
@@ -181,18 +186,20 @@ def test_demo_survey_items_match_status_and_flags():
     for j, part in enumerate(comp.parts):
         for kind, text in (("below_dl", "below detection"), ("missing", "missing")):
             rows = np.flatnonzero(status[:, j] == kind)
-            label = f"{part}: {text} ({rows.size:,})"
+            label = f"{part}: {text} ({rows_text(rows.size)})"
             assert (label in by_label) == bool(rows.size)
             if rows.size:
                 assert by_label[label].tolist() == rows.tolist()
     flags = comp.flags
-    assert by_label[f"all flagged rows ({len(flags):,})"].tolist() == positions(model, flags.index)
+    assert by_label[f"all flagged rows ({rows_text(len(flags))})"].tolist() == positions(
+        model, flags.index
+    )
     lo, hi = comp.settings["total_window"]
     low = flags.index[flags["total"] < lo]
     if len(low):
-        assert by_label[f"analytical total below {lo:g} wt% ({len(low)})"].tolist() == positions(
-            model, low
-        )
+        assert by_label[
+            f"analytical total below {lo:g} wt% ({rows_text(len(low))})"
+        ].tolist() == positions(model, low)
     replaced = comp.report[comp.report["action"] == "replaced"]
     for part, rows in replaced.groupby("column")["row"]:
         (label,) = [lab for lab in by_label if lab.startswith(f"{part}: replaced")]
@@ -219,7 +226,7 @@ def test_outliers_equal_a_direct_robust_fit_and_find_the_planted_row(panel, mode
     assert f"{cut:.2f}" in label
     assert model.index.get_loc("S20") in pos.tolist()
     assert f"{model.n_rows - 1:,} complete rows" in panel.outlier_label.value
-    assert "1 row(s) with a missing or zero value" in panel.outlier_label.value
+    assert "1 row with a missing or zero value" in panel.outlier_label.value
     # 79 rows for 5 coordinates is few for the MCD: the panel says so
     assert "few rows for 5 coordinates" in panel.outlier_label.value
 
@@ -332,7 +339,7 @@ def test_part_named_like_markup_shows_verbatim(model):
         CompositionModel(read_composition(df, detection_limits={EVIL: 1.0}, check_total=False))
     )
     labels = [label for label, _ in panel.items]
-    assert f"{EVIL}: below detection (1)" in labels
+    assert f"{EVIL}: below detection (1 row)" in labels
     assert (
         "No outlier screening" in panel.outlier_label.value
     )  # 3 rows, 2 coordinates: too few, said so

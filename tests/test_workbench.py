@@ -1,5 +1,7 @@
 """explore(): one call from a table to the linked workbench (kernel-side, no browser)."""
 
+import itertools
+
 import ipywidgets as w
 import numpy as np
 import pandas as pd
@@ -25,17 +27,75 @@ def bench(table):
     return cw.explore(table, detection_limits=cw.demo.DETECTION_LIMITS)
 
 
+def walk(widget):
+    yield widget
+    for child in getattr(widget, "children", ()):
+        yield from walk(child)
+
+
 def test_explore_returns_one_layout_with_the_model_and_every_view(bench):
-    assert isinstance(bench, w.AppLayout)
+    assert isinstance(bench, w.VBox) and "cw-workbench" in bench._dom_classes
     assert len(bench.ternaries) == 2
     views = (*bench.ternaries, bench.biplot, bench.builder, bench.picker, bench.triage)
     for view in (*views, bench.selection_bar):
         assert view.model is bench.model
-    shown = {id(c) for c in (bench.header, bench.left_sidebar, bench.center, bench.footer)}
-    assert id(bench.selection_bar) in shown and id(bench.builder) in shown
+    shown = {id(x) for x in walk(bench)}
+    for view in (*views, bench.discriminant, bench.selection_bar, bench.sidebar):
+        assert id(view) in shown, type(view).__name__
     # the caution of the trade sits above the triage panel
     texts = " ".join(c.value for c in bench.triage.children if isinstance(c, w.Label | w.HTML))
     assert "accredited" in texts
+
+
+def test_the_builder_shares_the_first_row_with_the_ternaries(bench):
+    # the grid's order is the reading order: the builder, then the brushable ternaries
+    # (one flex row that wraps with the width; the browser test measures the screen)
+    cells = list(bench.grid.children)
+    assert cells[0].children[1] is bench.builder
+    assert [c.children[1] for c in cells[1:3]] == list(bench.ternaries)
+    assert cells[3].children[1] is bench.biplot
+    assert {c.children[1] for c in cells} >= {bench.sidebar, bench.discriminant}
+    assert all("cw-cell" in c._dom_classes for c in cells)
+    assert "cw-grid" in bench.grid._dom_classes
+
+
+def test_views_carry_human_names_that_follow_the_parts(bench):
+    titles = {key: label.value for key, label in bench.titles.items()}
+    a, b, c = bench.ternaries[0].parts
+    assert titles["ternary-1"] == f"Ternary 1 \u00b7 {a}\u2013{b}\u2013{c}"
+    assert titles["biplot"] == "clr biplot" and titles["builder"] == "Balance dendrogram"
+    # no Python class name anywhere in the names shown
+    assert not [t for t in titles.values() if "View" in t or "Builder" in t or "Panel" in t]
+    # each title is the Label shown right above its view
+    for cell in bench.grid.children:
+        assert cell.children[0] in bench.titles.values()
+    before = list(bench.ternaries[1].parts)
+    bench.ternaries[1].parts = [before[1], before[0], before[2]]
+    try:
+        assert bench.titles["ternary-2"].value == "Ternary 2 \u00b7 " + "\u2013".join(
+            [before[1], before[0], before[2]]
+        )
+    finally:
+        bench.ternaries[1].parts = before
+
+
+def test_every_view_names_its_message_area_messages(bench):
+    # the scatter views, the bar, the triage panel and the picker: an Output for errors
+    for view in (*bench.views, bench.selection_bar, bench.triage, bench.picker):
+        assert isinstance(view.messages, w.Output), type(view).__name__
+        assert view.messages in list(walk(view)), type(view).__name__
+    # the builder's message area is its synced text trait of the same name
+    assert bench.builder.messages == "" and "messages" in bench.builder.keys
+
+
+def test_only_static_text_in_html_widgets(bench):
+    # the one HTML widget the layout adds is its style sheet: nothing from the table in it
+    from compwidgets.views._layout import CSS
+
+    mine = [x for x in walk(bench) if isinstance(x, w.HTML) and "<style>" in x.value]
+    assert len(mine) == 1 and mine[0].value == f"<style>{CSS}</style>"
+    for part in bench.model.parts:
+        assert str(part) not in CSS
 
 
 def test_grouping_column_defaults_to_a_categorical_metadata_column(table, bench):
@@ -66,23 +126,27 @@ def test_hover_names_samples_by_their_id(table, bench):
     assert all(v.id_column == "sample_id" for v in (*kept.ternaries, kept.biplot))
 
 
-def test_default_ternaries_show_the_most_variable_pair_among_major_parts(bench):
+def test_default_ternaries_are_the_triples_spreading_the_points_most(bench):
     model = bench.model
     (first, second) = default_ternary_parts(model)
     assert len(set(first) | set(second)) == 6  # two ternaries, no part shown twice
-    # independent route: numpy log-ratio variances (ddof=1) on the complete rows,
-    # over the parts holding at least 1 % of the composition (median)
+    # independent route: numpy's covariance of the drawn points of every triple of the
+    # parts holding at least 1 % of the composition (median share of the known parts),
+    # each triple on the rows complete in it
     active = list(model.active_parts)
-    ok = model.complete_rows(active)
-    values = model.part_values(active)[ok]
-    closed = values / values.sum(axis=1, keepdims=True)
-    big = [p for p, s in zip(active, np.median(closed, axis=0), strict=True) if s >= 0.01]
-    logs = np.log(model.part_values(big)[model.complete_rows(big)])
-    best = max(
-        ((a, b) for a in range(len(big)) for b in range(a + 1, len(big))),
-        key=lambda ab: np.var(logs[:, ab[0]] - logs[:, ab[1]], ddof=1),
-    )
-    assert {big[best[0]], big[best[1]]} <= set(first)
+    values = model.part_values(active)
+    shares = values / np.nansum(values, axis=1, keepdims=True)
+    big = [p for p, s in zip(active, np.nanmedian(shares, axis=0), strict=True) if s >= 0.01]
+
+    def spread(triple):
+        v = model.part_values(list(triple))
+        v = v[np.all(v > 0, axis=1)]
+        v = v / v.sum(axis=1, keepdims=True)
+        xy = v @ np.array([[0.5, np.sqrt(3) / 2], [0.0, 0.0], [1.0, 0.0]])
+        return np.trace(np.cov(xy.T, bias=True))
+
+    spreads = {t: spread(t) for t in itertools.combinations(big, 3)}
+    assert tuple(first) == max(spreads, key=spreads.get)
     assert [v.parts for v in bench.ternaries] == [list(first), list(second)]
 
 

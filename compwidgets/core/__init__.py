@@ -38,7 +38,7 @@ from .operations import (
 )
 from .principal import principal_balances, ward_sbp
 from .rules import check_balance_names, check_parts, check_sbp, require_sbp
-from .sbp import SBPError, balance_names, balances, sbp_basis, validate_sbp
+from .sbp import SBPError, balance_names, balances, pivot_sbp, sbp_basis, validate_sbp
 from .stats import DDOF, center, clr_covariance, total_variance, variation_matrix
 from .subcomp import amalgamate, subcomposition
 from .transforms import alr, alr_inv, clr, clr_inv, default_basis, ilr, ilr_inv
@@ -80,6 +80,7 @@ __all__ = [
     "multiplicative_replacement",
     "multiplicative_replacement_rows",
     "perturb",
+    "pivot_sbp",
     "power",
     "principal_balances",
     "ray_associations",

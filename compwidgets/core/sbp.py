@@ -31,6 +31,24 @@ class SBPError(CompositionError):
     """An SBP matrix that is not a valid sequential binary partition."""
 
 
+def pivot_sbp(D: int) -> np.ndarray:
+    """The pivot SBP of D parts: row i opposes part i to the parts after it.
+
+    Its contrast matrix (:func:`sbp_basis`) is
+    :func:`compwidgets.core.transforms.default_basis` ``(D)``.
+
+    >>> pivot_sbp(3)
+    array([[ 1, -1, -1],
+           [ 0,  1, -1]], dtype=int8)
+    """
+    if isinstance(D, bool) or int(D) != D or D < 2:
+        raise SBPError(f"pivot_sbp: need at least 2 parts, got {D!r}")
+    D = int(D)
+    cols = np.arange(D)[None, :]
+    rows = np.arange(D - 1)[:, None]
+    return np.where(cols == rows, 1, np.where(cols > rows, -1, 0)).astype(np.int8)
+
+
 def _as_sbp_array(sbp, parts: Sequence[str] | None = None) -> tuple[np.ndarray, list | None]:
     """The SBP as a float matrix and the part names its labels give (None when unlabelled).
 

@@ -36,6 +36,7 @@ __all__ = [
     "VERTICES",
     "TernaryGrid",
     "TernaryTicks",
+    "centre_of_centring",
     "centring_perturbation",
     "compositional_line",
     "grid_lines",
@@ -44,6 +45,8 @@ __all__ = [
     "line_along",
     "line_through",
     "perturb_closed",
+    "spread_triples",
+    "triple_spread",
     "ternary_to_xy",
     "xy_to_ternary",
 ]
@@ -125,6 +128,21 @@ def centring_perturbation(centre=None, data=None) -> np.ndarray:
         raise CompositionError("centring_perturbation: give either centre or data")
     g = _positive_centre(center(_three_parts(data, "data")) if data is not None else centre)
     inv = 1.0 / g
+    return inv / inv.sum()
+
+
+def centre_of_centring(perturbation) -> np.ndarray:
+    """The centre ``g`` whose centring perturbation is ``perturbation``: ``C[1/p]``.
+
+    The inverse of :func:`centring_perturbation` (the Aitchison inverse of a
+    composition is the closure of its reciprocals): the grid of a centred
+    diagram is drawn from it.
+
+    >>> p = centring_perturbation(centre=[0.6, 0.3, 0.1])
+    >>> centre_of_centring(p).round(12).tolist()
+    [0.6, 0.3, 0.1]
+    """
+    inv = 1.0 / _positive_centre(perturbation)
     return inv / inv.sum()
 
 
@@ -407,3 +425,161 @@ def line_along(origin, direction, n_points: int = 201, min_share: float = 1e-3) 
         raise CompositionError(f"min_share must be in (0, 1/D), got {min_share!r}")
     span = _span(close_rows(x0[0]), d, min_share)
     return compositional_line(x0[0], d, np.linspace(-span, span, int(n_points)))
+
+
+#: Rows (a seeded sample beyond) on which the spread of each candidate triple is measured.
+SPREAD_ROWS = 2000
+#: Parts considered for automatic ternaries at most (the largest median shares): C(12, 3)
+#: = 220 triples (a laboratory table rarely has more than 12 parts of 1 % or more).
+SPREAD_PARTS = 12
+#: Triples measured at a time (bounds the memory of the scoring).
+_TRIPLE_CHUNK = 64
+
+
+def triple_spread(X) -> float:
+    """Spread of 3-part compositions as drawn in the triangle of side 1.
+
+    The mean squared distance of the drawn points from their mean point
+    (the trace of the covariance of ``x`` and ``y``, divisor ``n``): 0 when every
+    point is at one place, 1/3 at most (a third of the points at each vertex).
+
+    >>> triple_spread([[1, 0, 0], [0, 1, 0], [0, 0, 1]])
+    0.333...
+    """
+    x, y = ternary_to_xy(X)
+    return float(np.var(x) + np.var(y))
+
+
+def spread_triples(
+    X,
+    count: int = 2,
+    *,
+    min_share: float = 0.01,
+    max_parts: int = SPREAD_PARTS,
+    max_rows: int = SPREAD_ROWS,
+    seed: int = 0,
+) -> list[tuple[int, int, int]]:
+    """Triples of parts whose ternary diagrams spread the data, one per diagram.
+
+    The rule:
+
+    1. Candidates: the parts whose median share of the whole composition (each
+       row divided by the sum of its known parts) is at least ``min_share``
+       (every part when fewer than 3 are), at most ``max_parts`` of them with
+       the largest median shares (ties: column order). A part a thousand times
+       smaller than the others keeps every point on an edge.
+    2. Each triple of candidates is drawn (its rows closed over the 3 parts,
+       :func:`ternary_to_xy`) and scored by :func:`triple_spread`, the mean
+       squared distance of the points from their mean point. Points piled in
+       one corner or at one spot score near 0; a cloud over the whole triangle
+       scores most. As in a ternary view, a row missing (NaN), zero or
+       negative in one of the three parts is left out of that triple.
+    3. The first triple has the largest spread; each next one the largest
+       spread among the triples sharing the fewest parts with those chosen
+       before (none, while enough candidates are left). Ties go to the first
+       triple in lexicographic order; a triple with fewer than 2 rows to draw
+       comes last.
+
+    Spreads are measured on at most ``max_rows`` rows (a seeded random sample).
+
+    Parameters
+    ----------
+    X : array-like or DataFrame of shape (n, D)
+        Compositions (closure not needed), D >= 3; NaN marks a missing value.
+    count : int, default 2
+        Triples wanted.
+    min_share, max_parts, max_rows, seed
+        See the rule above.
+
+    Returns
+    -------
+    list of (int, int, int)
+        Column positions, each triple in increasing order.
+
+    Raises
+    ------
+    CompositionError
+        Fewer than 3 parts, infinite values, or no triple with 2 rows to draw.
+
+    Examples
+    --------
+    >>> rng = np.random.default_rng(0)
+    >>> logs = rng.normal(0, [1.0, 1.0, 1.0, 0.05], size=(200, 4))
+    >>> X = np.exp(logs + [0, 0, 0, 3])  # a fourth part 20 times larger and steady
+    >>> spread_triples(X, 1)
+    [(0, 1, 2)]
+    """
+    try:
+        v = np.array(X, dtype=float)  # a copy: non-positive cells become NaN below
+    except (TypeError, ValueError) as err:
+        raise CompositionError(f"spread_triples: the table must be numbers ({err})") from None
+    if v.ndim != 2 or v.shape[1] < 3:
+        raise CompositionError(
+            f"spread_triples: needs a matrix of at least 3 parts, got shape {v.shape}"
+        )
+    if np.isinf(v).any():
+        rows = np.flatnonzero(np.isinf(v).any(axis=1))
+        raise CompositionError(f"spread_triples: infinite values in rows {rows[:5].tolist()}")
+    if isinstance(count, bool) or int(count) != count or count < 1:
+        raise CompositionError(f"spread_triples: count must be a positive integer, got {count!r}")
+    if int(max_parts) < 3:
+        raise CompositionError(f"spread_triples: max_parts must be at least 3, got {max_parts!r}")
+    n, D = v.shape
+    if n > max_rows:
+        v = v[np.sort(np.random.default_rng(seed).choice(n, int(max_rows), replace=False))]
+    with np.errstate(invalid="ignore"):
+        v[~(v > 0)] = np.nan  # missing, zero or negative: not drawn
+    known = np.isfinite(v)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        shares = v / np.nansum(v, axis=1, keepdims=True)
+    share = np.array(
+        [np.median(shares[known[:, j], j]) if known[:, j].any() else 0.0 for j in range(D)]
+    )
+    candidates = np.flatnonzero(share >= min_share)
+    if candidates.size < 3:
+        candidates = np.arange(D)
+    ranked = candidates[np.argsort(-share[candidates], kind="stable")][: int(max_parts)]
+    candidates = np.sort(ranked)
+    triples = np.array(
+        [(a, b, c) for a in candidates for b in candidates if b > a for c in candidates if c > b]
+    )
+    vt = np.ascontiguousarray(v.T)  # parts by row: each triple reads three rows
+    spread = np.concatenate(
+        [
+            _spreads(vt, triples[s : s + _TRIPLE_CHUNK])
+            for s in range(0, len(triples), _TRIPLE_CHUNK)
+        ]
+    )
+    if not np.isfinite(spread).any():
+        raise CompositionError(
+            "spread_triples: no triple of parts has 2 rows with all three parts present and "
+            "positive"
+        )
+    chosen: list[tuple[int, int, int]] = []
+    used: set[int] = set()
+    for _ in range(int(count)):
+        shared = np.array([len(used & set(t)) for t in triples.tolist()])
+        pool = np.flatnonzero(shared == shared.min())
+        best = int(pool[np.argmax(spread[pool])])  # first of the largest: lexicographic
+        chosen.append(tuple(int(p) for p in triples[best]))
+        used |= set(chosen[-1])
+    return chosen
+
+
+def _spreads(vt: np.ndarray, triples: np.ndarray) -> np.ndarray:
+    """:func:`triple_spread` of each triple (rows of ``vt``, the parts by row; NaN: not
+    drawn); -inf for a triple with fewer than 2 rows to draw."""
+    a, b, c = vt[triples[:, 0]], vt[triples[:, 1]], vt[triples[:, 2]]  # (m, n) each
+    total = a + b + c  # NaN where a part is missing
+    a /= total
+    c /= total
+    x = c + 0.5 * a
+    y = HEIGHT * a
+    if not np.isnan(total).any():  # every row drawn: the plain variance, much faster
+        return x.var(axis=1) + y.var(axis=1)
+    drawn = np.isfinite(total).sum(axis=1)
+    out = np.full(triples.shape[0], -np.inf)
+    ok = drawn >= 2
+    if ok.any():
+        out[ok] = np.nanvar(x[ok], axis=1) + np.nanvar(y[ok], axis=1)
+    return out

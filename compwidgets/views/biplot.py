@@ -20,7 +20,7 @@ would crowd the points) they are drawn multiplied by one readable factor
 (:func:`compwidgets.core.biplot.ray_display_factor`), said in ``ray_note``;
 the numbers in the text (link lengths, log-ratio sds, cosines) always come from
 the unscaled biplot. Part names sit beyond their tips, moved apart where they
-would overlap (:func:`compwidgets.core.biplot.ray_label_positions`).
+would overlap (:func:`compwidgets.views._plot_layout.ray_label_positions`).
 
 Example
 -------
@@ -46,6 +46,7 @@ from ..core import CompositionError, geometry
 from ..core import biplot as core_biplot
 from ..model import CompositionModel
 from . import _common as cm
+from . import _plot_layout as plot_layout
 from ._scatter import ScatterView
 from ._threads import one_blas_thread
 
@@ -60,20 +61,10 @@ AXIS_CROSS_COLOUR = "#b4b4b4"
 _LEGEND_GAP_PX = 12
 #: Widest plot area, as a multiple of its height (legend included).
 _MAX_ASPECT = 1.6
-#: Pixels between a ray tip's dot and the box of its part name, and the size of a part
-#: name's box (12 px text): half its height, and the width of one character by kind
-#: (measured on the text boxes of the ray names in headless Chromium; other fonts differ a
-#: little, which the padding below absorbs).
+#: Pixels between a ray tip's dot and the box of its part name, and half the height of a
+#: part name's box (12 px text; its width: :func:`._plot_layout.text_width_px`).
 _LABEL_GAP_PX = 2.0
-_LABEL_CHAR_PX = 7.0
 _LABEL_HALF_HEIGHT_PX = 7.0
-_CHAR_PX_NARROW = 3.5  # i l I . , : ; ' ! |
-_CHAR_PX_SLIM = 4.5  # r t f j ( ) - space
-_CHAR_PX_UPPER = 8.5
-_CHAR_PX_WIDE = 10.5  # M W m w
-_NARROW_CHARS = frozenset("ilI.,:;'!|")
-_SLIM_CHARS = frozenset("rtfj()- ")
-_WIDE_CHARS = frozenset("MWmw")
 #: Radius (pixels) of the dot at a ray tip: a Scatter marker of ``default_size`` 40 px².
 _TIP_SIZE_PX2 = 40
 _TIP_RADIUS_PX = float(np.sqrt(_TIP_SIZE_PX2 / np.pi))
@@ -98,23 +89,6 @@ def axis_label(component: int, ratio: float | None) -> str:
     """Axis text of a component (0-based) with its share of the total variance."""
     share = "n/a" if ratio is None or not np.isfinite(ratio) else f"{100 * ratio:.1f} %"
     return f"clr comp. {component + 1} \u00b7 {share}"
-
-
-def _text_width_px(text: str) -> float:
-    """Approximate width in pixels of a part name drawn as a ray label."""
-    width = 0.0
-    for ch in text:
-        if ch in _NARROW_CHARS:
-            width += _CHAR_PX_NARROW
-        elif ch in _SLIM_CHARS:
-            width += _CHAR_PX_SLIM
-        elif ch in _WIDE_CHARS:
-            width += _CHAR_PX_WIDE
-        elif ch.isupper():
-            width += _CHAR_PX_UPPER
-        else:
-            width += _LABEL_CHAR_PX
-    return width
 
 
 def _plane_label(pair: tuple[int, int]) -> str:
@@ -461,7 +435,11 @@ class BiplotView(ScatterView):
         )
         self._plane_menu.observe(self._guard(self._on_plane_menu), names=["value"])
         self.info = widgets.Textarea(
-            value=_HINT, disabled=True, layout=widgets.Layout(width="260px", height="170px")
+            value=_HINT,
+            disabled=True,
+            description="rays",
+            style={"description_width": "initial"},
+            layout=widgets.Layout(width="300px", height="170px"),
         )
         self.ray_note = widgets.Label(layout=widgets.Layout(margin="0 0 0 12px"))
         self.controls = widgets.HBox([self._scaling_buttons, self._plane_menu, self.ray_note])
@@ -509,7 +487,7 @@ class BiplotView(ScatterView):
         return ranges
 
     def _fit_ranges(self, points: np.ndarray, tips: np.ndarray):
-        (x0, x1), (y0, y1) = core_biplot.plane_limits(points, tips)
+        (x0, x1), (y0, y1) = plot_layout.plane_limits(points, tips)
         legend = (self.legend_width_px + _LEGEND_GAP_PX) / self._plot_height_px()
         # width / height = (x span + legend * y span) / y span <= _MAX_ASPECT
         tall = (x1 - x0) / (_MAX_ASPECT - legend)
@@ -526,7 +504,7 @@ class BiplotView(ScatterView):
         per_px = y_span / self._plot_height_px()  # equal aspect: the same along x
         boxes = np.array(
             [
-                [_text_width_px(name) + 2 * _LABEL_PAD_PX, 2 * _LABEL_HALF_HEIGHT_PX]
+                [plot_layout.text_width_px(name) + 2 * _LABEL_PAD_PX, 2 * _LABEL_HALF_HEIGHT_PX]
                 for name in names
             ],
             dtype=float,
@@ -535,7 +513,7 @@ class BiplotView(ScatterView):
         tips = np.ascontiguousarray(tips, dtype=float)
 
         def place() -> np.ndarray:
-            return core_biplot.ray_label_positions(
+            return plot_layout.ray_label_positions(
                 tips, _LABEL_GAP_PX * per_px, box_sizes=boxes, tip_radius=_TIP_RADIUS_PX * per_px
             )
 

@@ -40,7 +40,7 @@ from ._first import observe_first
 
 __all__ = ["BalanceBuilder"]
 
-#: Errors of a proposed tree that become a message in ``error`` (core.SBPError is a
+#: Errors of a proposed tree that become a message in ``messages`` (core.SBPError is a
 #: ValueError; malformed JSON from the front end may raise the others).
 _REFUSED = (ValueError, TypeError, KeyError, t.TraitError)
 
@@ -121,7 +121,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         ``children`` = ``[]`` (leaf) or ``[numerator, denominator]``; SBP rows are
         the split nodes in pre-order (:mod:`compwidgets.core.tree`). The front
         end proposes an edit by setting it; an invalid tree is refused: the
-        trait goes back to the last valid tree, ``error`` says why and the
+        trait goes back to the last valid tree, ``messages`` says why and the
         model is unchanged.
     stats : list of dict
         One entry per split node, pre-order: ``id``, ``name`` (as shown and
@@ -153,8 +153,9 @@ class BalanceBuilder(anywidget.AnyWidget):
         Selected rows (``model.selection.size``).
     groups : list of dict
         ``{"code", "name", "colour"}`` per category of ``model.group_column``.
-    error : str
-        Why the last change was refused or a suggestion failed ("" = fine).
+    messages : str
+        The builder's message area: why the last change was refused or a
+        suggestion failed ("" = fine).
     busy : bool
         True while a suggestion that took more than :attr:`progress_delay` s runs.
     progress : str
@@ -193,7 +194,7 @@ class BalanceBuilder(anywidget.AnyWidget):
     n_rows = t.Int(0).tag(sync=True)
     n_selected = t.Int(0).tag(sync=True)
     groups = t.List(t.Dict()).tag(sync=True)
-    error = t.Unicode("").tag(sync=True)
+    messages = t.Unicode("").tag(sync=True)
     busy = t.Bool(False).tag(sync=True)
     progress = t.Unicode("").tag(sync=True)
     colour_balance = t.Unicode("").tag(sync=True)
@@ -264,7 +265,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         -------
         bool
             True when the suggestion became the tree (and the model's SBP);
-            otherwise ``error`` says why.
+            otherwise ``messages`` says why.
         """
         parts = list(self.parts)
         ok = self.model.complete_rows()
@@ -293,11 +294,11 @@ class BalanceBuilder(anywidget.AnyWidget):
             elif method == "ward":
                 sbp = _principal.ward_sbp(Z, parts)
             else:
-                self.error = f"unknown suggestion {method!r}; use 'principal' or 'ward'"
+                self.messages = f"unknown suggestion {method!r}; use 'principal' or 'ward'"
                 return False
             tree = sbp_to_tree(sbp, parts)
         except _REFUSED as err:
-            self.error = f"no suggestion: {err}"
+            self.messages = f"no suggestion: {err}"
             return False
         finally:
             if self.busy:
@@ -415,7 +416,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         """Send the last valid tree back, with the reason."""
         with self.hold_sync():
             self._set_quietly("tree", copy.deepcopy(self._last_tree))
-            self.error = f"change refused: {message}. The balances are unchanged."
+            self.messages = f"change refused: {message}. The balances are unchanged."
 
     def _set_quietly(self, name: str, value) -> None:
         """Assign one of this widget's traits without running the front-end handlers."""
@@ -464,7 +465,7 @@ class BalanceBuilder(anywidget.AnyWidget):
             self._set_quietly("colour_balance", colour_id)
             self._publish_stats()
             self._publish_selection()
-            self.error = warning
+            self.messages = warning
 
     # --------------------------------------------------------- model -> kernel
     def _tree_for_model(self, parts: list[str]) -> dict:
@@ -528,7 +529,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         with self.hold_sync():
             self._publish_stats()
             self._publish_selection()
-            self.error = warning
+            self.messages = warning
 
     def _on_model_selection(self, change) -> None:
         self._publish_selection()
@@ -561,7 +562,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         if new and new not in part.ids:
             with self.hold_sync():
                 self._set_quietly("colour_balance", old if old in part.ids else "")
-                self.error = f"change refused: no balance has the id {new!r}."
+                self.messages = f"change refused: no balance has the id {new!r}."
             return
         name = part.display[part.ids.index(new)] if new else ""
         if self.model.colour_by == name:
@@ -572,7 +573,7 @@ class BalanceBuilder(anywidget.AnyWidget):
         except t.TraitError as err:
             with self.hold_sync():
                 self._set_quietly("colour_balance", old if old in part.ids else "")
-                self.error = f"change refused: {err}."
+                self.messages = f"change refused: {err}."
         finally:
             self._pushing = False
 

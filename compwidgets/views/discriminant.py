@@ -43,11 +43,11 @@ import numpy as np
 import traitlets as t
 
 from ..core import CompositionError, geometry
-from ..core import biplot as core_biplot
 from ..core import discriminant as core_discriminant
 from ..discriminant import CAUTION, GroupDiscriminant
 from ..model import CompositionModel
 from . import _common as cm
+from ._plot_layout import plane_limits
 from ._scatter import ScatterView
 from ._threads import one_blas_thread
 
@@ -250,7 +250,7 @@ class DiscriminantView(ScatterView):
 
     def _plane_ranges(self, xy: np.ndarray):
         corners = geometry.bounding_corners(xy[:, 0], xy[:, 1])  # the same limits, 4 numbers
-        (x0, x1), (y0, y1) = core_biplot.plane_limits(
+        (x0, x1), (y0, y1) = plane_limits(
             corners, np.zeros((0, 2)), aspect_range=(0.75, _MAX_ASPECT)
         )
         legend = (self.legend_width_px + _LEGEND_GAP_PX) / self._plot_height_px()
@@ -291,8 +291,8 @@ class DiscriminantView(ScatterView):
         ]  # fmt: skip
         self.confusion_figure = bq.Figure(
             marks=[self.confusion], axes=self._grid_axes, animation_duration=0,
-            fig_margin={"top": 10, "bottom": 60, "left": 130, "right": 10},
-            layout=widgets.Layout(width="380px", height="300px"), padding_x=0, padding_y=0,
+            fig_margin={"top": 10, "bottom": 60, "left": 130, "right": 60},
+            layout=widgets.Layout(width="430px", height="300px"), padding_x=0, padding_y=0,
         )  # fmt: skip
         self.confusion_note = widgets.Label()
 
@@ -327,8 +327,9 @@ class DiscriminantView(ScatterView):
         )  # fmt: skip
         self._kind_buttons.observe(self._guard(self._on_kind_button), names=["value"])
         self._priors_menu = widgets.Dropdown(
-            options=[("priors: group shares", "proportional"), ("priors: equal", "equal")],
-            value=self.priors, layout=widgets.Layout(width="190px"),
+            options=[("group shares", "proportional"), ("equal", "equal")],
+            value=self.priors, description="priors", style={"description_width": "initial"},
+            layout=widgets.Layout(width="auto"),
         )  # fmt: skip
         self._priors_menu.observe(self._guard(self._on_priors_menu), names=["value"])
         self.controls = widgets.HBox([self._kind_buttons, self._priors_menu])

@@ -28,6 +28,7 @@ import traitlets as t
 from .. import core
 from ..units import normalize_unit
 from ._errors import shows_errors
+from ._words import counted
 from .heatmap import VariationHeatmap
 
 __all__ = ["SubcompositionPicker", "part_groups"]
@@ -69,7 +70,7 @@ def part_groups(composition) -> dict[str, list[str]]:
 
 
 def _group_label(key: str, members: list[str]) -> str:
-    n = len(members)
+    n = counted(len(members), "part")
     if key == "all":
         return f"every part ({n})"
     if key == "majors":
@@ -99,7 +100,7 @@ class SubcompositionPicker(w.VBox):
     bulk_group : ipywidgets.Dropdown
         A group of parts (every part, majors, traces, a unit, those matching
         the filter) for the buttons ``bulk_buttons`` (use only, add, remove).
-    message : ipywidgets.Label
+    status : ipywidgets.Label
         What the last action did, or why it was refused.
     variation : pandas.DataFrame or None
         The variation matrix shown (complete rows of the active parts).
@@ -113,8 +114,8 @@ class SubcompositionPicker(w.VBox):
         "Show in ternary k": the picked pair and the part that adds most
         log-ratio variance to both.
     ternary_dropdowns : list of tuple of three ipywidgets.Dropdown
-    output : ipywidgets.Output
-        Shows errors raised in callbacks.
+    messages : ipywidgets.Output
+        Shows errors raised in callbacks (the same name in every view).
     """
 
     def __init__(self, model, ternaries: Sequence = (), **kwargs):
@@ -125,11 +126,11 @@ class SubcompositionPicker(w.VBox):
         self.variation: pd.DataFrame | None = None
         self.total_variance: float | None = None
         self.picked_pair: tuple[str, str] | None = None
-        self.output = w.Output()
-        capture = shows_errors(self.output)
+        self.messages = w.Output()
+        capture = shows_errors(self.messages)
         self._groups = part_groups(model.composition)
 
-        self.message = w.Label(value="")
+        self.status = w.Label(value="")
         self.parts_select = w.SelectMultiple(
             options=list(model.available_parts),
             value=tuple(model.active_parts),
@@ -182,9 +183,16 @@ class SubcompositionPicker(w.VBox):
         for i, view in enumerate(self.ternaries):
             current = [str(p) for p in view.parts]
             options = self._ternary_options(current)
+            # named by the corner each part takes (the order of core.ternary.VERTICES)
             dds = tuple(
-                w.Dropdown(options=options, value=p, layout=w.Layout(width="10em"))
-                for p in current
+                w.Dropdown(
+                    options=options,
+                    value=p,
+                    description=corner,
+                    style={"description_width": "initial"},
+                    layout=w.Layout(width="auto", max_width="14em"),
+                )
+                for p, corner in zip(current, ("top", "left", "right"), strict=False)
             )
             if len(dds) != 3:
                 raise ValueError(
@@ -249,8 +257,8 @@ class SubcompositionPicker(w.VBox):
             self.total_label,
             self.largest_label,
             self.rows_label,
-            self.message,
-            self.output,
+            self.status,
+            self.messages,
         ]
         super().__init__(children=sections, **kwargs)
         self._refresh_heat()
@@ -572,7 +580,7 @@ class SubcompositionPicker(w.VBox):
         ok = self.model.complete_rows(parts)
         n_ok, n = int(ok.sum()), self.model.n_rows
         left_out = (
-            f"; {n - n_ok:,} row(s) with a missing or zero value in these parts are left out"
+            f"; {counted(n - n_ok, 'row')} with a missing or zero value in these parts left out"
             if n_ok < n
             else ""
         )
@@ -648,4 +656,4 @@ class SubcompositionPicker(w.VBox):
         return self.set_ternary_parts(i, [a, b, third])
 
     def _say(self, text: str) -> None:
-        self.message.value = text
+        self.status.value = text

@@ -3,16 +3,17 @@
 :class:`SelectionBar` shows the size of the model's selection, clears or
 inverts it, turns it into a group column (a new colour in every view) and
 writes exports to files the user names: the ilr coordinates (CSV), the SBP
-(JSON), the selected rows (CSV), and each view as PNG or SVG. Each export
-reports what it wrote (path and rows) or why it did not.
+(JSON) and the selected rows (CSV). Each export reports what it wrote (path,
+rows, balances) or why it did not. Figures are saved by each view's own "Save
+figure" control, not here.
 
-File contents come from :mod:`compwidgets.export` and the views' own
-``save_png`` / ``save_svg``; this module only resolves the file name.
+File contents come from :mod:`compwidgets.export`; this module only resolves
+the file name.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from pathlib import Path
 
 import ipywidgets as w
@@ -20,6 +21,7 @@ import traitlets as t
 
 from ._errors import shows_errors
 from ._first import observe_first
+from ._words import counted
 
 __all__ = ["SelectionBar"]
 
@@ -29,12 +31,6 @@ def _fit() -> w.Layout:
     return w.Layout(width="auto")
 
 
-def _view_name(i: int, view) -> str:
-    title = getattr(view, "title", "") or ""
-    kind = type(view).__name__
-    return f"{i + 1}: {kind}" + (f" ({title})" if title and isinstance(title, str) else "")
-
-
 class ExportRefused(ValueError):
     """An export that was not attempted (no file name, file exists, nothing to write)."""
 
@@ -42,32 +38,33 @@ class ExportRefused(ValueError):
 class SelectionBar(w.VBox):
     """Selection count, clear / invert, group from the selection, and exports.
 
+    The controls stand in one line that wraps on a narrow screen; under it the
+    ``status`` line and the ``messages`` area.
+
     Parameters
     ----------
     model : CompositionModel
-    views : sequence of views
-        Views offered for PNG / SVG export (anything with ``save_png(path)``
-        and ``save_svg(path)``).
 
     Attributes
     ----------
     count_label : ipywidgets.Label
-        E.g. "123 of 2,000 samples selected".
+        E.g. "123 of 2,000 rows selected".
     count_value : ipywidgets.Label
         Just the count, plain digits ("123").
     file_name : ipywidgets.Text
         File name for the exports (the suffix is added when missing).
     overwrite : ipywidgets.Checkbox
         Allow replacing an existing file.
-    message : ipywidgets.Label
+    status : ipywidgets.Label
         What the last action did (path and rows), or why it did not.
+    messages : ipywidgets.Output
+        Shows errors raised in callbacks (the same name in every view).
     """
 
-    def __init__(self, model, views: Sequence = (), **kwargs):
+    def __init__(self, model, **kwargs):
         self.model = model
-        self.views = list(views)
-        self.output = w.Output()
-        capture = shows_errors(self.output)
+        self.messages = w.Output()
+        capture = shows_errors(self.messages)
 
         self.count_label = w.Label(value="")
         self.count_value = w.Label(value="", layout=w.Layout(display="none"))
@@ -76,12 +73,27 @@ class SelectionBar(w.VBox):
         self.clear_button.on_click(capture(lambda _b: self.model.clear_selection()))
         self.invert_button.on_click(capture(lambda _b: self.model.invert_selection()))
 
-        self.group_name = w.Text(placeholder="name of the new group column", description="Group")
+        self.group_name = w.Text(
+            placeholder="new column name",
+            description="Group",
+            style={"description_width": "initial"},
+            layout=w.Layout(width="17em"),
+        )
         self.group_button = w.Button(description="Make a group from the selection", layout=_fit())
         self.group_button.on_click(capture(lambda _b: self.make_group(self.group_name.value)))
 
-        self.file_name = w.Text(placeholder="file name, e.g. survey_ilr.csv", description="File")
-        self.overwrite = w.Checkbox(value=False, description="overwrite an existing file")
+        self.file_name = w.Text(
+            placeholder="e.g. survey_ilr.csv",
+            description="Export to file",
+            style={"description_width": "initial"},
+            layout=w.Layout(width="19em"),
+        )
+        self.overwrite = w.Checkbox(
+            value=False,
+            description="overwrite an existing file",
+            indent=False,
+            layout=w.Layout(width="auto"),
+        )
         self.ilr_button = w.Button(description="ilr coordinates (CSV)", layout=_fit())
         self.sbp_button = w.Button(description="SBP (JSON)", layout=_fit())
         self.selected_button = w.Button(description="Selected rows (CSV)", layout=_fit())
@@ -89,30 +101,26 @@ class SelectionBar(w.VBox):
         self.sbp_button.on_click(capture(lambda _b: self.export_sbp()))
         self.selected_button.on_click(capture(lambda _b: self.export_selected()))
 
-        self.view_select = w.Dropdown(
-            options=[(_view_name(i, v), i) for i, v in enumerate(self.views)],
-            description="View",
+        self.status = w.Label(value="")
+        line = w.HBox(
+            [
+                w.HBox(
+                    [self.count_label, self.count_value, self.clear_button, self.invert_button]
+                ),
+                w.HBox([self.group_name, self.group_button]),
+                w.HBox(
+                    [
+                        self.file_name,
+                        self.ilr_button,
+                        self.sbp_button,
+                        self.selected_button,
+                        self.overwrite,
+                    ]
+                ),
+            ]
         )
-        self.png_button = w.Button(description="View as PNG", layout=_fit())
-        self.svg_button = w.Button(description="View as SVG", layout=_fit())
-        self.png_button.on_click(
-            capture(lambda _b: self.export_view(self.view_select.value, "png"))
-        )
-        self.svg_button.on_click(
-            capture(lambda _b: self.export_view(self.view_select.value, "svg"))
-        )
-
-        self.message = w.Label(value="")
-        rows = [
-            w.HBox([self.count_label, self.count_value, self.clear_button, self.invert_button]),
-            w.HBox([self.group_name, self.group_button]),
-            w.HBox([self.file_name, self.overwrite]),
-            w.HBox([self.ilr_button, self.sbp_button, self.selected_button]),
-        ]
-        if self.views:
-            rows.append(w.HBox([self.view_select, self.png_button, self.svg_button]))
-        rows += [self.message, self.output]
-        super().__init__(children=rows, **kwargs)
+        line.add_class("cw-bar")
+        super().__init__(children=[line, self.status, self.messages], **kwargs)
 
         self._on_selection = capture(self._selection_changed)
         # the count is sent before the views restyle their points (see _first)
@@ -137,7 +145,7 @@ class SelectionBar(w.VBox):
             self._say(f"No group made: {err}.")
             return False
         counts = column.value_counts()
-        parts = ", ".join(f"{int(counts[c]):,} {c}" for c in column.cat.categories)
+        parts = ", ".join(f"{counted(counts[c], 'row')} {c}" for c in column.cat.categories)
         self._say(f"Made the group column {name!r} ({parts}); the views now colour by it.")
         self.group_name.value = ""
         return True
@@ -151,13 +159,14 @@ class SelectionBar(w.VBox):
 
             save_ilr_csv(self.model, path)
             n, ok = self.model.n_rows, int(self.model.complete_rows().sum())
-            verb = "is" if n - ok == 1 else "are"
             gaps = (
-                f"; {n - ok:,} of the rows {verb} incomplete (their balances are empty)"
+                f"; {counted(n - ok, 'row')} of them incomplete (their balances are empty)"
                 if ok < n
                 else ""
             )
-            return f"{n:,} rows x {len(self.model.balance_names)} balances{gaps}"
+            return (
+                f"{counted(n, 'row')} x {counted(len(self.model.balance_names), 'balance')}{gaps}"
+            )
 
         return self._export("ilr coordinates", ".csv", write)
 
@@ -170,7 +179,7 @@ class SelectionBar(w.VBox):
 
             save_sbp(self.model, path)
             k, D = self.model.sbp.shape
-            return f"{k} balances over {D} parts"
+            return f"{counted(k, 'balance')} over {counted(D, 'part')}"
 
         return self._export("SBP", ".json", write)
 
@@ -183,29 +192,9 @@ class SelectionBar(w.VBox):
             from ..export import save_selected_csv
 
             n = save_selected_csv(self.model, path)
-            return f"{int(n):,} rows"
+            return counted(int(n), "row")
 
         return self._export("selected rows", ".csv", write)
-
-    def export_view(self, k: int | None, kind: str) -> Path | None:
-        """Save view ``k`` as ``kind`` ("png" or "svg") to the named file."""
-        if kind not in ("png", "svg"):
-            raise ValueError(f"export_view: kind must be 'png' or 'svg', got {kind!r}")
-        if k is None or not 0 <= int(k) < len(self.views):
-            self._say(f"Not written: no view {k!r} to save (views: {len(self.views)}).")
-            return None
-        view = self.views[int(k)]
-        name = _view_name(int(k), view)
-
-        def write(path: Path) -> str:
-            save = getattr(view, f"save_{kind}", None)
-            if save is None:
-                raise ExportRefused(f"view {name} has no save_{kind}")
-            # the name as typed (suffix added): a browser download uses it as the file name
-            save(str(self._typed_name(f".{kind}")))
-            return kind.upper()
-
-        return self._export(f"view {name}", f".{kind}", write, browser=True)
 
     def close(self) -> None:
         """Stop following the model, then close the widgets."""
@@ -221,7 +210,7 @@ class SelectionBar(w.VBox):
 
     def _show_count(self) -> None:
         n, total = self.count, self.model.n_rows
-        self.count_label.value = f"{n:,} of {total:,} samples selected"  # the one on screen
+        self.count_label.value = f"{n:,} of {counted(total, 'row')} selected"  # the one on screen
         self.count_value.value = str(n)
 
     def _typed_name(self, suffix: str) -> Path:
@@ -250,9 +239,7 @@ class SelectionBar(w.VBox):
         if self.model.sbp is None:
             raise ExportRefused("no SBP yet: build one in the balance builder")
 
-    def _export(
-        self, what: str, suffix: str, write: Callable[[Path], str], browser: bool = False
-    ) -> Path | None:
+    def _export(self, what: str, suffix: str, write: Callable[[Path], str]) -> Path | None:
         try:
             path = self._target(suffix)
             detail = write(path)
@@ -263,16 +250,10 @@ class SelectionBar(w.VBox):
             self._say(f"{what.capitalize()} not written: {err}.")
             return None
         if not path.exists():
-            if browser:
-                self._say(
-                    f"Asked the browser to save {what} as a download named {path.name!r} "
-                    "(the view must be on screen; the kernel writes no file)."
-                )
-            else:
-                self._say(f"{what.capitalize()}: no file was written at {str(path)!r}.")
+            self._say(f"{what.capitalize()}: no file was written at {str(path)!r}.")
             return path
         self._say(f"Wrote {what} to {str(path)!r} ({detail}).")
         return path
 
     def _say(self, text: str) -> None:
-        self.message.value = text
+        self.status.value = text

@@ -26,6 +26,7 @@ from collections.abc import Sequence
 import bqplot as bq
 import ipywidgets as widgets
 import numpy as np
+import pandas as pd
 import traitlets as t
 
 from ..core import CompositionError, center, closure
@@ -87,6 +88,10 @@ class TernaryView(ScatterView):
         compositional curves (straight lines in ilr for the linear rule);
         :func:`compwidgets.core.discriminant.decision_boundaries`.
     boundary_kind : {"linear", "quadratic"}, default "linear"
+    boundary_priors : {"proportional", "equal"}, default "proportional"
+        Prior probabilities of the groups in that rule: their shares of the
+        rows, or equal. The workbench keeps it equal to the discriminant
+        view's ``priors``, so both views assign with the same priors.
     id_column : str, default ""
         Metadata column shown as the sample id on hover ("" = the row label).
     **kwargs
@@ -103,6 +108,7 @@ class TernaryView(ScatterView):
     compositional_line = t.Any(None, allow_none=True)
     boundaries = t.Bool(False)
     boundary_kind = t.Enum(core_discriminant.KINDS, default_value="linear")
+    boundary_priors = t.Enum(core_discriminant.PRIORS, default_value="proportional")
 
     #: Rows a boundary rule is fitted on at most (a stratified random sample beyond).
     boundary_max_rows = 50_000
@@ -120,15 +126,19 @@ class TernaryView(ScatterView):
         compositional_line=None,
         boundaries: bool = False,
         boundary_kind: str = "linear",
+        boundary_priors: str = "proportional",
         id_column: str = "",
         **kwargs,
     ):
         self._follow = parts is None
         self._internal = False
         self._notice = ""  # a lasting note about the parts shown (kept across redraws)
+        self._active_before: set[str] = set()  # to tell which parts left the active set
+        self._left_active: list[str] = []  # shown parts a change took out of the active ones
         self._centring: np.ndarray | None = None
         self._boundary_cache: tuple = ((), [], "")  # (key, curves, note)
         super().__init__(model, **kwargs)
+        self._active_before = set(model.active_parts)
         self._build_boundary_controls()
         self._internal = True
         try:
@@ -143,11 +153,18 @@ class TernaryView(ScatterView):
         self.id_column = id_column
         self.compositional_line = compositional_line
         self.boundary_kind = boundary_kind
+        self.boundary_priors = boundary_priors
         self.boundaries = boundaries
         self._start()
 
     def _build_boundary_controls(self) -> None:
-        """The toggle and rule menu of the decision boundaries, under the toolbar."""
+        """The view's own controls under the toolbar: centring, decision boundaries, rule."""
+        self._centring_toggle = widgets.ToggleButton(
+            description="centred", icon="crosshairs", value=False,
+            tooltip="perturb the points and the grid by the inverse of the data centre "
+            "(the centre moves to the middle; the grid keeps the original shares)",
+            layout=widgets.Layout(width="auto"),
+        )  # fmt: skip
         self._boundary_toggle = widgets.ToggleButton(
             description="decision boundaries", icon="random", value=False,
             tooltip="boundaries of a discriminant rule fitted on these 3 parts and the groups",
@@ -155,13 +172,17 @@ class TernaryView(ScatterView):
         )  # fmt: skip
         self._boundary_menu = widgets.Dropdown(
             options=[("linear rule", "linear"), ("quadratic rule", "quadratic")],
-            value="linear", layout=widgets.Layout(width="150px"),
+            value="linear", description="rule", style={"description_width": "initial"},
+            layout=widgets.Layout(width="auto"),
         )  # fmt: skip
         self._boundary_links = [
+            widgets.link((self._centring_toggle, "value"), (self, "centred")),
             t.link((self._boundary_toggle, "value"), (self, "boundaries")),
             t.link((self._boundary_menu, "value"), (self, "boundary_kind")),
         ]
-        self.boundary_controls = widgets.HBox([self._boundary_toggle, self._boundary_menu])
+        self.boundary_controls = widgets.HBox(
+            [self._centring_toggle, self._boundary_toggle, self._boundary_menu]
+        )
         children = list(self.children)
         self.children = [*children[:1], self.boundary_controls, *children[1:]]
 
@@ -170,7 +191,9 @@ class TernaryView(ScatterView):
         for link in getattr(self, "_boundary_links", []):
             link.unlink()
         self._boundary_links = []
-        for name in ("boundary_controls", "_boundary_toggle", "_boundary_menu"):
+        for name in (
+            "boundary_controls", "_centring_toggle", "_boundary_toggle", "_boundary_menu"
+        ):  # fmt: skip
             widget = getattr(self, name, None)
             if widget is not None:
                 widget.close()
@@ -262,6 +285,7 @@ class TernaryView(ScatterView):
         if not self._internal:
             self._follow = False
             self._notice = ""
+        self._left_active = []
         if self._ready:
             self._set_vertex_labels()
             self.refresh()
@@ -278,6 +302,7 @@ class TernaryView(ScatterView):
         "compositional_line",
         "boundaries",
         "boundary_kind",
+        "boundary_priors",
     )
     def _on_overlay_options(self, change):
         if self._ready:
@@ -287,13 +312,18 @@ class TernaryView(ScatterView):
         """Show the model's first three active parts again, and follow them."""
         self._follow = True
         self._notice = ""
+        self._left_active = []
         self._internal = True
         try:
             self.parts = self._followed_parts()
         finally:
             self._internal = False
+        if self._ready:
+            self._draw_overlays()  # the notes, also when the parts stayed the same
 
     def _on_parts_source_changed(self) -> None:
+        active = list(self.model.active_parts)
+        before, self._active_before = self._active_before, set(active)
         if self._follow:
             new = self._followed_parts()
             if new != list(self.parts):
@@ -309,6 +339,12 @@ class TernaryView(ScatterView):
             self._notice = f"parts {gone} no longer exist in the model; showing active parts"
             self._draw_overlays()
             return
+        # parts chosen for this view that a change took out of the active parts: shown
+        # still (the user chose them); a note says so until they are back or changed
+        self._left_active = [
+            p for p in self.parts
+            if p not in active and (p in before or p in self._left_active)
+        ]  # fmt: skip
         self.refresh()  # an amalgamation may have new members
 
     # ----------------------------------------------------------- ScatterView
@@ -430,8 +466,7 @@ class TernaryView(ScatterView):
         """The data centre when centred (the grid is perturbed by its inverse), else None."""
         if self._centring is None:
             return None
-        inv = 1.0 / self._centring
-        return inv / inv.sum()
+        return core_ternary.centre_of_centring(self._centring)
 
     def _to_view(self, closed: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         if self._centring is not None:
@@ -500,6 +535,13 @@ class TernaryView(ScatterView):
                 else "known-parameter regions (chi-square, normal model on ilr) at "
             )
             notes.insert(0, label + ", ".join(_format_level(v) + " %" for v in levels))
+        if self._left_active:
+            left = self._left_active
+            notes.insert(
+                0,
+                f"{', '.join(left)} {'is' if len(left) == 1 else 'are'} no longer among the "
+                "active parts; shown here still (choose other parts, or follow_active_parts())",
+            )
         if self._notice:
             notes.insert(0, self._notice)
         self._set_note("overlays", "; ".join(notes))
@@ -523,7 +565,9 @@ class TernaryView(ScatterView):
         m = self.model
         key = (
             tuple((p, tuple(m.members(p))) for p in self.parts),
-            m.group_column, m.metadata_version, self.boundary_kind, self.rows.size,
+            m.group_column, m.metadata_version, self.boundary_kind, self.boundary_priors,
+            tuple(m.active_parts) if self.boundary_priors == "proportional" else (),
+            self.rows.size,
         )  # fmt: skip
         if self._boundary_cache[0] != key:
             curves, note = [], ""
@@ -531,16 +575,20 @@ class TernaryView(ScatterView):
                 if not m.group_column:
                     raise CompositionError("the model has no grouping column")
                 categories, codes = m.group_codes()
-                shown = codes[self.rows]
-                labels = np.array([categories[c] if c >= 0 else None for c in shown], object)
+                labels = pd.Categorical.from_codes(codes[self.rows], categories=categories)
                 fit = core_discriminant.fit_discriminant(
-                    self._closed_shown, labels, kind=self.boundary_kind, classes=categories,
+                    self._closed_shown, labels, kind=self.boundary_kind,
+                    priors=self._boundary_prior_weights(categories, codes), classes=categories,
                     max_rows=self.boundary_max_rows, seed=self.seed,
                 )  # fmt: skip
                 curves = [b.curve for b in core_discriminant.decision_boundaries(fit)]
+                prior = (
+                    "priors: group shares" if self.boundary_priors == "proportional"
+                    else "priors: equal"
+                )  # fmt: skip
                 note = (
                     f"decision boundaries of a {self.boundary_kind} discriminant of "
-                    f"{m.group_column!r} fitted on these 3 parts (exploratory)"
+                    f"{m.group_column!r} fitted on these 3 parts ({prior}; exploratory)"
                 )
                 if fit.left_out:
                     note += f", without {', '.join(map(repr, fit.left_out))} (too few rows)"
@@ -550,6 +598,26 @@ class TernaryView(ScatterView):
         _, curves, note = self._boundary_cache
         notes.append(note)
         return curves
+
+    def _boundary_prior_weights(self, categories, codes):
+        """The priors of the boundary rule: those the discriminant view's rule uses.
+
+        That rule is fitted on the rows complete in the active parts: with
+        "proportional" priors, the groups' shares of those rows (not of the rows
+        shown here, which may be more); "equal" as it is.
+        """
+        if self.boundary_priors != "proportional":
+            return self.boundary_priors
+        rows = self.model.complete_rows(list(self.model.active_parts))
+        groups = pd.Categorical.from_codes(codes[rows], categories=categories)
+        return core_discriminant.group_shares(groups, classes=categories)
+
+    @property
+    def boundary_curves(self) -> list[np.ndarray]:
+        """The decision boundaries drawn (closed compositions, float64), [] when off."""
+        if not self.boundaries or not self._ready:
+            return []
+        return list(self._boundary_cache[1])
 
     def _groups(self) -> list[tuple[str, str, np.ndarray]]:
         """(name, colour, closed 3-part data) of each group among the rows shown."""

@@ -45,6 +45,7 @@ from ._errors import shows_errors
 from ._later import run_when_idle
 from ._progress import ProgressLine
 from ._threads import one_blas_thread
+from ._words import counted
 
 __all__ = ["CAUTION", "TriageItem", "TriagePanel", "intake_items"]
 
@@ -379,7 +380,10 @@ class TriagePanel(w.VBox):
         The fit of all complete rows (None when screening by group).
     distances : ndarray or None
         Robust distance per row (NaN for rows not screened).
-    message : ipywidgets.Label
+    status : ipywidgets.Label
+        What the last click selected.
+    messages : ipywidgets.Output
+        Shows errors raised in callbacks (the same name in every view).
     progress : ProgressLine
         Stage and progress bar of a running screening (hidden when none runs).
     limits_label : ipywidgets.Label
@@ -416,11 +420,11 @@ class TriagePanel(w.VBox):
         self._shown = False  # on screen once: screen after each change
         self._pending = False  # a screening is scheduled for when the kernel is idle
         self._screening = False
-        self.output = w.Output()
-        capture = shows_errors(self.output)
+        self.messages = w.Output()
+        capture = shows_errors(self.messages)
 
         self.caution = w.Label(value=CAUTION, style={"font_weight": "bold"})
-        self.message = w.Label(value="")
+        self.status = w.Label(value="")
         self.mode = w.Dropdown(
             options=[
                 ("replace the selection", "replace"),
@@ -497,7 +501,11 @@ class TriagePanel(w.VBox):
                 children.append(
                     w.Label(
                         value="Flagged rows and why (click one to select it)"
-                        + (f"; first {len(shown):,} of {len(flagged):,} listed" if more else "")
+                        + (
+                            f"; first {len(shown):,} of {counted(len(flagged), 'row')} listed"
+                            if more
+                            else ""
+                        )
                     )
                 )
                 children.append(self.flag_list)
@@ -513,8 +521,8 @@ class TriagePanel(w.VBox):
             self.progress,
             self.outlier_label,
             self.outlier_box,
-            self.message,
-            self.output,
+            self.status,
+            self.messages,
         ]
         super().__init__(children=children, **kwargs)
         self._on_model = capture(self._model_changed)
@@ -651,8 +659,8 @@ class TriagePanel(w.VBox):
         notes = []
         if rows.size < model.n_rows:
             notes.append(
-                f"{model.n_rows - rows.size:,} row(s) with a missing or zero value in the active "
-                "parts not screened"
+                f"{counted(model.n_rows - rows.size, 'row')} with a missing or zero value in the "
+                "active parts not screened"
             )
         try:
             self.progress.show(0, 2, f"ilr coordinates of {rows.size:,} complete rows")
@@ -673,7 +681,9 @@ class TriagePanel(w.VBox):
                 )
                 no_value = int((codes < 0).sum())
                 if no_value:
-                    notes.append(f"{no_value:,} row(s) without a {model.group_column} value")
+                    notes.append(
+                        f"{counted(no_value, 'row')} without a {model.group_column} value"
+                    )
                 for label, reason in skipped.items():
                     notes.append(f"group {label} not screened: {reason}")
                 if not fits:
@@ -738,7 +748,7 @@ class TriagePanel(w.VBox):
     # ---------------------------------------------------------- internals
     def _button(self, item: TriageItem) -> w.Button:
         button = w.Button(
-            description=f"{item.label} ({item.count:,})",
+            description=f"{item.label} ({counted(item.count, 'row')})",
             tooltip="select these rows in every view",
             layout=w.Layout(width="auto", max_width="100%"),
         )
@@ -751,9 +761,9 @@ class TriagePanel(w.VBox):
             if b is button:
                 self.select_item(k)
                 item = (self._intake_items + self._outlier_items)[k]
-                self.message.value = (
-                    f"{self.mode.value}: {item.count:,} row(s) of {item.label!s}; "
-                    f"{self.model.selection.size:,} selected"
+                self.status.value = (
+                    f"{self.mode.value}: {counted(item.count, 'row')} of {item.label!s}; "
+                    f"{counted(self.model.selection.size, 'row')} selected"
                 )
                 return
 

@@ -50,6 +50,8 @@ ARTIFACTS = REPO / "test-artifacts"
 QUICK_START = REPO / "example_notebooks" / "01_quick_start.ipynb"
 GROUPS_NOTEBOOK = REPO / "example_notebooks" / "04_telling_groups_apart.ipynb"
 XSS_NOTEBOOK = "xss_labels.ipynb"
+#: A copy of the quick start for the layout test (it resizes its page).
+LAYOUT_NOTEBOOK = "layout_quick_start.ipynb"
 
 #: Chromium flags checked on these machines (see the team's browser-testing notes).
 CHROMIUM_FLAGS = [
@@ -197,6 +199,10 @@ class LabServer:
     def url(self) -> str:
         return f"http://127.0.0.1:{self.port}"
 
+    def classic_url(self, path: str) -> str:
+        """URL of ``path`` in Jupyter Notebook 7 (a server started with ``app="notebook"``)."""
+        return f"{self.url}/notebooks/{path}"
+
     def notebook_url(self, path: str, workspace: str) -> str:
         """URL opening ``path`` in its own fresh workspace (nothing restored from another page)."""
         return f"{self.url}/lab/workspaces/{workspace}/tree/{path}?reset"
@@ -222,8 +228,12 @@ class LabServer:
             _stop_pids(leftovers)
 
 
-def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
-    """Start JupyterLab in ``base/root`` with ``notebooks`` (name -> source path or JSON text)."""
+def start_lab(base: Path, notebooks: dict[str, Path | str], app: str = "lab") -> LabServer:
+    """Start JupyterLab in ``base/root`` with ``notebooks`` (name -> source path or JSON text).
+
+    ``app="notebook"`` starts Jupyter Notebook 7 instead (same server options; its page
+    exposes ``window.jupyterapp`` too).
+    """
     root, config, runtime, workspaces = (base / d for d in ("root", "config", "runtime", "ws"))
     for d in (root, config, runtime, workspaces):
         d.mkdir(parents=True, exist_ok=True)
@@ -245,14 +255,20 @@ def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
     for _attempt in range(3):  # the free port may be taken between the probe and the bind
         port = free_port()
         cmd = [
-            sys.executable, "-m", "jupyter", "lab", "--no-browser",
+            sys.executable, "-m", "jupyter", "lab", "--no-browser",  # cmd[3]: the app
             "--ServerApp.ip=127.0.0.1", f"--ServerApp.port={port}", "--ServerApp.port_retries=0",
             "--IdentityProvider.token=", "--ServerApp.password=",
             f"--ServerApp.root_dir={root}", "--ServerApp.allow_root=True",
-            "--LabApp.news_url=None",
-            "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
-            "--LabApp.expose_app_in_browser=True",
         ]  # fmt: skip
+        if app == "lab":
+            cmd += [
+                "--LabApp.news_url=None",
+                "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
+                "--LabApp.expose_app_in_browser=True",
+            ]
+        else:
+            cmd[3] = "notebook"
+            cmd += ["--JupyterNotebookApp.expose_app_in_browser=True"]
         with open(log_path, "ab") as log:
             process = subprocess.Popen(
                 cmd, cwd=root, env=env, stdout=log, stderr=subprocess.STDOUT,
@@ -267,7 +283,8 @@ def start_lab(base: Path, notebooks: dict[str, Path | str]) -> LabServer:
                 with urllib.request.urlopen(f"{server.url}/api/status", timeout=2) as reply:
                     if reply.status == 200:
                         print(
-                            f"\nJupyterLab up on port {port} in {time.monotonic() - started:.1f} s"
+                            f"\njupyter {app} up on port {port} in "
+                            f"{time.monotonic() - started:.1f} s"
                         )
                         return server
             except (urllib.error.URLError, ConnectionError, TimeoutError, OSError):
@@ -347,6 +364,7 @@ def lab(chromium_executable, tmp_path_factory):
         tmp_path_factory.mktemp("jupyterlab"),
         {
             QUICK_START.name: QUICK_START,
+            LAYOUT_NOTEBOOK: QUICK_START,
             XSS_NOTEBOOK: xss_notebook_json(),
             GROUPS_NOTEBOOK.name: GROUPS_NOTEBOOK,
             LARGE_NOTEBOOK: one_cell_notebook(LARGE_SOURCE, "large-table"),

@@ -69,7 +69,7 @@ const countStyled = (mark, style) => {
   return n;
 };
 const countOf = (text) => {
-  const m = /([\\d,]+) of [\\d,]+ samples selected/.exec(text || "");
+  const m = /([\\d,]+) of [\\d,]+ rows? selected/.exec(text || "");
   return m ? Number(m[1].replace(/,/g, "")) : null;
 };
 """
