@@ -432,6 +432,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
             [self._tool_buttons, self._mode_dropdown, self._clear_button, self._close_button,
              self._balance_scale_box, self._symbols_box, self.figure_save],
             layout=widgets.Layout(
+                # wraps within the figure's first width: never wider than the view
                 flex_flow="row wrap", align_items="center", max_width=self.figure.layout.width
             ),
         )  # fmt: skip
@@ -450,9 +451,6 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         width = int(round(plot_w + m["left"] + m["right"]))
         ratio = width / self.height_px
         layout = self.figure.layout
-        toolbar = getattr(self, "toolbar", None)
-        if toolbar is not None and toolbar.layout.max_width != f"{width}px":
-            toolbar.layout.max_width = f"{width}px"  # wraps under the figure, no wider
         if (
             layout.width == f"{width}px"
             and layout.height == f"{self.height_px}px"
