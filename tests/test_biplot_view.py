@@ -552,7 +552,9 @@ def test_move_points_sends_positions_only_and_clears_the_brush(model, view, monk
     model.select(view.rows[::3])
     brush(view, (-0.5, 0.5), (-0.5, 0.5))
     selection = model.selection.copy()
-    assert view.brush.selected_x is not None
+    # the view took the rectangle, emptied the brush and draws the rectangle itself
+    assert view.brush.selected_x is None and view.selection_shape["kind"] == "rectangle"
+    assert len(view.selection_outline.x) == 5
     new_x = np.linspace(-1.0, 1.0, view.rows.size)
     new_y = -new_x
     spy = SendSpy(monkeypatch)
@@ -560,6 +562,8 @@ def test_move_points_sends_positions_only_and_clears_the_brush(model, view, monk
     np.testing.assert_allclose(view.scatter.x, new_x, atol=1e-6)
     np.testing.assert_allclose(view.scatter.y, new_y, atol=1e-6)
     assert view.brush.selected_x is None and view.brush.selected_y is None
+    # the outline was drawn on the old positions: gone (the selection stays)
+    assert view.selection_shape is None and len(view.selection_outline.x) == 0
     np.testing.assert_array_equal(model.selection, selection)  # the selection stays
     assert spy.keys_of(view.scatter) == {"x", "y"}
     assert not spy.keys_of(view.colour_scale)

@@ -4,12 +4,18 @@ One palette and one rule for group colours (the k-th category of the model's
 grouping column gets the k-th colour), so the same group has the same colour
 in every view of a model.
 
-The categorical palette was chosen for this package: nine colours spread in
-lightness (about 23 to 85 in CIELAB L*) and hue, checked to stay apart (CIELAB
-difference of at least 13 between any two) under simulated protanopia,
-deuteranopia and tritanopia (severity-1 simulation matrices of Machado,
-Oliveira & Fernandes 2009, values quoted from memory). Beyond nine groups
-the colours repeat; the legend then says so.
+The categorical palette was chosen for this package: eight colours spread in
+lightness and hue. The selection is shown in near-black (:data:`SELECTION_COLOUR`:
+the outline of selected points, the selection layer of density pictures, the
+drawn shapes), and every group colour stays at a CIEDE2000 difference of at
+least :data:`SELECTION_MIN_DELTA_E` from it for normal vision and under
+simulated protanopia and deuteranopia (``tests/test_colour.py`` checks this
+with the colour-science library). Beyond eight groups the colours repeat; the
+legend then says so, and the option to draw groups with distinct symbols
+(:data:`GROUP_SYMBOLS`) tells more groups apart.
+
+A balance is coloured on a diverging scale centred on 0 when its values span 0,
+else on a sequential scale over their range (:func:`balance_scale`).
 """
 
 from __future__ import annotations
@@ -31,7 +37,6 @@ PALETTE: tuple[str, ...] = (
     "#f2d16b",  # straw
     "#6b4423",  # walnut
     "#f0a6c8",  # blush
-    "#28384a",  # slate
 )
 
 #: Colour of rows without a group value (and of every row when there is no grouping).
@@ -41,20 +46,42 @@ SINGLE_COLOUR = PALETTE[0]
 
 #: Diverging scale for a balance (negative, zero, positive).
 BALANCE_COLOURS: tuple[str, str, str] = ("#2d69c3", "#f2f0ea", "#c0561e")
+#: Sequential scale for a balance whose values do not span 0 (lowest, middle, highest):
+#: lightness falls steadily from the lowest value to the highest.
+SEQUENTIAL_COLOURS: tuple[str, str, str] = ("#f3e9c6", "#4f9a94", "#1f3566")
+#: How a balance is coloured: "auto" (diverging when the values span 0, else sequential),
+#: "diverging" (centred on 0) or "sequential" (over the values' range).
+BALANCE_SCALES: tuple[str, ...] = ("auto", "diverging", "sequential")
+
+#: Colour of the selection: outline of selected points, density selection layer, drawn
+#: shapes. Near-black: far from every group colour also for red-green colour blindness.
+SELECTION_COLOUR = "#111111"
+#: Least CIEDE2000 difference between a group colour and the selection colour, for normal
+#: vision and simulated protanopia / deuteranopia (tests/test_colour.py says why 20).
+SELECTION_MIN_DELTA_E = 20.0
+
+#: Symbols given to groups in turn when a view draws groups with symbols as well as colours
+#: (bqplot marker names). With eight colours and six symbols, 24 groups differ in one or both.
+GROUP_SYMBOLS: tuple[str, ...] = (
+    "circle", "square", "triangle-up", "diamond", "triangle-down", "cross",
+)  # fmt: skip
 
 #: Frame, grid and text colours.
 FRAME_COLOUR = "#3a3a3a"
 GRID_COLOUR = "#c8c8c8"
 TEXT_COLOUR = "#303030"
 
+#: Opacity of unselected points while a selection is shown (points and replaced markers).
+UNSELECTED_OPACITY = "0.22"
 #: Selected / unselected styles of points (CSS styles of the SVG elements). Fill opacity,
 #: not opacity: an SVG element with opacity < 1 is a compositing group of its own, and
 #: thousands of them made each repaint of a selection much slower in Chromium.
-SELECTED_STYLE: dict = {"fill-opacity": "1", "stroke": "#111111", "stroke-width": "1.2"}
-UNSELECTED_STYLE: dict = {"fill-opacity": "0.22"}
+SELECTED_STYLE: dict = {"fill-opacity": "1", "stroke": SELECTION_COLOUR, "stroke-width": "1.2"}
+UNSELECTED_STYLE: dict = {"fill-opacity": UNSELECTED_OPACITY}
 
 #: Marker drawn over rows with a replaced (below-detection) value among the shown parts:
-#: a hollow diamond around the point, drawn without interactions.
+#: a hollow diamond around the point, drawn without interactions. It is hollow, so it
+#: fades through its stroke: unselected, it has the points' unselected opacity.
 REPLACED_MARKER: dict = {
     "marker": "diamond",
     "fill": False,
@@ -62,14 +89,18 @@ REPLACED_MARKER: dict = {
     "stroke_width": 1.0,
     "default_size": 70,
     "colors": ["#111111"],
+    "selected_style": {"stroke-opacity": "1"},
+    "unselected_style": {"stroke-opacity": UNSELECTED_OPACITY},
 }
+#: Legend lines explaining the replaced-value marker.
+REPLACED_LEGEND = ("\u25c7 replaced value", "(below detection)")
 
 #: Point style of scatter marks.
 POINT_STYLE: dict = {"marker": "circle", "default_size": 22, "stroke": None}
 
 #: Density images: colour of all rows (muted) and of the selection (contrasting).
 DENSITY_ALL_COLOUR = "#6f7782"
-DENSITY_SELECTION_COLOUR = "#e4572e"
+DENSITY_SELECTION_COLOUR = SELECTION_COLOUR
 
 
 def hex_to_rgb(colour: str) -> tuple[int, int, int]:
@@ -100,10 +131,57 @@ def balance_limits(values: np.ndarray) -> float:
     return m if m > 0 else 1.0
 
 
-def balance_colour_scale(values: np.ndarray) -> bq.ColorScale:
-    """Continuous diverging scale centred on 0 for the values of a balance."""
-    m = balance_limits(values)
-    return bq.ColorScale(colors=list(BALANCE_COLOURS), min=-m, max=m, mid=0.0)
+def balance_scale(
+    values: np.ndarray, kind: str = "auto"
+) -> tuple[str, tuple[str, ...], float, float]:
+    """How to colour the values of a balance: (kind used, colours, lower, upper limit).
+
+    Parameters
+    ----------
+    values : ndarray of float
+        The balance values shown (non-finite values are ignored).
+    kind : {"auto", "diverging", "sequential"}
+        "auto" is diverging when the finite values span 0 (some below, some
+        above), else sequential.
+
+    Returns
+    -------
+    (kind, colours, lo, hi)
+        Diverging: :data:`BALANCE_COLOURS` from ``-m`` to ``m``, ``m`` the
+        largest absolute value (0 in the middle). Sequential:
+        :data:`SEQUENTIAL_COLOURS` from the smallest to the largest value (one
+        unit wide around a single value). The colours are evenly spaced from
+        ``lo`` to ``hi``.
+
+    Examples
+    --------
+    >>> balance_scale(np.array([0.7, 3.0, 6.9]))[0::2]
+    ('sequential', 0.7)
+    >>> balance_scale(np.array([-1.0, 2.0]))[0::2], balance_scale(np.array([-1.0, 2.0]))[3]
+    (('diverging', -2.0), 2.0)
+    """
+    if kind not in BALANCE_SCALES:
+        raise ValueError(f"balance scale must be one of {BALANCE_SCALES}, got {kind!r}")
+    finite = np.asarray(values, dtype=float)
+    finite = finite[np.isfinite(finite)]
+    lo = float(finite.min()) if finite.size else 0.0
+    hi = float(finite.max()) if finite.size else 0.0
+    if kind == "auto":
+        kind = "diverging" if lo < 0.0 < hi else "sequential"
+    if kind == "diverging":
+        m = balance_limits(finite)
+        return kind, BALANCE_COLOURS, -m, m
+    if not finite.size:
+        lo, hi = 0.0, 1.0
+    elif hi <= lo:
+        lo, hi = lo - 0.5, hi + 0.5
+    return kind, SEQUENTIAL_COLOURS, lo, hi
+
+
+def balance_colour_scale(values: np.ndarray, kind: str = "auto") -> bq.ColorScale:
+    """A bqplot colour scale for the values of a balance (see :func:`balance_scale`)."""
+    _, colours, lo, hi = balance_scale(values, kind)
+    return bq.ColorScale(colors=list(colours), min=lo, max=hi)
 
 
 def part_members(model, part: str) -> list[str]:

@@ -1,10 +1,25 @@
-"""The shared machinery of scatter-like views (ternary diagram, biplot, ...).
+"""The base of scatter-like views (ternary diagram, biplot, discriminant plane).
 
-A :class:`ScatterView` is an ``ipywidgets.VBox`` holding a small toolbar, one
-``bqplot.Figure`` and two text lines. It is bound to one
-:class:`~compwidgets.model.CompositionModel`: it reads the rows it shows from
-the model and writes the selection back through ``model.select``. Subclasses
-supply the 2-D coordinates of the rows they can show and their own marks.
+A :class:`ScatterView` is an ``ipywidgets.VBox`` holding a toolbar (selection
+tools, how a selection combines, clear, close polygon, balance colours, group
+symbols, "Save figure"), one ``bqplot.Figure`` and its text lines (``status``,
+``notes``) and ``messages`` (the ``Output`` where callback errors go). It is
+bound to one :class:`~compwidgets.model.CompositionModel`: it reads the rows it
+shows from the model and writes the selection back through ``model.select``.
+Subclasses supply the 2-D coordinates of the rows they can show and their own
+marks (the subclass API is listed in the class docstring).
+
+The view is made of parts, each a module with one job, whose methods run on the
+view:
+
+* :mod:`._drawing`: the selection tools (rectangle, lasso), kernel-side hit
+  tests, the outline of the last shape and ``selection_shape``;
+* :mod:`._polygon`: polygon vertices clicked one by one;
+* :mod:`._legend`: point colours, group symbols and the legend;
+* :mod:`._density_layer`: the density picture of density mode;
+* :mod:`._hover`: the hover tooltip;
+* this module: building, coordinates and redrawing, points / density modes,
+  the selection highlight, view ranges and closing.
 
 Two modes, chosen by the number of rows shown (``mode="auto"``; threshold
 5,000 rows by default, see DESIGN.md, Scale):
@@ -13,21 +28,17 @@ Two modes, chosen by the number of rows shown (``mode="auto"``; threshold
   balance when ``model.colour_by`` is set); the selection is the mark's
   ``selected`` index array.
 * density: one ``Image`` mark with the density of all rows (muted) and of
-  the selection (contrasting), plus a seeded random subsample of points on
-  top for hover.
+  the selection (near-black), plus a seeded random subsample of points on
+  top for hover; the notes say how many rows the density holds and how
+  many are drawn as points.
 
-Selections are computed in the kernel from the selector's geometry with
-:mod:`compwidgets.core.geometry`: the rectangle of a ``BrushSelector``
-(``selected_x``/``selected_y`` when ``brushing`` ends), the lasso of a
-``LassoSelector`` (points mode: the front end sets the mark's ``selected``),
-or a polygon clicked vertex by vertex (bqplot's lasso does not send its
-outline to the kernel, so in density mode the polygon replaces it). A change
-of the model's selection only sends the ``selected`` index array (points) or
-a new picture (density; in one of two picture widgets made with the view,
-its selection layer counted from the bins of the selected rows); point
-coordinates are sent only when they change. Errors in widget callbacks are
-shown in the view's ``messages`` output (:mod:`._errors`: without entering the
-output on every call, which cost a stream flush per callback).
+A change of the model's selection only sends ``selected`` index arrays (the
+points, the replaced-value markers, the symbol marks in use) or a new picture
+(density; in one of two picture widgets made with the view, its selection
+layer counted from the bins of the selected rows); point coordinates are sent
+only when they change. Errors in widget callbacks are shown in the view's
+``messages`` output (:mod:`._errors`: without entering the output on every
+call, which cost a stream flush per callback).
 
 Rows that the view cannot show (incomplete in its parts) are left out of this
 view only; a text line says how many.
@@ -35,46 +46,29 @@ view only; a text line says how many.
 
 from __future__ import annotations
 
+import re
+
 import bqplot as bq
 import ipywidgets as widgets
 import numpy as np
 import traitlets as t
 
-from ..core import geometry
 from ..model import CompositionModel
 from . import _common as cm
-from ._density import DensityImage
+from ._density_layer import DensityLayer
+from ._drawing import MODE_LABELS, DrawingTools
 from ._errors import shows_errors
+from ._figure_save import BqplotFigureSource, FigureSaveControl
+from ._hover import HoverTips
+from ._legend import ColourKey, _same
+from ._polygon import PolygonEditing
 
 __all__ = ["ScatterView"]
 
 _EMPTY_ROWS = np.zeros(0, dtype=np.uint32)
 
-_TOOL_LABELS = {"brush": "Rectangle", "lasso": "Lasso", "polygon": "Polygon", "none": "Off"}
-#: Tooltips of the tool buttons (the browser cannot hover points under a drag tool).
-_TOOL_TIPS = {
-    "brush": "Drag a rectangle to select the points inside",
-    "lasso": "Draw around points to select them",
-    "polygon": "Click vertices, then 'Close polygon' to select inside; points can be hovered",
-    "none": "No selection tool: hover a point to see its values",
-}
-_MODE_LABELS = {"replace": "new", "add": "add", "remove": "remove", "intersect": "intersect"}
-#: Legend titles start this share of the x range left of the swatches.
-_LEGEND_TITLE_INDENT = 0.0125
-#: Width of one character of legend text (bold, 12 px) allowed for, in pixels, and the
-#: pixels between a swatch and the start of its text (bqplot Label x_offset) plus a gap.
-_LEGEND_CHAR_PX = 7.0
-_LEGEND_TEXT_START_PX = 14
 
-
-def _same(a, b) -> bool:
-    """Equality of two optional arrays (None equals None only)."""
-    if a is None or b is None:
-        return a is None and b is None
-    return np.array_equal(np.asarray(a), np.asarray(b))
-
-
-class ScatterView(widgets.VBox):
+class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTips, widgets.VBox):
     """Base of every scatter-like view bound to a :class:`CompositionModel`.
 
     Parameters
@@ -96,13 +90,29 @@ class ScatterView(widgets.VBox):
     mode, threshold, subsample_size, seed
         As above; changing them redraws.
     tool : {"brush", "lasso", "polygon", "none"}
-        Active selection tool ("lasso" only in points mode).
+        Active selection tool ("lasso" only in points mode; the notes say why).
     select_mode : {"replace", "add", "remove", "intersect"}
         How a new selection combines with the model's selection.
+    balance_scale : {"auto", "diverging", "sequential"}
+        Colours of a balance (``model.colour_by``): "auto" is diverging around 0
+        when the values shown span 0, else sequential over their range.
+    group_symbols : bool
+        Draw groups with distinct symbols as well as colours.
+    selection_shape : dict or None
+        The last shape this view selected with: ``{"kind": "rectangle",
+        "vertices": [[x0, y0], [x1, y1]]}`` or ``{"kind": "polygon", "vertices":
+        [[x, y], ...]}`` in the view's coordinates; None after a lasso (its
+        outline stays in the browser), a cleared selection or a selection made
+        elsewhere. Its outline is drawn (``selection_outline``).
 
     Attributes
     ----------
+    model : CompositionModel
     figure : bqplot.Figure
+    scale_x, scale_y : bqplot.LinearScale
+        The positional scales (equal aspect; see :meth:`set_view_ranges`).
+    colour_scale : bqplot.ColorScale
+        The points' colour scale (groups or a balance).
     scatter : bqplot.Scatter
         The points (all rows in points mode, the subsample in density mode).
     density : bqplot.Image
@@ -112,9 +122,22 @@ class ScatterView(widgets.VBox):
         view, writes a new picture into the one not shown and then shows it
         (no widget is made per selection change).
     brush : bqplot.interacts.BrushSelector
+        Emptied once the view has taken its rectangle (each press starts anew).
     lasso : bqplot.interacts.LassoSelector
+        The lasso in use (one of two; they take turns, see :mod:`._drawing`).
     polygon_marker : bqplot.Scatter
         Vertices of the polygon being drawn (click on the figure to add one).
+    selection_outline : bqplot.Lines
+        Outline of ``selection_shape``.
+    replaced_marker : bqplot.Scatter
+        Hollow diamonds on the rows with a replaced value in the shown parts;
+        unselected, they fade like the points.
+    figure_save : FigureSaveControl
+        "Save figure" (PNG / SVG, scale, its own file name) in the toolbar.
+    toolbar, status, notes : ipywidgets
+        The controls above the figure; the left-out line and the notes below it.
+    messages : ipywidgets.Output
+        Where errors of the view's callbacks are shown.
     rows : ndarray of uint32
         Model row positions shown by the view, in the order of its coordinates.
     active_mode : {"points", "density"}
@@ -158,8 +181,17 @@ class ScatterView(widgets.VBox):
     * ``_set_note(key, text)``: one of the notes joined in the ``notes`` line;
     * ``_plot_height_px()``: height of the plot area in pixels (to turn pixel
       sizes, e.g. of text, into data units: the aspect is equal);
+    * ``_watch(obj, func, names)``: observe another object's traits through
+      ``_guard``, unobserved when the view closes;
+    * ``_density_image`` (:class:`~._density.DensityImage`) and
+      ``_render_density()``: the density grid and a redraw of its picture
+      (e.g. with the counts of rows held elsewhere);
+    * ``_mark_rows``: model row of each drawn point, in the mark's order;
     * ``_ready`` (True once ``_start`` ran) and ``_closed`` (True once closed,
       or before the base was constructed): read only.
+
+    A subclass that lays out the view's children itself keeps ``toolbar``,
+    ``figure`` (or a box holding it), ``status``, ``notes`` and ``messages``.
 
     Everything else whose name starts with an underscore belongs to this class.
     """
@@ -172,6 +204,9 @@ class ScatterView(widgets.VBox):
     select_mode = t.Enum(("replace", "add", "remove", "intersect"), default_value="replace")
     #: Metadata column naming the samples in tooltips ("" = the index label).
     id_column = t.Unicode("")
+    balance_scale = t.Enum(cm.BALANCE_SCALES, default_value="auto")
+    group_symbols = t.Bool(False)
+    selection_shape = t.Dict(default_value=None, allow_none=True)
 
     #: Pixels of the density image along x (y follows the aspect of the extent).
     density_pixels = 240
@@ -225,6 +260,8 @@ class ScatterView(widgets.VBox):
         self._mark_rows = _EMPTY_ROWS
         self._mark_pos = np.zeros(0, dtype=np.intp)
         self._legend_entries: list[tuple[str | None, str]] = []
+        self._replaced_pos = np.zeros(0, dtype=np.intp)
+        self._links: list = []
         self._build()
 
     # ------------------------------------------------------------ subclass API
@@ -260,23 +297,6 @@ class ScatterView(widgets.VBox):
     def _refresh_extra(self) -> None:
         """Update the subclass's marks after new coordinates or groups."""
 
-    def _hover_lines(self, row: int) -> list[str]:
-        """Text lines of the tooltip of model row ``row`` (``tooltip_max_lines`` are shown)."""
-        return self._hover_heading(row)
-
-    def _hover_heading(self, row: int) -> list[str]:
-        """The first tooltip lines of a row: its sample id, then its group (if any)."""
-        m = self.model
-        if self.id_column:
-            lines = [str(m.metadata[self.id_column].iloc[row])]
-        else:
-            lines = [str(m.index[row])]
-        if m.group_column:
-            categories, codes = m.group_codes()
-            code = int(codes[row])
-            lines.append(f"{m.group_column}: {categories[code] if code >= 0 else '(no value)'}")
-        return lines
-
     @t.validate("id_column")
     def _check_id_column(self, proposal):
         name = proposal["value"]
@@ -307,30 +327,8 @@ class ScatterView(widgets.VBox):
         )
         xy = {"x": self.scale_x, "y": self.scale_y}
 
-        self._density_image = self._new_density_image()
-        ex = self._density_image.extent
-        # Two picture widgets made once: a new picture goes into the one not shown, which
-        # then becomes the mark's image (bqplot's Image mark redraws when its ``image``
-        # changes, not when the shown widget's value does; seen in Chromium). Messages
-        # reach the front end in order, so the value is there before the switch.
-        blank = self._density_image.render()
-        self._pictures = (
-            widgets.Image(value=blank, format="png"),
-            widgets.Image(value=blank, format="png"),
-        )
-        self._png = self._pictures[0]
-        self.density = bq.Image(
-            image=self._png, x=[ex[0], ex[1]], y=[ex[2], ex[3]], scales=xy, visible=False
-        )
-        self.density.on_element_click(self._guard(self._on_image_click))
-
-        self._tooltip_lines = [
-            widgets.Label(layout=widgets.Layout(height="20px", margin="0px"))
-            for _ in range(int(self.tooltip_max_lines))
-        ]
-        self.hover_box = widgets.VBox(
-            self._tooltip_lines, layout=widgets.Layout(padding="2px 6px")
-        )
+        self._build_density_layer(xy)
+        self._build_hover()
         self.scatter = bq.Scatter(
             x=np.zeros(0, np.float32),
             y=np.zeros(0, np.float32),
@@ -353,50 +351,26 @@ class ScatterView(widgets.VBox):
             **cm.REPLACED_MARKER,
         )
         self.replaced_marker.on_element_click(self._guard(self._on_point_click))
-        self._legend_swatches = bq.Scatter(
-            x=np.zeros(0), y=np.zeros(0), scales=xy, marker="square", default_size=60,
-            interactions={}, enable_hover=False, colors=[cm.SINGLE_COLOUR],
-        )  # fmt: skip
-        self._legend_text = bq.Label(
-            x=np.zeros(0), y=np.zeros(0), text=np.array([], dtype=str), scales=xy,
-            colors=[cm.TEXT_COLOUR], default_size=12, font_unit="px", align="start",
-            x_offset=10, y_offset=4, interactions={}, enable_hover=False,
-        )  # fmt: skip
-        self.polygon_marker = bq.Scatter(
-            x=np.zeros(0), y=np.zeros(0), scales=xy, interactions={}, marker="circle",
-            default_size=30, colors=[cm.DENSITY_SELECTION_COLOUR], enable_hover=False,
-            visible=False,
-        )  # fmt: skip
-        self._polygon_line = bq.Lines(
-            x=np.zeros(0), y=np.zeros(0), scales=xy, colors=[cm.DENSITY_SELECTION_COLOUR],
-            stroke_width=1.5, line_style="dashed", interactions={}, enable_hover=False,
-            visible=False,
-        )  # fmt: skip
-        self.polygon_marker.observe(self._guard(self._on_vertices), names=["x", "y"])
+        self._build_colour_key(xy)
+        self._build_polygon_marks(xy)
+        self._build_outline(xy)
 
         below, above = self._build_marks()
         self._extra_marks = [*below, *above]
         marks = [
             self.density,
             *below,
+            *self._symbol_marks,
             self.scatter,
             self.replaced_marker,
             *above,
             self._legend_swatches,
             self._legend_text,
+            self.selection_outline,
             self._polygon_line,
             self.polygon_marker,
         ]
-        self.brush = bq.interacts.BrushSelector(
-            x_scale=self.scale_x, y_scale=self.scale_y, marks=[], color=cm.DENSITY_SELECTION_COLOUR
-        )
-        self.brush.observe(
-            self._guard(self._on_brush), names=["brushing", "selected_x", "selected_y"]
-        )
-        self.lasso = bq.interacts.LassoSelector(
-            x_scale=self.scale_x, y_scale=self.scale_y, marks=[self.scatter]
-        )
-        self.scatter.observe(self._guard(self._on_mark_selected), names=["selected"])
+        self._build_selectors()
 
         self.figure = bq.Figure(
             marks=marks, axes=[], scale_x=self.scale_x, scale_y=self.scale_y,
@@ -404,7 +378,14 @@ class ScatterView(widgets.VBox):
             animation_duration=0, display_toolbar=False,
         )  # fmt: skip
         self._size_figure()
+        self._build_toolbar()
+        self.status = widgets.Label()
+        self.notes = widgets.Label()
+        self.messages = widgets.Output()
+        self.children = [self.toolbar, self.figure, self.status, self.notes, self.messages]
 
+    def _build_toolbar(self) -> None:
+        """Tools, combination, clear, close polygon, balance colours, symbols, save figure."""
         self._tool_buttons = widgets.ToggleButtons(
             options=self._tool_options("points"),
             tooltips=self._tool_tips("points"),
@@ -413,32 +394,53 @@ class ScatterView(widgets.VBox):
         )
         self._tool_buttons.observe(self._guard(self._on_tool_button), names=["value"])
         self._mode_dropdown = widgets.Dropdown(
-            options=[(label, key) for key, label in _MODE_LABELS.items()],
+            options=[(label, key) for key, label in MODE_LABELS.items()],
             value="replace",
             description="selection",
             layout=widgets.Layout(width="190px"),
         )
-        self._mode_dropdown.observe(self._guard(self._on_mode_dropdown), names=["value"])
         self._clear_button = widgets.Button(description="Clear selection", icon="times")
         self._clear_button.on_click(self._guard(lambda _: self.clear_selection()))
         self._close_button = widgets.Button(
-            description="Close polygon", layout=widgets.Layout(display="none")
+            description="Close polygon", layout=widgets.Layout(visibility="hidden")
         )
         self._close_button.on_click(self._guard(lambda _: self.close_polygon()))
-        self.toolbar = widgets.HBox(
-            [self._tool_buttons, self._mode_dropdown, self._clear_button, self._close_button]
+        self._balance_scale_menu = widgets.Dropdown(
+            options=[("auto", "auto"), ("diverging (0 centre)", "diverging"),
+                     ("sequential (range)", "sequential")],
+            value=self.balance_scale, description="balance colours",
+            style={"description_width": "initial"}, layout=widgets.Layout(width="auto"),
+        )  # fmt: skip
+        self._balance_scale_box = widgets.HBox(
+            [self._balance_scale_menu], layout=widgets.Layout(display="none")
         )
-        self.status = widgets.Label()
-        self.notes = widgets.Label()
-        self.messages = widgets.Output()
-        self.children = [self.toolbar, self.figure, self.status, self.notes, self.messages]
+        self._symbols_box = widgets.Checkbox(
+            value=self.group_symbols, description="symbols", indent=False,
+            tooltip="draw groups with distinct symbols as well as colours",
+            layout=widgets.Layout(width="auto"),
+        )  # fmt: skip
+        # plain mirrors of a control and a trait: the toolkit's own links
+        self._links = [
+            t.link((self._mode_dropdown, "value"), (self, "select_mode")),
+            t.link((self._balance_scale_menu, "value"), (self, "balance_scale")),
+            t.link((self._symbols_box, "value"), (self, "group_symbols")),
+        ]
+        self.figure_save = FigureSaveControl(
+            BqplotFigureSource(self.figure), default_name=self._figure_name()
+        )
+        self.toolbar = widgets.HBox(
+            [self._tool_buttons, self._mode_dropdown, self._clear_button, self._close_button,
+             self._balance_scale_box, self._symbols_box, self.figure_save],
+            layout=widgets.Layout(
+                # wraps within the figure's first width: never wider than the view
+                flex_flow="row wrap", align_items="center", max_width=self.figure.layout.width
+            ),
+        )  # fmt: skip
 
-    def _new_density_image(self) -> DensityImage:
-        """An empty density grid over ``_density_extent()``, ``density_pixels`` wide."""
-        ex = self._density_extent()
-        nx = int(self.density_pixels)
-        ny = max(1, int(round(nx * (ex[3] - ex[2]) / (ex[1] - ex[0]))))
-        return DensityImage(ex, (nx, ny))
+    def _figure_name(self) -> str:
+        """Default file name of the saved figure: the kind of view (e.g. "ternary")."""
+        name = type(self).__name__
+        return (name[: -len("View")] if name.endswith("View") else name).lower() or "figure"
 
     def _size_figure(self) -> None:
         """Fix the figure's size so one data unit is as long in x as in y (equal aspect)."""
@@ -475,6 +477,12 @@ class ScatterView(widgets.VBox):
         self._watch(m, self._on_model_colour, ["colour_by", "sbp", "balance_names"])
         self._watch(m, self._on_model_parts, ["active_parts", "amalgamations"])
         self._ready = True
+        name = self._figure_name()
+        parts = [re.sub(r"[^A-Za-z0-9_.]+", "", str(p)) for p in self.shown_parts()]
+        if 0 < len(parts) <= 3 and all(parts):
+            name = "-".join([name, *parts])  # two views of a kind get two file names
+        self.figure_save.file_name.value = f"{name}.png"
+        self.figure_save.file_name.placeholder = f"{name}.png"
         self.refresh()
 
     def _guard(self, func):
@@ -526,59 +534,10 @@ class ScatterView(widgets.VBox):
         if hasattr(self, "_tool_buttons"):
             self._apply_tool()
 
-    @t.observe("select_mode")
-    def _on_select_mode(self, change):
-        if hasattr(self, "_mode_dropdown") and self._mode_dropdown.value != change["new"]:
-            self._mode_dropdown.value = change["new"]
-
-    def _on_mode_dropdown(self, change):
-        self.select_mode = change["new"]
-
-    def _on_tool_button(self, change):
-        if getattr(self, "_syncing_buttons", False):
-            return
-        if change["new"] is not None and change["new"] != self.tool:
-            self.tool = change["new"]
-
-    @staticmethod
-    def _tool_options(mode: str) -> list[tuple[str, str]]:
-        keys = (
-            ("brush", "lasso", "polygon", "none")
-            if mode == "points"
-            else ("brush", "polygon", "none")
-        )
-        return [(_TOOL_LABELS[k], k) for k in keys]
-
-    @classmethod
-    def _tool_tips(cls, mode: str) -> list[str]:
-        return [_TOOL_TIPS[k] for _, k in cls._tool_options(mode)]
-
-    def _apply_tool(self) -> None:
-        tool = self.tool
-        options = self._tool_options(self.active_mode)
-        self._syncing_buttons = True  # new options reset the buttons' value: not a user choice
-        try:
-            if [v for _, v in self._tool_buttons.options] != [v for _, v in options]:
-                with self._tool_buttons.hold_sync():
-                    self._tool_buttons.options = options
-                    self._tool_buttons.tooltips = self._tool_tips(self.active_mode)
-            if self._tool_buttons.value != tool:
-                self._tool_buttons.value = tool
-        finally:
-            self._syncing_buttons = False
-        interaction = {"brush": self.brush, "lasso": self.lasso}.get(tool)
-        if self.figure.interaction is not interaction:
-            self.figure.interaction = interaction
-        polygon = tool == "polygon"
-        # clicks add vertices only while the polygon tool is on
-        clicks = {"click": "add"} if polygon else {}
-        if self.polygon_marker.interactions != clicks:
-            self.polygon_marker.interactions = clicks
-        self.polygon_marker.visible = polygon
-        self._polygon_line.visible = polygon
-        self._close_button.layout.display = None if polygon else "none"
-        # the hover points would catch the clicks meant for polygon vertices
-        self.scatter.visible = not (polygon and self.active_mode == "density")
+    @t.observe("balance_scale", "group_symbols")
+    def _on_colour_traits(self, change):
+        if self._ready and not self._closed:
+            self._apply_colours()
 
     # ------------------------------------------------------------ public hooks
     @property
@@ -652,8 +611,10 @@ class ScatterView(widgets.VBox):
             self._draw_replaced()
             self._clear_brush()
             self._clear_vertices()
+            self._set_shape(None)  # drawn on the old positions
         finally:
             self._updating = False
+        self._apply_symbols()
         if self.active_mode == "density":
             self._set_density_points()
             self._render_density()
@@ -724,6 +685,7 @@ class ScatterView(widgets.VBox):
             self._draw_replaced()
             self._clear_brush()
             self._clear_vertices()
+            self._set_shape(None)  # the coordinates may mean something else now
             self.density.visible = self.active_mode == "density"
         finally:
             self._updating = False
@@ -733,104 +695,23 @@ class ScatterView(widgets.VBox):
         self._apply_colours()
         self._apply_selection()
 
-    def _set_density_points(self, cached: bool = False) -> None:
-        """Bin the points shown on the density grid (kept by model row for selections).
-
-        With ``cached`` (coordinates straight from ``_coordinates()``) and a
-        ``_coordinates_key()``, the bin numbers are kept in the model's cache
-        per set of parts, so that showing these parts again does not bin again.
-        """
-        image = self._density_image
-        key = self._coordinates_key() if cached else None
-        index = None
-        if key is not None:
-            x, y = self._x, self._y
-            index = self.model.derived(
-                ("density-bins", type(self).__name__, key, image.extent, image.bins),
-                self.shown_parts(),
-                lambda: geometry.bin_index(x, y, image.extent, image.bins),
-            )
-        image.set_points(self._x, self._y, self.rows, self.model.n_rows, index=index)
-
     def _draw_replaced(self) -> None:
+        """Hollow diamonds on the drawn points with a replaced value in the shown parts."""
         mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
+        self._replaced_pos = np.flatnonzero(mask)
         pos = self._mark_pos[mask]
         with self.replaced_marker.hold_sync():
             self.replaced_marker.x = self._x[pos].astype(np.float32)
             self.replaced_marker.y = self._y[pos].astype(np.float32)
+            self.replaced_marker.selected = self._replaced_selected()
 
-    def _apply_colours(self) -> None:
-        """Colour the points by group or by the model's colour_by balance; redraw the legend."""
-        m = self.model
-        entries: list[tuple[str | None, str]] = []
-        if m.colour_by:
-            values = m.balance_values(m.colour_by)
-            limit = cm.balance_limits(values[self.rows])
-            colours, lo, hi = list(cm.BALANCE_COLOURS), -limit, limit
-            colour = values[self._mark_rows].astype(np.float32)
-            entries = [
-                (None, f"balance {m.colour_by}"),
-                (cm.BALANCE_COLOURS[2], f"+{cm.format_number(limit)}"),
-                (cm.BALANCE_COLOURS[1], "0"),
-                (cm.BALANCE_COLOURS[0], f"-{cm.format_number(limit)}"),
-            ]
-            undefined = ~np.isfinite(colour)
-            if undefined.any():
-                # the browser draws NaN black: such rows get a value below every balance
-                # value, where the scale (evenly spaced colours from lo) is grey
-                colours, lo = [cm.NO_GROUP_COLOUR, *colours], -2.0 * limit
-                colour = np.where(undefined, np.float32(lo), colour).astype(np.float32)
-                entries.append((cm.NO_GROUP_COLOUR, "(undefined)"))
-        elif m.group_column:
-            categories, codes = m.group_codes()
-            palette = cm.group_colours(categories)
-            colours = [cm.NO_GROUP_COLOUR, *palette]
-            if len(colours) < 2:
-                colours = colours * 2
-            lo, hi = 0, max(1, len(categories))
-            colour = (codes[self._mark_rows] + 1).astype(np.float32)
-            present = np.bincount(codes[self.rows] + 1, minlength=len(categories) + 1) > 0
-            entries = [(None, str(m.group_column))]
-            listed = [(palette[i], str(c)) for i, c in enumerate(categories) if present[i + 1]]
-            if present[0]:
-                listed.append((cm.NO_GROUP_COLOUR, "(no value)"))
-            if len(listed) > self.legend_max:
-                more = len(listed) - (self.legend_max - 1)
-                listed = listed[: self.legend_max - 1] + [(None, f"... and {more} more")]
-            if len(categories) > len(cm.PALETTE):
-                listed.append((None, f"(colours repeat after {len(cm.PALETTE)} groups)"))
-            entries += listed
-        else:
-            colours, lo, hi, colour = [cm.SINGLE_COLOUR, cm.SINGLE_COLOUR], 0, 1, None
-        # The values first, then the scale: bqplot recolours the points on a scale change in
-        # a transition scheduled for the next frame, which would repaint values sent after
-        # it with the old values (seen in Chromium: points kept their group colours).
-        if not _same(self.scatter.color, colour):
-            self.scatter.color = colour
-        with self.colour_scale.hold_sync():
-            if list(self.colour_scale.colors) != colours:
-                self.colour_scale.colors = colours
-            if self.colour_scale.min != lo:
-                self.colour_scale.min = float(lo)
-            if self.colour_scale.max != hi:
-                self.colour_scale.max = float(hi)
-        self._draw_legend(entries)
-
-    def _draw_legend(self, entries: list[tuple[str | None, str]]) -> None:
-        """Draw the legend: (swatch colour or None for a title line, text) per line."""
-        self._legend_entries = list(entries)
-        sx, sy, tx, ty = self._legend_positions()
-        colours = [c for c, _ in entries if c is not None] or [cm.SINGLE_COLOUR]
-        with self._legend_swatches.hold_sync():
-            self._legend_swatches.x = sx
-            self._legend_swatches.y = sy
-            self._legend_swatches.colors = colours
-        n = self._legend_max_chars()
-        text = [label if len(label) <= n else label[: n - 1] + "\u2026" for _, label in entries]
-        with self._legend_text.hold_sync():
-            self._legend_text.x = tx
-            self._legend_text.y = ty
-            self._legend_text.text = np.array(text, dtype=str)
+    def _replaced_selected(self, selected_points: np.ndarray | None = None):
+        """``selected`` of the replaced-value markers: those of selected points (None if none)."""
+        if selected_points is None:
+            selected_points = self.model.selected_mask()[self._mark_rows]
+        if not selected_points.any() or not self._replaced_pos.size:
+            return None  # like the points: no selection draws every marker plainly
+        return np.flatnonzero(selected_points[self._replaced_pos]).astype(np.uint32)
 
     def _plot_height_px(self) -> float:
         """Height of the plot area in pixels (the figure's height less its margins)."""
@@ -838,56 +719,18 @@ class ScatterView(widgets.VBox):
         m = fig.fig_margin if fig is not None else self.figure_margin
         return float(self.height_px - m["top"] - m["bottom"])
 
-    def _legend_max_chars(self) -> int:
-        """Characters of legend text that fit between the legend's anchor and the right edge."""
-        x, _, _ = self._legend_anchor()
-        (x0, x1), (y0, y1) = self._ranges
-        room = (x1 - x) * self._plot_height_px() / (y1 - y0) - _LEGEND_TEXT_START_PX
-        return max(4, int(room // _LEGEND_CHAR_PX))
-
-    def _legend_positions(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """(swatch x, swatch y, text x, text y) of the legend entries at the current anchor."""
-        x, y, dy = self._legend_anchor()
-        entries = self._legend_entries
-        ys = y - dy * np.arange(len(entries), dtype=float)
-        swatch = np.array([c is not None for c, _ in entries], dtype=bool)
-        (x0, x1), _ = self._ranges
-        # titles start a little to the left of the swatches
-        tx = np.where(swatch, x, x - _LEGEND_TITLE_INDENT * (x1 - x0)).astype(float)
-        return np.full(int(swatch.sum()), float(x)), ys[swatch], tx, ys
-
-    def _place_legend(self) -> None:
-        """Move the legend to the current anchor (positions only)."""
-        sx, sy, tx, ty = self._legend_positions()
-        cm.assign_arrays(self._legend_swatches, x=sx, y=sy)
-        cm.assign_arrays(self._legend_text, x=tx, y=ty)
-
     # -------------------------------------------------------------- selection
     def _apply_selection(self) -> None:
         """Show the model's selection: mark ``selected`` (indices only) and the density image."""
-        mask = self.model.selected_mask()
-        pos = np.flatnonzero(mask[self._mark_rows]).astype(np.uint32)
+        drawn = self.model.selected_mask()[self._mark_rows]
+        pos = np.flatnonzero(drawn).astype(np.uint32)
         self._set_mark_selected(pos if pos.size else None)
+        replaced = self._replaced_selected(drawn)
+        if not _same(self.replaced_marker.selected, replaced):
+            self.replaced_marker.selected = replaced
+        self._apply_symbol_selection(drawn)
         if self.active_mode == "density":
             self._render_density()
-
-    def _render_density(self, mask: np.ndarray | None = None) -> None:
-        """Show the density image of the rows shown, with the selection on top.
-
-        ``mask`` (model rows) is used when given; otherwise the model's selection
-        is looked up in the bins kept by row (the cost follows the selection's size).
-        """
-        if mask is not None:
-            in_view = mask[self.rows]
-            png = self._density_image.render(in_view if in_view.any() else None)
-        else:
-            png = self._density_image.render_rows(self.model.selection)
-        if png == self._png.value:
-            return
-        spare = self._pictures[1] if self._png is self._pictures[0] else self._pictures[0]
-        spare.value = png
-        self._png = spare
-        self.density.image = spare
 
     def _set_mark_selected(self, pos) -> None:
         if _same(self.scatter.selected, pos):
@@ -898,52 +741,6 @@ class ScatterView(widgets.VBox):
         finally:
             self._updating = False
 
-    def _select(self, view_mask: np.ndarray, mode: str | None = None) -> None:
-        """Select the view's rows where ``view_mask`` is True, combined by ``mode``."""
-        rows = self.rows[np.asarray(view_mask, dtype=bool)]
-        self._selecting = True
-        try:
-            self.model.select(rows, mode or self.select_mode)
-        finally:
-            self._selecting = False
-
-    def select_rectangle(self, x_range, y_range, mode: str | None = None) -> None:
-        """Select the rows shown inside a rectangle of data coordinates."""
-        corners = [[float(x_range[0]), float(y_range[0])], [float(x_range[1]), float(y_range[1])]]
-        self.last_selection_shape = {"kind": "rectangle", "vertices": corners}
-        self._select(geometry.points_in_rectangle(self._x, self._y, x_range, y_range), mode)
-
-    def select_polygon(self, vertices, mode: str | None = None) -> None:
-        """Select the rows shown inside a polygon ((k, 2) data coordinates, even-odd rule)."""
-        vertices = np.asarray(vertices, dtype=float).tolist()
-        self.last_selection_shape = {"kind": "polygon", "vertices": vertices}
-        self._select(geometry.points_in_polygon(self._x, self._y, vertices), mode)
-
-    def clear_selection(self) -> None:
-        """Clear the model's selection and this view's brush and polygon."""
-        self._clear_brush()
-        self._clear_vertices()
-        self.model.clear_selection()
-        if self.figure.interaction is self.lasso:
-            # a fresh lasso drops the outlines drawn in the browser
-            old = self.lasso
-            self.lasso = bq.interacts.LassoSelector(
-                x_scale=self.scale_x, y_scale=self.scale_y, marks=[self.scatter]
-            )
-            self.figure.interaction = self.lasso
-            old.close()
-
-    def close_polygon(self) -> None:
-        """Select the rows inside the polygon clicked so far, then start a new polygon."""
-        n = min(len(self.polygon_marker.x), len(self.polygon_marker.y))
-        if n < 3:
-            self._set_note("polygon", f"a polygon needs at least 3 points; {n} clicked so far")
-            return
-        vertices = np.column_stack([self.polygon_marker.x[:n], self.polygon_marker.y[:n]])
-        self._clear_vertices()
-        self._set_note("polygon", "")
-        self.select_polygon(vertices)
-
     def _set_note(self, key: str, text: str) -> None:
         """Set one of the notes shown under the figure (each source of notes has a key)."""
         self._notes[key] = text
@@ -951,30 +748,12 @@ class ScatterView(widgets.VBox):
         if self.notes.value != value:
             self.notes.value = value
 
-    def _clear_brush(self) -> None:
-        self._last_brush = None
-        if self.brush.selected_x is None and self.brush.selected_y is None:
-            return
-        was = self._updating
-        self._updating = True
-        try:
-            with self.brush.hold_sync():
-                self.brush.selected_x = None
-                self.brush.selected_y = None
-        finally:
-            self._updating = was
-
-    def _clear_vertices(self) -> None:
-        if len(self.polygon_marker.x) == 0 and len(self.polygon_marker.y) == 0:
-            return
-        with self.polygon_marker.hold_sync():
-            self.polygon_marker.x = np.zeros(0)
-            self.polygon_marker.y = np.zeros(0)
-
     # --------------------------------------------------------- event handlers
     def _on_model_selection(self, change) -> None:
-        if not self._selecting:
-            self._clear_brush()  # the rectangle no longer describes the selection
+        if not self._selecting:  # the shape drawn here no longer describes the selection
+            self._clear_brush()
+            self._set_shape(None)
+            self._set_note("selection", "")
         self._apply_selection()
 
     def _on_model_groups(self, change) -> None:
@@ -986,80 +765,6 @@ class ScatterView(widgets.VBox):
 
     def _on_model_parts(self, change) -> None:
         self._on_parts_source_changed()
-
-    def _on_brush(self, change) -> None:
-        if self._updating or self.brush.brushing:
-            return
-        sx, sy = self.brush.selected_x, self.brush.selected_y
-        if sx is None or sy is None or len(sx) != 2 or len(sy) != 2:
-            self._last_brush = None
-            return
-        key = (tuple(np.asarray(sx, float)), tuple(np.asarray(sy, float)))
-        if key == self._last_brush:
-            return
-        self._last_brush = key
-        self.select_rectangle(sx, sy)
-
-    def _on_mark_selected(self, change) -> None:
-        """The front end (lasso) changed the scatter's ``selected``: select those rows."""
-        if self._updating:
-            return
-        new = change["new"]
-        idx = np.zeros(0, dtype=np.int64) if new is None else np.asarray(new).astype(np.int64)
-        if idx.size and (idx.min() < 0 or idx.max() >= self._mark_rows.size):
-            bad = int(idx.min() if idx.min() < 0 else idx.max())
-            raise IndexError(
-                f"selected point {bad} is outside 0..{self._mark_rows.size - 1} of this view"
-            )
-        mask = np.zeros(self.rows.size, dtype=bool)
-        mask[self._mark_pos[idx]] = True
-        self._select(mask)
-
-    def _on_vertices(self, change) -> None:
-        n = min(len(self.polygon_marker.x), len(self.polygon_marker.y))
-        xs = np.asarray(self.polygon_marker.x[:n], dtype=float)
-        ys = np.asarray(self.polygon_marker.y[:n], dtype=float)
-        if n >= 2:
-            xs, ys = np.append(xs, xs[0]), np.append(ys, ys[0])
-        with self._polygon_line.hold_sync():
-            self._polygon_line.x = xs
-            self._polygon_line.y = ys
-
-    def _on_point_click(self, mark, content) -> None:
-        """A click on a point with the polygon tool adds a vertex at that point."""
-        if self.tool != "polygon":
-            return
-        data = content.get("data") or {}
-        if "x" not in data or "y" not in data:
-            return
-        self._add_vertex(float(data["x"]), float(data["y"]))
-
-    def _add_vertex(self, x: float, y: float) -> None:
-        with self.polygon_marker.hold_sync():
-            self.polygon_marker.x = np.append(self.polygon_marker.x, x)
-            self.polygon_marker.y = np.append(self.polygon_marker.y, y)
-
-    def _on_image_click(self, mark, content) -> None:
-        """A click on the density image adds a polygon vertex (the image hides the background)."""
-        if self.tool != "polygon":
-            return
-        data = content.get("data") or {}
-        if "click_x" not in data or "click_y" not in data:
-            return
-        self._add_vertex(float(data["click_x"]), float(data["click_y"]))
-
-    def _on_hover(self, mark, content) -> None:
-        point = content.get("point") or content.get("data") or {}
-        index = point.get("index")
-        if index is None or not 0 <= int(index) < self._mark_rows.size:
-            return
-        lines = self._hover_lines(int(self._mark_rows[int(index)]))
-        for label, text in zip(
-            self._tooltip_lines, lines + [""] * len(self._tooltip_lines), strict=False
-        ):
-            if label.value != text:
-                label.value = text
-            label.layout.display = None if text else "none"
 
     # ------------------------------------------------------------------ export
     def save_png(self, path: str = "view.png", scale: float | None = None) -> None:
@@ -1094,12 +799,23 @@ class ScatterView(widgets.VBox):
         self._handlers = []
         names = (
             "toolbar", "_tool_buttons", "_mode_dropdown", "_clear_button", "_close_button",
-            "status", "notes", "messages", "hover_box", "brush", "lasso", "figure", "scatter",
+            "_balance_scale_menu", "_balance_scale_box", "_symbols_box", "figure_save",
+            "status", "notes", "messages", "hover_box", "brush", "figure", "scatter",
             "replaced_marker", "density", "_legend_swatches", "_legend_text",
-            "polygon_marker", "_polygon_line", "colour_scale", "scale_x", "scale_y",
+            "selection_outline", "polygon_marker", "_polygon_line", "colour_scale",
+            "scale_x", "scale_y",
         )  # fmt: skip
         owned = [getattr(self, n, None) for n in names]
+        for link in getattr(self, "_links", []):
+            link.unlink()
+        self._links = []
         owned += list(getattr(self, "_tooltip_lines", []))
+        owned += list(getattr(self, "_lassos", []))
+        owned += list(getattr(self, "_symbol_marks", []))
+        control = getattr(self, "figure_save", None)
+        if control is not None:
+            owned += [control.format, control.scale, control.file_name, control.button,
+                      control.message, *control.children]  # fmt: skip
         owned += list(getattr(self, "_pictures", []))
         owned += list(getattr(self, "_extra_marks", []))
         for w in owned:

@@ -238,8 +238,9 @@ from compwidgets.core import ternary as _ternary
 _m = bench.model
 _sel = _np.asarray(_m.selection)
 _v0 = bench.ternaries[0]
-_sx = sorted(float(v) for v in _v0.brush.selected_x)
-_sy = sorted(float(v) for v in _v0.brush.selected_y)
+# the view empties the brush once it took the rectangle: read the shape it kept
+(_x0, _y0), (_x1, _y1) = _v0.selection_shape["vertices"]
+_sx, _sy = sorted([_x0, _x1]), sorted([_y0, _y1])
 # barycentric -> Cartesian with the triangle's vertices: a second route to the view's points
 _xy = _np.asarray(_m.closed(list(_v0.parts)))[_v0.rows] @ _ternary.VERTICES
 _in = ((_xy[:, 0] >= _sx[0]) & (_xy[:, 0] <= _sx[1])
