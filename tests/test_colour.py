@@ -145,3 +145,16 @@ def test_a_balance_spanning_zero_is_diverging_in_a_view():
     model.colour_by = model.balance_names[1]
     assert list(view.colour_scale.colors) == list(cm.BALANCE_COLOURS)
     assert view.colour_scale.min == pytest.approx(-5.0) and view.colour_scale.max == 5.0
+
+
+def test_the_builder_marks_the_selection_in_the_same_colour_as_the_scatter_views():
+    # a selection shows in every view: the balance builder's style sheet (its own front end)
+    # must name the same selection colour as the scatter views, or the builder's selected
+    # marks would read as one more group colour
+    import re
+    from pathlib import Path
+
+    css = (Path(__file__).parents[1] / "js" / "builder.css").read_text()
+    found = re.search(r"--cw-selection:\s*(#[0-9a-fA-F]{6})", css)
+    assert found, "builder.css defines no --cw-selection"
+    assert found.group(1).lower() == cm.SELECTION_COLOUR.lower()
