@@ -88,7 +88,6 @@ def test_each_press_starts_a_new_rectangle_and_only_the_last_is_drawn(model):
     np.testing.assert_array_equal(model.selection, second)
     np.testing.assert_allclose(view.selection_outline.x, [0.4, 0.6, 0.6, 0.4, 0.4])
     assert selection_shape(view) == view.selection_shape  # the adapter reads the attribute
-    assert view.last_selection_shape == view.selection_shape  # former name
 
 
 def test_a_shape_enclosing_nothing_leaves_the_selection_and_says_so(model):

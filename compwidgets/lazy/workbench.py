@@ -36,13 +36,9 @@ def selection_shape(view) -> dict | None:
 
     ``{"kind": "rectangle", "vertices": [[x0, y0], [x1, y1]]}`` (two corners) or
     ``{"kind": "polygon", "vertices": (k, 2)}``; None when the view holds none.
-    The one place that reads a view's shape (its ``selection_shape`` attribute
-    when it has one, else the rectangle or polygon it last selected with).
+    The one place that reads a view's shape (its ``selection_shape`` trait).
     """
-    own = getattr(type(view), "selection_shape", None)
-    if own is not None and not callable(own):
-        return view.selection_shape
-    return getattr(view, "last_selection_shape", None)
+    return view.selection_shape
 
 
 def _inside(x: np.ndarray, y: np.ndarray, shape: dict) -> np.ndarray:

@@ -190,11 +190,6 @@ class DrawingTools:
         self._fresh_lasso()
         self.model.clear_selection()
 
-    @property
-    def last_selection_shape(self) -> dict | None:
-        """Former name of ``selection_shape`` (read only)."""
-        return self.selection_shape
-
     def _set_shape(self, shape: dict | None) -> None:
         """Keep the last shape drawn and draw its outline (nothing for None)."""
         self.selection_shape = shape
