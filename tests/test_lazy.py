@@ -465,6 +465,30 @@ def test_biplot_density_counts_all_rows_in_the_sample_fit(small):
     assert_counts_match(image.all_counts, xy[:, 0], xy[:, 1], image)
 
 
+def test_a_biplot_shape_applies_to_all_rows_in_the_sample_fit(small):
+    lazy, mem = small
+    bench = cw.explore(lazy, sample_size=2000, mode="points", active_parts=MAJORS)
+    view, model = bench.biplot, bench.model
+    fit = view.biplot
+    xr = tuple(np.quantile(view._x, [0.2, 0.6]))
+    yr = tuple(np.quantile(view._y, [0.3, 0.8]))
+    view.select_rectangle(xr, yr)
+    assert 0 < len(model.selection) < model.n_rows
+    # independent route: every row's clr, centred on the fit's centre, on its axes (numpy)
+    Z = np.log(mem.values[MAJORS].to_numpy())
+    Z -= Z.mean(axis=1, keepdims=True)
+    xy = (
+        (Z - fit.clr_mean)
+        @ fit.right_vectors[:, :2]
+        * (np.sqrt(fit.n_rows_used - 1) / fit.singular_values[:2])
+    )
+    inside = (xy[:, 0] >= xr[0]) & (xy[:, 0] <= xr[1]) & (xy[:, 1] >= yr[0]) & (xy[:, 1] <= yr[1])
+    mask = bench.all_rows.selected_mask(view).compute()
+    np.testing.assert_array_equal(mask.to_numpy(), inside)
+    # the rows the view selected in the sample are those of the shape
+    assert set(model.index[model.selection]) <= set(mem.values.index[inside])
+
+
 def test_second_use_of_a_lazy_composition_parses_nothing(tmp_path, monkeypatch):
     from compwidgets.lazy import intake as lazy_intake
 

@@ -96,7 +96,7 @@ class AllRows:
         return tuple((p, tuple(self.model.members(p))) for p in parts)
 
     # ---------------------------------------------------------- coordinates
-    def _geometry(self, view, shapes: bool = False):
+    def _geometry(self, view):
         """(key, function (values partition) -> (ok, x, y)) of ``view``'s coordinates.
 
         The key names what the coordinates depend on (parts and their members,
@@ -116,7 +116,7 @@ class AllRows:
                 None if centring is None else np.asarray(centring).tobytes(),
             )
             return key, lambda values: _ternary_xy(values, parts, groups.__getitem__, centring)
-        if isinstance(view, BiplotView) and not shapes:
+        if isinstance(view, BiplotView):
             fit = view.biplot
             if fit is None:
                 raise core.CompositionError("BiplotView: no biplot fitted (too few rows)")
@@ -134,13 +134,13 @@ class AllRows:
             )
             return key, lambda values: _biplot_xy(values, parts, groups.__getitem__, fit, cx, cy)
         raise core.CompositionError(
-            f"{type(view).__name__}: applying a shape to all rows needs a ternary view "
-            "(the biplot's axes come from the sample)"
+            f"{type(view).__name__}: all rows can be placed in a ternary view or the biplot "
+            "(whose axes are fitted on the sample), not in this view"
         )
 
     def _projector(self, view):
         """A function (values partition) -> (ok, x, y) in ``view``'s coordinates."""
-        return self._geometry(view, shapes=True)[1]
+        return self._geometry(view)[1]
 
     def density_counts(self, views: Sequence) -> list[np.ndarray]:
         """Bin counts of all rows on each view's density grid, in one pass (exact).
