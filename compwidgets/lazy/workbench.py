@@ -56,19 +56,29 @@ def _part_block(values: pd.DataFrame, parts: Sequence[str], members) -> np.ndarr
     return out
 
 
-def _ternary_xy(values: pd.DataFrame, parts, members, centring):
-    """(complete mask, x, y) of one partition in a ternary view's coordinates."""
+def _placed(values: pd.DataFrame, parts, members, place):
+    """(complete mask, x, y) of one partition: ``place`` maps its complete rows' part
+    values (rows, parts) to their (x, y) in a view; other rows get NaN."""
     v = _part_block(values, parts, members)
     with np.errstate(invalid="ignore"):
         ok = np.all(np.isfinite(v) & (v > 0), axis=1)
     x = np.full(len(v), np.nan)
     y = np.full(len(v), np.nan)
     if ok.any():
-        closed = core.closure(v[ok])
+        x[ok], y[ok] = place(v[ok])
+    return ok, x, y
+
+
+def _ternary_xy(values: pd.DataFrame, parts, members, centring):
+    """(complete mask, x, y) of one partition in a ternary view's coordinates."""
+
+    def place(v):
+        closed = core.closure(v)
         if centring is not None:
             closed = core_ternary.perturb_closed(closed, centring)
-        x[ok], y[ok] = core_ternary.ternary_to_xy(closed)
-    return ok, x, y
+        return core_ternary.ternary_to_xy(closed)
+
+    return _placed(values, parts, members, place)
 
 
 class AllRows:
@@ -346,17 +356,13 @@ def _biplot_xy(values: pd.DataFrame, parts, members, fit, cx: int, cy: int | Non
     """(complete mask, x, y) of one partition in a biplot's plane (the sample's fit)."""
     from ..core import _lazy
 
-    v = _part_block(values, parts, members)
-    with np.errstate(invalid="ignore"):
-        ok = np.all(np.isfinite(v) & (v > 0), axis=1)
-    x = np.full(len(v), np.nan)
-    y = np.full(len(v), np.nan)
-    if ok.any():
-        components = [cx] if cy is None else [cx, cy]
-        coords = _lazy.biplot_row_coords(fit, v[ok], components)
-        x[ok] = coords[:, 0]
-        y[ok] = 0.0 if cy is None else coords[:, 1]
-    return ok, x, y
+    components = [cx] if cy is None else [cx, cy]
+
+    def place(v):
+        coords = _lazy.biplot_row_coords(fit, v, components)
+        return coords[:, 0], (np.zeros(len(v)) if cy is None else coords[:, 1])
+
+    return _placed(values, parts, members, place)
 
 
 def ilr_frame(all_rows: AllRows):

@@ -98,6 +98,24 @@ REPLACED_LEGEND = ("\u25c7 replaced value", "(below detection)")
 #: Point style of scatter marks.
 POINT_STYLE: dict = {"marker": "circle", "default_size": 22, "stroke": None}
 
+
+def point_mark(xy: dict, colour_scale, **options) -> bq.Scatter:
+    """An empty scatter mark of group-coloured points with the selection styles.
+
+    ``xy``: the x and y scales; ``options`` override :data:`POINT_STYLE` or add
+    bqplot ``Scatter`` arguments (e.g. ``marker``, ``tooltip``, ``interactions``).
+    """
+    return bq.Scatter(
+        x=np.zeros(0, np.float32),
+        y=np.zeros(0, np.float32),
+        scales={**xy, "color": colour_scale},
+        colors=[SINGLE_COLOUR],
+        selected_style=dict(SELECTED_STYLE),
+        unselected_style=dict(UNSELECTED_STYLE),
+        **{**POINT_STYLE, **options},
+    )
+
+
 #: Density images: colour of all rows (muted) and of the selection (contrasting).
 DENSITY_ALL_COLOUR = "#6f7782"
 DENSITY_SELECTION_COLOUR = SELECTION_COLOUR

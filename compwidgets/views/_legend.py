@@ -60,17 +60,9 @@ class ColourKey:
         # Symbol marks lie under the points: the points of their groups are drawn
         # transparent in ``scatter``, which so keeps their hover, clicks and lasso.
         self._symbol_marks = [
-            bq.Scatter(
-                x=np.zeros(0, np.float32),
-                y=np.zeros(0, np.float32),
-                scales={**xy, "color": self.colour_scale},
-                colors=[cm.SINGLE_COLOUR],
-                selected_style=dict(cm.SELECTED_STYLE),
-                unselected_style=dict(cm.UNSELECTED_STYLE),
-                interactions={},
-                enable_hover=False,
-                **{**cm.POINT_STYLE, "marker": marker},
-            )  # fmt: skip
+            cm.point_mark(
+                xy, self.colour_scale, marker=marker, interactions={}, enable_hover=False
+            )
             for marker in cm.GROUP_SYMBOLS[1:]
         ]
         self._symbol_pos = [np.zeros(0, dtype=np.intp) for _ in self._symbol_marks]

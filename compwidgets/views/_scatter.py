@@ -329,16 +329,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
 
         self._build_density_layer(xy)
         self._build_hover()
-        self.scatter = bq.Scatter(
-            x=np.zeros(0, np.float32),
-            y=np.zeros(0, np.float32),
-            scales={**xy, "color": self.colour_scale},
-            colors=[cm.SINGLE_COLOUR],
-            selected_style=dict(cm.SELECTED_STYLE),
-            unselected_style=dict(cm.UNSELECTED_STYLE),
-            tooltip=self.hover_box,
-            **cm.POINT_STYLE,
-        )
+        self.scatter = cm.point_mark(xy, self.colour_scale, tooltip=self.hover_box)
         self.scatter.on_hover(self._guard(self._on_hover))
         # points cover the background: a click on one adds a polygon vertex at the point
         self.scatter.on_element_click(self._guard(self._on_point_click))
