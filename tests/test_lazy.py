@@ -15,6 +15,7 @@ import textwrap
 import numpy as np
 import pandas as pd
 import pytest
+from scipy import stats
 
 dask = pytest.importorskip("dask")
 dd = pytest.importorskip("dask.dataframe")
@@ -380,6 +381,22 @@ def test_builder_shows_balance_statistics_over_all_rows(small):
             assert got["n"] == ref["n"]
             for g, r in zip(got["groups"], ref["groups"], strict=True):
                 assert g["n"] == r["n"] and g["mean"] == pytest.approx(r["mean"], rel=1e-12)
+        # group separation over all rows: scipy.stats.f_oneway on every row's balances
+        values = mem.values[parts]
+        ok = np.all(values.to_numpy() > 0, axis=1)
+        B = core.balances(values[ok], rows).to_numpy()
+        unit = mem.metadata["Unit"][ok].astype(str).to_numpy()
+        samples = [[B[unit == u, j] for u in np.unique(unit)] for j in range(B.shape[1])]
+        for got, groups in zip(builder.stats, samples, strict=True):
+            sep = got["separation"]
+            f = stats.f_oneway(*groups)
+            assert sep["anova_f"] == pytest.approx(f.statistic, rel=1e-9)
+            assert sep["anova_p"] == pytest.approx(f.pvalue, rel=1e-6, abs=1e-300)
+            assert sep["n"] == n and sep["n_groups"] == len(groups)
+            x = np.concatenate(groups)  # eta squared, from its definition
+            between = sum(len(g) * (g.mean() - x.mean()) ** 2 for g in groups)
+            assert sep["between_share"] == pytest.approx(between / np.sum((x - x.mean()) ** 2))
+            assert sep["kruskal_n"] is not None and sep["kruskal_n"] <= 2000  # rank test: sample
 
     check(MAJORS, sbp)
     # the sample's own variance differs: the table does show all rows

@@ -416,8 +416,11 @@ def summarize_balances(
     partition by partition, with the same keys and meaning: ``index``, ``name``,
     ``n``, ``n_missing``, ``variance`` (ddof = 1), ``share`` (of the total
     variance of the same rows), ``mean`` and ``groups`` (``{"code", "n",
-    "mean"}`` per category). Quantiles need the rows in order and are not given
-    here (the keys are absent).
+    "mean"}`` per category), and with groups ``separation``: the ANOVA F, its
+    p-value and the between share from the groups' moments (the keys of
+    :func:`compwidgets.core.separation.balance_separation`). Quantiles and the
+    Kruskal-Wallis test need the rows in order and are not given here (the
+    keys are absent).
 
     One pass (:func:`balance_moments`, reusable through ``moments`` for another
     SBP over the same parts) gives every balance; a balance whose variance or
@@ -450,6 +453,11 @@ def summarize_balances(
     variance = np.einsum("ij,jk,ik->i", basis, m.gram, basis) / (m.n - DDOF) if enough else None
     group_n = [g.n for g in moments.groups]
     group_mean = [basis @ g.mean if g.n else np.full(k, np.nan) for g in moments.groups]
+    # each group's sum of squares about its own mean along each balance
+    group_ss = [
+        np.einsum("ij,jk,ik->i", basis, g.gram, basis) if g.n else np.zeros(k)
+        for g in moments.groups
+    ]
     if m.n:
         spread = np.sqrt(np.maximum(np.diag(m.gram), 0.0) / max(m.n - DDOF, 1))
         var_scale = (np.abs(basis) @ spread) ** 2
@@ -470,6 +478,9 @@ def summarize_balances(
             for gm, g in zip(group_mean, dg, strict=True):
                 if g.n:
                     gm[direct] = g.mean
+            for ss, g in zip(group_ss, dg, strict=True):
+                if g.n:
+                    ss[direct] = np.diag(g.gram)
 
     def num(x) -> float | None:
         x = float(x)
@@ -497,7 +508,40 @@ def summarize_balances(
                 ],
             }
         )
+        if categories:
+            out[-1]["separation"] = _one_way_anova(
+                np.array(group_n), np.array([gm[j] for gm in group_mean]),
+                np.array([ss[j] for ss in group_ss]),
+            )  # fmt: skip
     return out, total
+
+
+def _one_way_anova(n: np.ndarray, means: np.ndarray, ss: np.ndarray) -> dict:
+    """ANOVA F, its p-value and the between share of one balance from group moments.
+
+    ``n``, ``means``, ``ss``: rows, mean and sum of squares about that mean of
+    each group. The keys and meaning of :func:`compwidgets.core.separation.balance_separation`
+    (``n``, ``n_groups``, ``anova_f``, ``anova_p``, ``between_share``; None where
+    undefined): ``F = (SS_between / (k - 1)) / (SS_within / (N - k))`` over the
+    groups with rows.
+    """
+    from scipy import stats
+
+    present = n > 0
+    n, means, ss = n[present], means[present], ss[present]
+    N, k = int(n.sum()), int(present.sum())
+    out: dict = {"n": N, "n_groups": k, "anova_f": None, "anova_p": None, "between_share": None}
+    if k < 2 or N <= k:
+        return out
+    grand = float(np.sum(n * means) / N)
+    between = float(np.sum(n * (means - grand) ** 2))
+    within = float(np.sum(ss))
+    if between + within > 0:
+        out["between_share"] = between / (between + within)
+    if within > 0:
+        f = (between / (k - 1)) / (within / (N - k))
+        out["anova_f"], out["anova_p"] = f, float(stats.f.sf(f, k - 1, N - k))
+    return out
 
 
 def biplot_row_coords(fit, values: np.ndarray, components) -> np.ndarray:

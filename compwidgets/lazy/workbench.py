@@ -411,9 +411,9 @@ def explore_lazy(
     import ipywidgets as widgets
 
     bench.statistics_note = widgets.Label(
-        f"balance table and dendrogram: n, mean, variance, share and group means over all "
-        f"{lazy.n_rows:,} rows (complete rows of the active parts); quantiles, group "
-        f"separation and the selection from the sample of {model.n_rows:,} rows"
+        f"balance table and dendrogram: n, mean, variance, share, group means, ANOVA F and "
+        f"between share over all {lazy.n_rows:,} rows (complete rows of the active parts); "
+        f"quantiles, Kruskal-Wallis H and the selection from the sample of {model.n_rows:,} rows"
     )
     _place_above(bench, bench.builder, bench.statistics_note)
     return bench

@@ -682,7 +682,16 @@ class BalanceBuilder(anywidget.AnyWidget):
             else:  # no statistics (too few rows): the structure only
                 summary = {**dict.fromkeys(_STAT_KEYS), "index": k, "n": 0, "groups": []}
             if over is not None:
+                own = summary.get("separation")
                 summary.update({key: over[k][key] for key in _STAT_KEYS if key in over[k]})
+                if over[k].get("separation") is not None:
+                    # the source's F and between share over its rows; the rank test (a
+                    # sample of rows in any case) stays the model's
+                    summary["separation"] = {
+                        **dict.fromkeys(STATISTIC_KEYS),
+                        **(own or {}),
+                        **over[k]["separation"],
+                    }
             stats.append(
                 {
                     "id": part.ids[k],
