@@ -323,10 +323,11 @@ class AllRows:
         """The builder's statistics over all rows: ``(entries, total, n_used, n_rows)``.
 
         ``entries`` (one per SBP row) hold ``n``, ``n_missing``, ``variance``,
-        ``share``, ``mean`` and ``groups`` over all rows complete in the active
-        parts (:func:`compwidgets.core._lazy.summarize_balances`); one pass over
-        all rows per set of active parts and grouping (the clr moments), kept,
-        and the figures of each SBP kept too.
+        ``share``, ``mean``, ``groups`` and, with a grouping, ``separation`` over
+        all rows complete in the active parts
+        (:func:`compwidgets.core._lazy.summarize_balances`); one pass over all
+        rows per set of active parts and grouping (the clr moments), kept, and the
+        figures of each SBP kept too (a renamed balance only changes its name).
         """
         from ..core import _lazy
 
@@ -335,17 +336,17 @@ class AllRows:
         groups, cats, column = self._group_source()
         base = (self._members(parts), column, tuple(cats))
         sbp = np.asarray(sbp, dtype=np.int8)
-        key = (base, sbp.shape, sbp.tobytes(), tuple(names))
+        key = (base, sbp.shape, sbp.tobytes())
         if key not in self._statistics:
             values = self.part_values(parts)
             if base not in self._moments:
                 self._moments[base] = _lazy.balance_moments(values, groups, cats)
             moments = self._moments[base]
-            entries, total = _lazy.summarize_balances(
-                values, sbp, groups, cats, list(names), moments=moments
-            )
+            entries, total = _lazy.summarize_balances(values, sbp, groups, cats, moments=moments)
             self._statistics[key] = (entries, total, moments.total.n, moments.n_rows)
-        return self._statistics[key]
+        entries, total, n_used, n_rows = self._statistics[key]
+        named = [{**e, "name": str(name)} for e, name in zip(entries, names, strict=True)]
+        return named, total, n_used, n_rows
 
     def show_statistics(self, builder) -> None:
         """Make ``builder`` show its balances' statistics over all rows (and say so)."""
