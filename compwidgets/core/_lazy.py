@@ -305,17 +305,6 @@ def variation_matrix(X):
 
 
 # ------------------------------------------------------------------ balances
-def _group_codes(labels, categories: list[str]) -> np.ndarray:
-    """Code of each row's group: its position in ``categories`` (-1: none or another)."""
-    values = pd.Series(np.asarray(labels, dtype=object))
-    present = values.notna().to_numpy()
-    codes = np.full(len(values), -1, dtype=np.int64)
-    if present.any():
-        found = pd.Index(categories).get_indexer(values[present].map(str))
-        codes[present] = found
-    return codes
-
-
 def _complete_block(block) -> tuple[np.ndarray, np.ndarray]:
     """(mask of the rows positive and finite in every part, their values) of one block."""
     a = np.asarray(block, dtype=float)
@@ -331,6 +320,7 @@ def _balance_block(block, labels, categories, basis, direct: np.ndarray | None):
     ``direct`` (rows of ``basis``) computed row by row.
     """
     from ._arrays import as_table
+    from .discriminant import _group_codes
     from .transforms import clr_values
 
     ok, a = _complete_block(block)
@@ -341,7 +331,8 @@ def _balance_block(block, labels, categories, basis, direct: np.ndarray | None):
             Z = Z @ basis[direct].T
     else:
         Z = np.empty((0, D if direct is None else len(direct)))
-    codes = _group_codes(labels, categories)[ok] if categories else None
+    # each row's position in ``categories`` by its label as text (-1: none or another)
+    codes = _group_codes(labels, len(ok), categories)[0][ok] if categories else None
     per_group = (
         [] if codes is None else [Moments.of(Z[codes == g]) for g in range(len(categories))]
     )
