@@ -18,6 +18,10 @@ source nor parses it again.
   composition and every frame made from it are garbage-collected, or the
   interpreter exits.
   ``spill=False`` keeps no copy (every use parses again).
+- On a cluster, each worker writes and looks in the folder on its own machine:
+  give a folder that every worker sees (a shared file system) for a kept copy
+  to serve every worker; elsewhere a partition is parsed again where none is
+  found (the results are the same either way).
 
 Files are Python pickles written by this process under a random folder name,
 read only by tasks of the composition that wrote them; a spill folder must
@@ -95,10 +99,6 @@ class Spill:
         finally:
             with contextlib.suppress(OSError):
                 os.remove(part)
-
-    def kept(self, n: int) -> int:
-        """How many of the ``n`` partitions are kept."""
-        return sum(self.has(k) for k in range(n))
 
 
 @dataclass(frozen=True)
