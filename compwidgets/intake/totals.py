@@ -34,12 +34,12 @@ def total_applies(st: IntakeState) -> bool:
 def observed_values(st: IntakeState) -> np.ndarray:
     """The observed numbers as read (0 where a cell is not observed); kept while the state's
     raw numbers and status are the same arrays (the totals' steps read it several times)."""
-    key = (id(st.raw), id(st.status))
     kept = getattr(st, "_observed", None)
-    if kept is None or kept[0] != key:
-        kept = (key, np.where(st.status == OBS, st.raw, 0.0))
+    # by identity, holding the arrays: an id alone could be reused by a later array
+    if kept is None or kept[0] is not st.raw or kept[1] is not st.status:
+        kept = (st.raw, st.status, np.where(st.status == OBS, st.raw, 0.0))
         st._observed = kept
-    return kept[1]
+    return kept[2]
 
 
 def analytical_total(st: IntakeState) -> None:
