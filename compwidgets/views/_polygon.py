@@ -70,12 +70,15 @@ class PolygonEditing:
 
     def _on_point_click(self, mark, content) -> None:
         """A click on a point with the polygon tool adds a vertex at that point."""
+        self._vertex_from(content, "x", "y")
+
+    def _vertex_from(self, content, x_key: str, y_key: str) -> None:
+        """With the polygon tool, add the vertex a click message holds under these keys."""
         if self.tool != "polygon":
             return
         data = content.get("data") or {}
-        if "x" not in data or "y" not in data:
-            return
-        self._add_vertex(float(data["x"]), float(data["y"]))
+        if x_key in data and y_key in data:
+            self._add_vertex(float(data[x_key]), float(data[y_key]))
 
     def _add_vertex(self, x: float, y: float) -> None:
         with self.polygon_marker.hold_sync():
@@ -84,9 +87,4 @@ class PolygonEditing:
 
     def _on_image_click(self, mark, content) -> None:
         """A click on the density image adds a polygon vertex (the image hides the background)."""
-        if self.tool != "polygon":
-            return
-        data = content.get("data") or {}
-        if "click_x" not in data or "click_y" not in data:
-            return
-        self._add_vertex(float(data["click_x"]), float(data["click_y"]))
+        self._vertex_from(content, "click_x", "click_y")
