@@ -169,15 +169,20 @@ def test_dask_frames_keep_index_and_divisions_and_arrays_their_chunks():
         core.clr(bad).compute()  # the partition names its row
 
 
+def nearly_constant_ratio(n: int, seed: int) -> pd.DataFrame:
+    """Parts a, b varying strongly (log sd 3) with a ratio a/b that barely varies (log sd
+    1e-6), and a third part c."""
+    rng = np.random.default_rng(seed)
+    a = np.exp(rng.normal(size=n) * 3)
+    return pd.DataFrame(
+        {"a": a, "b": a * np.exp(rng.normal(size=n) * 1e-6), "c": np.exp(rng.normal(size=n))}
+    )
+
+
 def test_lazy_variation_matrix_keeps_tiny_entries_precise():
     # a ratio that barely varies between two strongly varying parts: the Gram formula
     # loses digits there; the reference is numpy.var of the log-ratio itself
-    rng = np.random.default_rng(5)
-    n = 40_000
-    a = np.exp(rng.normal(size=n) * 3)
-    frame = pd.DataFrame(
-        {"a": a, "b": a * np.exp(rng.normal(size=n) * 1e-6), "c": np.exp(rng.normal(size=n))}
-    )
+    frame = nearly_constant_ratio(40_000, seed=5)
     T = core.variation_matrix(dd.from_pandas(frame, npartitions=7))
     direct = np.var(np.log(frame["a"] / frame["b"]), ddof=1)  # numpy reference
     assert T.loc["a", "b"] == pytest.approx(direct, rel=1e-12)
@@ -419,12 +424,7 @@ def test_lazy_balance_summary_keeps_small_balances_precise():
     # recomputes it from the balance itself. Reference: numpy var / mean of that balance.
     from compwidgets.core import _lazy
 
-    rng = np.random.default_rng(8)
-    n = 30_000
-    a = np.exp(rng.normal(size=n) * 3)
-    frame = pd.DataFrame(
-        {"a": a, "b": a * np.exp(rng.normal(size=n) * 1e-6), "c": np.exp(rng.normal(size=n))}
-    )
+    frame = nearly_constant_ratio(30_000, seed=8)
     entries, _ = _lazy.summarize_balances(
         dd.from_pandas(frame, npartitions=5), [[1, 1, -1], [1, -1, 0]]
     )

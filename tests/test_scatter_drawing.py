@@ -324,3 +324,16 @@ def test_closing_a_view_closes_its_new_widgets(model):
     widgets += [view.figure_save.file_name, view._balance_scale_menu, view._symbols_box]
     view.close()
     assert all(w.comm is None for w in widgets)
+
+
+def test_clicks_add_polygon_vertices_only_with_the_polygon_tool(model):
+    view = TernaryView(model, ["A", "B", "C"])
+    view.tool = "brush"
+    view._on_point_click(None, {"data": {"x": 0.4, "y": 0.2}})
+    assert len(view.polygon_marker.x) == 0  # another tool: a click adds nothing
+    view.tool = "polygon"
+    view._on_point_click(None, {"data": {"x": 0.4, "y": 0.2}})  # a point's own position
+    view._on_image_click(None, {"data": {"click_x": 0.6, "click_y": 0.3}})  # the picture's
+    view._on_image_click(None, {"data": {"x": 0.9, "y": 0.9}})  # no click position: nothing
+    np.testing.assert_allclose(view.polygon_marker.x, [0.4, 0.6])
+    np.testing.assert_allclose(view.polygon_marker.y, [0.2, 0.3])
