@@ -12,7 +12,6 @@ from collections.abc import Sequence
 from os import PathLike
 
 import ipywidgets as w
-import numpy as np
 import pandas as pd
 
 from . import core
@@ -83,12 +82,8 @@ def default_ternary_parts(model: CompositionModel, count: int = 2) -> list[list[
     active = list(model.active_parts)
     if len(active) < 3:
         raise CompositionError(f"a ternary view needs 3 active parts, got {active}")
-    values = model.part_values(active)
-    rows = core.ternary.SPREAD_ROWS
-    if model.n_rows > rows:  # the sample spread_triples would draw, taken here: no full copy
-        values = values[np.sort(np.random.default_rng(0).choice(model.n_rows, rows, False))]
     # a row with a part missing counts for the triples it is complete in
-    triples = core.ternary.spread_triples(values, count, min_share=MIN_SHARE)
+    triples = core.ternary.spread_triples(model.part_values(active), count, min_share=MIN_SHARE)
     return [[active[p] for p in triple] for triple in triples]
 
 

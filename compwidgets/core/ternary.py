@@ -510,7 +510,7 @@ def spread_triples(
     [(0, 1, 2)]
     """
     try:
-        v = np.array(X, dtype=float)  # a copy: non-positive cells become NaN below
+        v = np.asarray(X, dtype=float)  # read only: the rows used are copied below
     except (TypeError, ValueError) as err:
         raise CompositionError(f"spread_triples: the table must be numbers ({err})") from None
     if v.ndim != 2 or v.shape[1] < 3:
@@ -525,8 +525,10 @@ def spread_triples(
     if int(max_parts) < 3:
         raise CompositionError(f"spread_triples: max_parts must be at least 3, got {max_parts!r}")
     n, D = v.shape
-    if n > max_rows:
+    if n > max_rows:  # a copy of the sampled rows only
         v = v[np.sort(np.random.default_rng(seed).choice(n, int(max_rows), replace=False))]
+    else:
+        v = v.copy()  # non-positive cells become NaN below
     with np.errstate(invalid="ignore"):
         v[~(v > 0)] = np.nan  # missing, zero or negative: not drawn
     known = np.isfinite(v)
@@ -569,12 +571,10 @@ def spread_triples(
 def _spreads(vt: np.ndarray, triples: np.ndarray) -> np.ndarray:
     """:func:`triple_spread` of each triple (rows of ``vt``, the parts by row; NaN: not
     drawn); -inf for a triple with fewer than 2 rows to draw."""
-    a, b, c = vt[triples[:, 0]], vt[triples[:, 1]], vt[triples[:, 2]]  # (m, n) each
-    total = a + b + c  # NaN where a part is missing
-    a /= total
-    c /= total
-    x = c + 0.5 * a
-    y = HEIGHT * a
+    parts = vt[triples.T]  # (3, m, n): the three parts of each triple, by row
+    total = parts.sum(axis=0)  # NaN where a part is missing
+    parts /= total
+    x, y = np.tensordot(VERTICES.T, parts, axes=1)  # as ternary_to_xy: shares @ VERTICES
     if not np.isnan(total).any():  # every row drawn: the plain variance, much faster
         return x.var(axis=1) + y.var(axis=1)
     drawn = np.isfinite(total).sum(axis=1)
