@@ -227,6 +227,64 @@ def test_unselected_replaced_markers_fade_like_unselected_points(model):
     assert view.replaced_marker.selected is None
 
 
+def sent_states(monkeypatch, marks) -> list:
+    """(mark, state keys and values) of every message sent to the front end by ``marks``."""
+    import ipywidgets as widgets
+
+    sent = []
+    original = widgets.Widget._send
+
+    def spy(self, msg, buffers=None):
+        if any(self is m for m in marks):
+            sent.append((self, msg.get("state", {})))
+        return original(self, msg, buffers)
+
+    monkeypatch.setattr(widgets.Widget, "_send", spy)
+    return sent
+
+
+def test_clearing_the_selection_unfades_the_points_before_it_goes(model, monkeypatch):
+    # bqplot's scatter leaves a fill opacity set when `selected` becomes None (its restyle
+    # clears the keys of a list of styles, not of the styles): the views first give the
+    # unselected points opacity 1, in a message of its own, then drop the selection
+    view = TernaryView(model, ["A", "B", "C"])
+    marks = (view.scatter, view.replaced_marker)
+    model.select([10, 50, 60])
+    sent = sent_states(monkeypatch, marks)
+    model.clear_selection()
+    for mark, key in ((view.scatter, "fill-opacity"), (view.replaced_marker, "stroke-opacity")):
+        states = [s for m, s in sent if m is mark]
+        assert [sorted(s) for s in states] == [["unselected_style"], ["selected"]], states
+        assert states[0]["unselected_style"] == {key: "1"} and states[1]["selected"] is None
+        assert mark.selected_style[key] == "1"  # the selected ones were at 1 already
+    sent.clear()
+    model.select([50, 60])  # a selection again: faded first, while nothing is selected
+    for mark, key in ((view.scatter, "fill-opacity"), (view.replaced_marker, "stroke-opacity")):
+        states = [s for m, s in sent if m is mark]
+        assert [sorted(s) for s in states] == [["unselected_style"], ["selected"]], states
+        assert states[0]["unselected_style"] == {key: cm.UNSELECTED_OPACITY}
+    sent.clear()
+    model.select([60, 70])  # one selection to another: only the indices travel (and only
+    # for the points: the replaced markers, none selected either time, stay as they are)
+    assert [(m is view.scatter, sorted(s)) for m, s in sent] == [(True, ["selected"])]
+
+
+def test_a_lasso_after_a_cleared_selection_fades_the_rest(model, monkeypatch):
+    view = TernaryView(model, ["A", "B", "C"])
+    view.tool = "lasso"
+    model.select([10, 50])
+    model.clear_selection()
+    assert view.scatter.unselected_style == {"fill-opacity": "1"}
+    sent = sent_states(monkeypatch, (view.scatter,))
+    # the lasso sets `selected` in the browser, where the points restyle with the plain
+    # unselected style: the view sends the fading one back
+    view.scatter.set_state({"selected": [3, 4, 5]})
+    np.testing.assert_array_equal(model.selection, np.sort(view._mark_rows[[3, 4, 5]]))
+    assert view.scatter.unselected_style == {"fill-opacity": cm.UNSELECTED_OPACITY}
+    styles = [s["unselected_style"] for _, s in sent if "unselected_style" in s]
+    assert styles == [{"fill-opacity": cm.UNSELECTED_OPACITY}]
+
+
 def test_the_legend_explains_the_replaced_value_marker(model):
     with_replaced = TernaryView(model, ["A", "B", "C"])
     without = TernaryView(model, ["A", "B", "D"])

@@ -188,8 +188,12 @@ def test_selection_change_sends_only_the_index_array(model, monkeypatch):
     assert len(outline_msgs) == 2 and all(w is v1.selection_outline for w, *_ in sent
                                           if w in outlines)  # fmt: skip
     scatter_msgs = [msg for w, msg, _ in sent if w in (v1.scatter, v2.scatter)]
-    assert scatter_msgs and all(set(m["state"]) == {"selected"} for m in scatter_msgs)
-    arrays = [m["state"]["selected"] for m in scatter_msgs if m["state"]["selected"] is not None]
+    # the selection, and the few-key style that fades or unfades the points (_mark_selection)
+    assert scatter_msgs and all(set(m["state"]) in ({"selected"}, {"unselected_style"})
+                                for m in scatter_msgs)  # fmt: skip
+    selected_msgs = [m for m in scatter_msgs if "selected" in m["state"]]
+    assert selected_msgs
+    arrays = [m["state"]["selected"] for m in selected_msgs if m["state"]["selected"] is not None]
     assert arrays and all(a["dtype"] == "uint32" for a in arrays)
 
 

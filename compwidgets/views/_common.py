@@ -75,7 +75,9 @@ TEXT_COLOUR = "#303030"
 UNSELECTED_OPACITY = "0.22"
 #: Selected / unselected styles of points (CSS styles of the SVG elements). Fill opacity,
 #: not opacity: an SVG element with opacity < 1 is a compositing group of its own, and
-#: thousands of them made each repaint of a selection much slower in Chromium.
+#: thousands of them made each repaint of a selection much slower in Chromium. Marks with
+#: these styles get their selection through ``_mark_selection.show_selection`` (bqplot
+#: leaves a fill opacity set when the selection is cleared).
 SELECTED_STYLE: dict = {"fill-opacity": "1", "stroke": SELECTION_COLOUR, "stroke-width": "1.2"}
 UNSELECTED_STYLE: dict = {"fill-opacity": UNSELECTED_OPACITY}
 

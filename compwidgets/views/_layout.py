@@ -30,6 +30,9 @@ CSS = f"""
 .{ROOT} .cw-cell-builder {{ flex: 1 1 560px; }}
 .{ROOT} .cw-cell-panels {{ flex: 1 1 440px; max-width: 820px; }}
 .{ROOT} .cw-cell-title {{ font-weight: 600; }}
+/* each plot is a layer of its own: a change in one (a brush moving, a restyle) is not
+   repainted and re-layered with the thousands of points of the others */
+.{ROOT} .cw-plot svg.svg-figure {{ will-change: transform; }}
 .{ROOT} .cw-bar {{ flex-flow: row wrap; align-items: center; gap: 4px 16px; }}
 .{ROOT} .cw-bar > .jupyter-widget-hbox {{ flex-flow: row wrap; align-items: center; }}
 /* text wraps at the width it has instead of ending in an ellipsis */

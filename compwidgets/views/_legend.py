@@ -19,6 +19,8 @@ import bqplot as bq
 import numpy as np
 
 from . import _common as cm
+from ._mark_selection import same_selection as _same
+from ._mark_selection import show_selection
 
 __all__ = ["ColourKey", "SYMBOL_TEXT"]
 
@@ -34,13 +36,6 @@ SYMBOL_TEXT = dict(
         cm.GROUP_SYMBOLS, ("\u25cf", "\u25a0", "\u25b2", "\u25c6", "\u25bc", "\u271a"), strict=True
     )
 )
-
-
-def _same(a, b) -> bool:
-    """Equality of two optional arrays (None equals None only)."""
-    if a is None or b is None:
-        return a is None and b is None
-    return np.array_equal(np.asarray(a), np.asarray(b))
 
 
 class ColourKey:
@@ -108,8 +103,7 @@ class ColourKey:
             sel = np.flatnonzero(selected_points[pos]).astype(np.uint32) if any_selected else None
             if not pos.size:
                 sel = None
-            if not _same(mark.selected, sel):
-                mark.selected = sel
+            show_selection(mark, sel, cm.UNSELECTED_OPACITY)
 
     # ---------------------------------------------------------------- colours
     def _apply_colours(self) -> None:

@@ -60,7 +60,8 @@ from ._drawing import MODE_LABELS, DrawingTools
 from ._errors import shows_errors
 from ._figure_save import BqplotFigureSource, FigureSaveControl
 from ._hover import HoverTips
-from ._legend import ColourKey, _same
+from ._legend import ColourKey
+from ._mark_selection import show_selection
 from ._polygon import PolygonEditing
 
 __all__ = ["ScatterView"]
@@ -368,6 +369,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
             fig_margin=dict(self.figure_margin), padding_x=0.0, padding_y=0.0,
             animation_duration=0, display_toolbar=False,
         )  # fmt: skip
+        self.figure.add_class("cw-plot")
         self._size_figure()
         self._build_toolbar()
         self.status = widgets.Label()
@@ -669,10 +671,10 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         selected = np.flatnonzero(self.model.selected_mask()[self._mark_rows]).astype(np.uint32)
         self._updating = True
         try:
-            with self.scatter.hold_sync():
-                self.scatter.x = self._x[pick].astype(np.float32)
-                self.scatter.y = self._y[pick].astype(np.float32)
-                self.scatter.selected = selected if selected.size else None
+            show_selection(
+                self.scatter, selected if selected.size else None, cm.UNSELECTED_OPACITY,
+                x=self._x[pick].astype(np.float32), y=self._y[pick].astype(np.float32),
+            )  # fmt: skip
             self._draw_replaced()
             self._clear_brush()
             self._clear_vertices()
@@ -691,10 +693,10 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         mask = cm.replaced_rows(self.model, self.shown_parts())[self._mark_rows]
         self._replaced_pos = np.flatnonzero(mask)
         pos = self._mark_pos[mask]
-        with self.replaced_marker.hold_sync():
-            self.replaced_marker.x = self._x[pos].astype(np.float32)
-            self.replaced_marker.y = self._y[pos].astype(np.float32)
-            self.replaced_marker.selected = self._replaced_selected()
+        show_selection(
+            self.replaced_marker, self._replaced_selected(), cm.UNSELECTED_OPACITY,
+            x=self._x[pos].astype(np.float32), y=self._y[pos].astype(np.float32),
+        )  # fmt: skip
 
     def _replaced_selected(self, selected_points: np.ndarray | None = None):
         """``selected`` of the replaced-value markers: those of selected points (None if none)."""
@@ -716,19 +718,15 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         drawn = self.model.selected_mask()[self._mark_rows]
         pos = np.flatnonzero(drawn).astype(np.uint32)
         self._set_mark_selected(pos if pos.size else None)
-        replaced = self._replaced_selected(drawn)
-        if not _same(self.replaced_marker.selected, replaced):
-            self.replaced_marker.selected = replaced
+        show_selection(self.replaced_marker, self._replaced_selected(drawn), cm.UNSELECTED_OPACITY)
         self._apply_symbol_selection(drawn)
         if self.active_mode == "density":
             self._render_density()
 
     def _set_mark_selected(self, pos) -> None:
-        if _same(self.scatter.selected, pos):
-            return
         self._updating = True
         try:
-            self.scatter.selected = pos
+            show_selection(self.scatter, pos, cm.UNSELECTED_OPACITY)
         finally:
             self._updating = False
 

@@ -23,14 +23,14 @@ from .conftest import ARTIFACTS, LARGE_NOTEBOOK, LARGE_ROWS
 
 pytestmark = pytest.mark.browser
 
-VIEW_NAMES = ("ternary-0", "ternary-1", "biplot")
+VIEW_NAMES = ("ternary-0", "ternary-1", "biplot", "discriminant")
 
 # Kernel side: give each bqplot view and the selection bar a class the test can find (the
 # public add_class of ipywidgets; the builder is found by its own "cw-builder" root) and
 # describe the scatter mark of each view.
 TAG_VIEWS = """
 _cw_views = {"ternary-0": bench.ternaries[0], "ternary-1": bench.ternaries[1],
-             "biplot": bench.biplot}
+             "biplot": bench.biplot, "discriminant": bench.discriminant}
 for _cw_name, _cw_view in _cw_views.items():
     _cw_view.add_class("cwtest-" + _cw_name)
 bench.selection_bar.add_class("cwtest-selection-bar")
@@ -56,17 +56,26 @@ const markOf = (name, index) => {
   const box = fig && fig.querySelector(":scope > g > g");
   return box ? box.children[index] || null : null;
 };
-const norm = (key, value) => {
+// a style as the browser writes it back (e.g. "#111111" -> "rgb(17, 17, 17)"), computed once
+// per style: the probe must cost little, as its time falls inside the timings measured
+const styleTest = (style) => {
   const probe = document.createElement("div");
-  probe.style.setProperty(key, String(value));
-  return probe.style.getPropertyValue(key);
+  const want = Object.entries(style).map(([k, v]) => {
+    probe.style.setProperty(k, String(v));
+    return [k, probe.style.getPropertyValue(k)];
+  });
+  return (el) => want.every(([k, v]) => el.style.getPropertyValue(k) === v);
 };
-const styled = (el, style) =>
-  Object.entries(style).every(([k, v]) => el.style.getPropertyValue(k) === norm(k, v));
 const countStyled = (mark, style) => {
+  const styled = styleTest(style);
   let n = 0;
-  for (const dot of mark.querySelectorAll(".dot")) if (styled(dot, style)) n += 1;
+  for (const dot of mark.querySelectorAll(".dot")) if (styled(dot)) n += 1;
   return n;
+};
+const anyStyled = (mark, style) => {
+  const styled = styleTest(style);
+  for (const dot of mark.querySelectorAll(".dot")) if (styled(dot)) return true;
+  return false;
 };
 const countOf = (text) => {
   const m = /([\\d,]+) of [\\d,]+ rows? selected/.exec(text || "");
@@ -271,7 +280,10 @@ const T = {up: null, done: {}};
 window.__cwT = T;
 window.addEventListener("mouseup", () => { if (T.up === null) T.up = performance.now(); },
                         {capture: true, once: true});
-const watch = (name, target, test) => {
+const WHOLE = {subtree: true, attributes: true, childList: true, characterData: true};
+// targets: [element, observer options]; a restyle of a scatter rewrites the style of every
+// point, so its first point's style attribute is watched, not thousands of them
+const watch = (name, targets, test) => {
   const check = () => {
     if (T.up !== null && !(name in T.done) && test()) {
       T.done[name] = performance.now();
@@ -279,7 +291,11 @@ const watch = (name, target, test) => {
     }
   };
   const obs = new MutationObserver(check);
-  obs.observe(target, {subtree: true, attributes: true, childList: true, characterData: true});
+  for (const [target, options] of targets) obs.observe(target, options);
+};
+const firstPoint = (mark) => {
+  const dot = mark.querySelector(".dot");
+  return dot ? [dot, {attributes: true, attributeFilter: ["style"]}] : [mark, WHOLE];
 };
 const imageOf = (name, index) => {
   const mark = markOf(name, index);
@@ -290,17 +306,17 @@ for (const [name, info] of Object.entries(arg.views)) {
   const mark = markOf(name, info.mark);
   if (info.mode === "density") {
     const before = imageOf(name, info.density_mark);
-    const box = markOf(name, info.density_mark).parentNode;
-    watch(name, box, () => imageOf(name, info.density_mark) !== before
-      && (!arg.expect[name] || countStyled(mark, info.selected_style) > 0));
+    watch(name, [[markOf(name, info.density_mark), WHOLE], firstPoint(mark)],
+      () => imageOf(name, info.density_mark) !== before
+        && (!arg.expect[name] || anyStyled(mark, info.selected_style)));
   } else {
-    watch(name, mark, () => countStyled(mark, info.selected_style) > 0);
+    watch(name, [firstPoint(mark)], () => anyStyled(mark, info.selected_style));
   }
 }
 const count = document.querySelector('.cw-builder [data-role="n-selected"]');
-watch("builder", count, () => count.textContent !== "0 rows selected");
+watch("builder", [[count, WHOLE]], () => count.textContent !== "0 rows selected");
 const bar = document.querySelector(".cwtest-selection-bar");
-watch("selection bar", bar, () => (countOf(bar.textContent) || 0) > 0);
+watch("selection bar", [[bar, WHOLE]], () => (countOf(bar.textContent) || 0) > 0);
 return true;
 """
 
@@ -309,8 +325,10 @@ const count = document.querySelector('.cw-builder [data-role="n-selected"]');
 if (count.textContent !== "0 rows selected") return false;
 const bar = document.querySelector(".cwtest-selection-bar");
 if (countOf(bar.textContent) !== 0) return false;
+// nothing selected: no point keeps the selected or the unselected look of an earlier one
 return Object.entries(arg).every(([name, info]) =>
-  countStyled(markOf(name, info.mark), info.selected_style) === 0);
+  countStyled(markOf(name, info.mark), info.selected_style) === 0
+  && countStyled(markOf(name, info.mark), info.unselected_style) === 0);
 """
 
 #: What is measured, in the file test-artifacts/browser-timings.json.
@@ -366,15 +384,20 @@ def brush_timings(nb) -> tuple[dict, dict]:
         page.mouse.down()
         page.mouse.move(*to_px(bx1, by0), steps=12)
         page.mouse.up()
-        nb.wait_js(
-            """
-            const T = window.__cwT;
-            return T.up !== null && ["ternary-0", "ternary-1", "biplot", "builder",
-              "selection bar"].every((k) => k in T.done);
-            """,
-            timeout=90_000,
-            what="every view to show the brushed selection",
-        )
+        try:
+            nb.wait_js(
+                """
+                const T = window.__cwT;
+                return T.up !== null && [...arg, "builder", "selection bar"]
+                  .every((k) => k in T.done);
+                """,
+                list(VIEW_NAMES),
+                timeout=90_000,
+                what="every view to show the brushed selection",
+            )
+        except AssertionError as err:
+            seen = nb.js("return window.__cwT")
+            raise AssertionError(f"{err}; seen from mouse up: {seen}") from None
         done = nb.js(
             "const T = window.__cwT; const out = {};"
             "for (const [k, t] of Object.entries(T.done)) out[k] = t - T.up; return out;"
