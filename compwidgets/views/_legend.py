@@ -19,8 +19,7 @@ import bqplot as bq
 import numpy as np
 
 from . import _common as cm
-from ._mark_selection import same_selection as _same
-from ._mark_selection import show_selection
+from ._mark_selection import same_array, show_selection
 
 __all__ = ["ColourKey", "SYMBOL_TEXT"]
 
@@ -89,7 +88,7 @@ class ColourKey:
             )
             colour = self.scatter.color
             mark_colour = None if colour is None or not pos.size else np.asarray(colour)[pos]
-            if not _same(mark.color, mark_colour):
+            if not same_array(mark.color, mark_colour):
                 mark.color = mark_colour
         self._apply_symbol_selection()
 
@@ -103,7 +102,7 @@ class ColourKey:
             sel = np.flatnonzero(selected_points[pos]).astype(np.uint32) if any_selected else None
             if not pos.size:
                 sel = None
-            show_selection(mark, sel, cm.UNSELECTED_OPACITY)
+            show_selection(mark, sel)
 
     # ---------------------------------------------------------------- colours
     def _apply_colours(self) -> None:
@@ -168,7 +167,7 @@ class ColourKey:
         # The values first, then the scale: bqplot recolours the points on a scale change in
         # a transition scheduled for the next frame, which would repaint values sent after
         # it with the old values (seen in Chromium: points kept their group colours).
-        if not _same(self.scatter.color, colour):
+        if not same_array(self.scatter.color, colour):
             self.scatter.color = colour
         self._apply_symbols()
         with self.colour_scale.hold_sync():

@@ -20,49 +20,42 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["faded_style", "plain_style", "same_selection", "show_selection"]
+from ._common import UNSELECTED_OPACITY
+
+__all__ = ["same_array", "show_selection"]
 
 
-def same_selection(a, b) -> bool:
-    """Equality of two optional index arrays (None equals None only)."""
+def same_array(a, b) -> bool:
+    """Equality of two optional arrays (None equals None only)."""
     if a is None or b is None:
         return a is None and b is None
     return np.array_equal(np.asarray(a), np.asarray(b))
 
 
-def faded_style(mark, opacity: str) -> dict:
-    """The mark's unselected style with each of its opacities at ``opacity``."""
-    return {key: opacity for key in mark.unselected_style}
-
-
-def plain_style(mark) -> dict:
-    """The mark's unselected style with each of its opacities at 1 (nothing faded)."""
-    return {key: "1" for key in mark.unselected_style}
-
-
-def show_selection(mark, selected, faded: str, **traits) -> None:
+def show_selection(mark, selected, **traits) -> None:
     """Set ``mark.selected`` to ``selected``, drawing every element plainly for None.
 
     Parameters
     ----------
     mark : bqplot.Scatter
-        A mark whose unselected style holds only opacities (fill-opacity, stroke-opacity).
+        A mark whose unselected style holds only opacities (fill-opacity, stroke-opacity);
+        while a selection is shown they are at ``UNSELECTED_OPACITY``, else at 1.
     selected : array of int or None
         Positions of the selected elements; None when nothing is selected (an empty
         array means a selection of which the mark holds no element: all faded).
-    faded : str
-        The opacity of unselected elements while a selection is shown.
     **traits
         Other traits of the mark (e.g. new ``x`` and ``y``) sent with ``selected``.
     """
-    plain = plain_style(mark)
     if selected is None:
+        plain = {key: "1" for key in mark.unselected_style}
         if mark.selected is not None and mark.unselected_style != plain:
             mark.unselected_style = plain  # its own message, before the selection goes
-    elif mark.unselected_style != faded_style(mark, faded):
-        mark.unselected_style = faded_style(mark, faded)
+    else:
+        faded = {key: UNSELECTED_OPACITY for key in mark.unselected_style}
+        if mark.unselected_style != faded:
+            mark.unselected_style = faded
     with mark.hold_sync():
         for name, value in traits.items():
             setattr(mark, name, value)
-        if not same_selection(mark.selected, selected):
+        if not same_array(mark.selected, selected):
             mark.selected = selected

@@ -672,7 +672,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         self._updating = True
         try:
             show_selection(
-                self.scatter, selected if selected.size else None, cm.UNSELECTED_OPACITY,
+                self.scatter, selected if selected.size else None,
                 x=self._x[pick].astype(np.float32), y=self._y[pick].astype(np.float32),
             )  # fmt: skip
             self._draw_replaced()
@@ -694,7 +694,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         self._replaced_pos = np.flatnonzero(mask)
         pos = self._mark_pos[mask]
         show_selection(
-            self.replaced_marker, self._replaced_selected(), cm.UNSELECTED_OPACITY,
+            self.replaced_marker, self._replaced_selected(),
             x=self._x[pos].astype(np.float32), y=self._y[pos].astype(np.float32),
         )  # fmt: skip
 
@@ -718,7 +718,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         drawn = self.model.selected_mask()[self._mark_rows]
         pos = np.flatnonzero(drawn).astype(np.uint32)
         self._set_mark_selected(pos if pos.size else None)
-        show_selection(self.replaced_marker, self._replaced_selected(drawn), cm.UNSELECTED_OPACITY)
+        show_selection(self.replaced_marker, self._replaced_selected(drawn))
         self._apply_symbol_selection(drawn)
         if self.active_mode == "density":
             self._render_density()
@@ -726,7 +726,7 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
     def _set_mark_selected(self, pos) -> None:
         self._updating = True
         try:
-            show_selection(self.scatter, pos, cm.UNSELECTED_OPACITY)
+            show_selection(self.scatter, pos)
         finally:
             self._updating = False
 
