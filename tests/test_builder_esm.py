@@ -42,17 +42,33 @@ def test_bundle_is_a_module_node_accepts(tmp_path):
     assert check.returncode == 0, check.stderr
 
 
-def test_bundle_loads_and_exports_render(tmp_path):
+def _default_export(text: str, hook: str, folder: Path) -> str:
+    """What node sees of a bundle's default export: "<type of hook> <its keys>"."""
     node = _node()
-    path = tmp_path / "builder.mjs"
-    path.write_text(_esm.bundle(folder=JS), encoding="utf-8")
+    path = folder / "bundle.mjs"
+    path.write_text(text, encoding="utf-8")
     script = (
         f"import({str(path.as_uri())!r}).then(m => "
-        "console.log(typeof m.default.render + ' ' + Object.keys(m.default).join(',')))"
+        f"console.log(typeof m.default.{hook} + ' ' + Object.keys(m.default).join(',')))"
     )
     run = subprocess.run([node, "-e", script], capture_output=True, text=True)
     assert run.returncode == 0, run.stderr
-    assert run.stdout.strip() == "function render"
+    return run.stdout.strip()
+
+
+def test_bundle_loads_and_exports_render(tmp_path):
+    assert _default_export(_esm.bundle(folder=JS), "render", tmp_path) == "function render"
+
+
+def test_figure_speedups_bundle_exports_initialize_only(tmp_path):
+    text = _esm.bundle("figure_speedups.js", folder=JS, hooks=("initialize",))
+    assert _default_export(text, "initialize", tmp_path) == "function initialize"
+
+
+def test_bundler_names_a_hook_the_entry_does_not_export(tmp_path):
+    folder = _write(tmp_path / "js", {"a.js": "export function render() {}\n"})
+    with pytest.raises(_esm.BundleError, match="a.js must export a function named initialize"):
+        _esm.bundle("a.js", folder=folder, hooks=("initialize",))
 
 
 def test_bundle_has_every_module_once_without_imports():

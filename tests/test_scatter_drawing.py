@@ -9,6 +9,7 @@ and matplotlib's ``Path.contains_points``; data are invented here.
 
 from __future__ import annotations
 
+import bqplot as bq
 import numpy as np
 import pandas as pd
 import pytest
@@ -374,6 +375,67 @@ def test_every_view_saves_its_own_figure(model, tmp_path, monkeypatch):
     path = v1.figure_save.save()
     assert path == tmp_path / "ternary-A-B-C.png" and path.read_bytes() == png
     assert "40 \u00d7 40 px" in v1.figure_save.message.value
+
+
+def test_every_mark_that_fades_and_the_brush_are_handed_to_the_page(model, opened_comms):
+    view = TernaryView(model, ["A", "B", "C"])
+    # the marks whose selection fades the rest: each Scatter of the figure with an
+    # unselected style; the page's fast restyle must know every one of them
+    fading = [m for m in view.figure.marks if isinstance(m, bq.Scatter) and m.unselected_style]
+    helper = view._figure_speedups
+    assert {id(m) for m in helper.marks} == {id(m) for m in fading}
+    assert len(helper.marks) == len(fading) == 2 + len(view._symbol_marks)
+    assert helper.get_state()["marks"] == [f"IPY_MODEL_{m.model_id}" for m in helper.marks]
+    assert helper.get_state()["brushes"] == [f"IPY_MODEL_{view.brush.model_id}"]
+    assert "export default { initialize };" in helper._esm
+    opened_comms.clear()
+    model.select(view.rows[::7])
+    model.clear_selection()
+    assert opened_comms == []  # made once, never per selection
+
+
+def test_one_message_paints_the_selection_of_every_view_of_the_model(model, monkeypatch):
+    views = [TernaryView(model, ["A", "B", "C"]), TernaryView(model, ["B", "C", "D"])]
+    helper = views[0]._figure_speedups
+    assert views[1]._figure_speedups is helper  # one per model
+    assert len(helper.marks) == sum(2 + len(v._symbol_marks) for v in views)
+    sent = []
+    monkeypatch.setattr(
+        helper, "send", lambda content, buffers=None: sent.append((content, buffers))
+    )
+    for selection in (views[0].rows[::5], None, views[1].rows[3:40]):
+        sent.clear()
+        if selection is None:
+            model.clear_selection()
+        else:
+            model.select(selection)
+        assert len(sent) == 1, "one message for all the views"
+        content, buffers = sent[0]
+        by_id = {m.model_id: m for m in helper.marks}
+        assert [e["mark"] for e in content["marks"]] == [f"IPY_MODEL_{i}" for i in by_id]
+        for entry in content["marks"]:
+            mark = by_id[entry["mark"].removeprefix("IPY_MODEL_")]
+            # what the page paints ahead is what the marks' own messages then say
+            assert entry["selected_style"] == dict(mark.selected_style)
+            if entry["selected"] is None:  # (no unselected point: its style shows nowhere)
+                assert mark.selected is None
+            else:
+                got = np.frombuffer(buffers[entry["selected"]], dtype="<u4")
+                np.testing.assert_array_equal(got, mark.selected)
+                assert entry["unselected_style"] == dict(mark.unselected_style)
+    # the positions are those of the selected rows among each view's drawn points
+    scatter = views[1].scatter
+    expected = np.flatnonzero(np.isin(views[1]._mark_rows, views[1].rows[3:40]))
+    np.testing.assert_array_equal(scatter.selected, expected)
+    views[0].close()
+    assert helper.comm is not None  # shared: the other view still uses it
+    assert {id(m) for m in helper.marks} == {
+        id(m) for m in (views[1].scatter, views[1].replaced_marker, *views[1]._symbol_marks)
+    }
+    assert helper.brushes == [views[1].brush]
+    sent.clear()
+    model.select(views[1].rows[:5])
+    assert len(sent) == 1 and len(sent[0][0]["marks"]) == len(helper.marks)
 
 
 def test_closing_a_view_closes_its_new_widgets(model):

@@ -1,4 +1,4 @@
-"""A tiny bundler: the builder's ES modules in ``js/`` -> one ES module string.
+"""A tiny bundler: the front ends' ES modules in ``js/`` -> one ES module string.
 
 anywidget loads a widget's ``_esm`` as a single module, so relative imports
 between files do not resolve in the browser. The node tests import the files
@@ -17,7 +17,8 @@ Conventions the sources must follow (checked; a violation raises
 
 The files are emitted in dependency order (depth-first from the entry
 module), with the import lines removed and the ``export`` keywords stripped,
-and the bundle ends with ``export default { render };``.
+and the bundle ends with ``export default { render };`` (or the entry's other anywidget
+hooks, e.g. ``initialize``).
 
 Where the files are: in a source checkout (editable install) in ``js/`` at the
 repository root next to the package; in a built wheel in
@@ -138,7 +139,7 @@ def _parse(folder: Path, name: str) -> _Module:
 
 
 @lru_cache(maxsize=8)
-def _bundle_cached(folder: str, entry: str, stamp: tuple) -> str:
+def _bundle_cached(folder: str, entry: str, hooks: tuple[str, ...], stamp: tuple) -> str:
     root = Path(folder)
     order: list[str] = []
     parsed: dict[str, _Module] = {}
@@ -173,34 +174,40 @@ def _bundle_cached(folder: str, entry: str, stamp: tuple) -> str:
                 raise BundleError(
                     f"{name}: imports {missing} from {dep}, which does not export it"
                 )
-    if "render" not in parsed[entry].public:
-        raise BundleError(f"{entry} must export a function named render")
+    for hook in hooks:
+        if hook not in parsed[entry].public:
+            raise BundleError(f"{entry} must export a function named {hook}")
     chunks = [
-        "// compwidgets balance builder: one ES module joined by compwidgets.views._esm from "
+        "// compwidgets front end: one ES module joined by compwidgets.views._esm from "
         + ", ".join(order)
         + " (sources in js/).\n"
     ]
     for name in order:
         chunks.append(f"\n// ---- {name} ----\n")
         chunks.append("\n".join(parsed[name].body).rstrip() + "\n")
-    chunks.append("\nexport default { render };\n")
+    chunks.append(f"\nexport default {{ {', '.join(hooks)} }};\n")
     return "".join(chunks)
 
 
-def bundle(entry: str = ENTRY, folder: Path | None = None) -> str:
+def bundle(
+    entry: str = ENTRY, folder: Path | None = None, hooks: tuple[str, ...] = ("render",)
+) -> str:
     """One ES module made of ``entry`` and every module it imports.
 
     Parameters
     ----------
     entry : str, default "widget.js"
-        File name of the entry module (in ``folder``); it must export ``render``.
+        File name of the entry module (in ``folder``); it must export every hook.
     folder : Path, optional
         Folder of the modules; default :func:`js_dir`.
+    hooks : tuple of str, default ("render",)
+        The entry's functions anywidget calls (``render``, ``initialize``): the names of
+        the default export.
 
     Returns
     -------
     str
-        The module text, ending in ``export default { render };``. Cached
+        The module text, ending in ``export default { <hooks> };``. Cached
         until a source file changes (by modification time and size).
 
     Raises
@@ -212,4 +219,4 @@ def bundle(entry: str = ENTRY, folder: Path | None = None) -> str:
     stamp = tuple(
         (p.name, p.stat().st_mtime_ns, p.stat().st_size) for p in sorted(root.glob("*.js"))
     )
-    return _bundle_cached(str(root), entry, stamp)
+    return _bundle_cached(str(root), entry, tuple(hooks), stamp)

@@ -92,16 +92,21 @@ class ColourKey:
                 mark.color = mark_colour
         self._apply_symbol_selection()
 
-    def _apply_symbol_selection(self, selected_points: np.ndarray | None = None) -> None:
-        """The ``selected`` of each symbol mark (``selected_points``: bool per drawn point)."""
+    def _symbol_selections(self, selected_points: np.ndarray | None = None) -> list:
+        """[(symbol mark, its ``selected``)] (``selected_points``: bool per drawn point)."""
         if selected_points is None:
             selected_points = self.model.selected_mask()[self._mark_rows]
         any_selected = bool(selected_points.any())
+        out = []
         for mark, pos in zip(self._symbol_marks, self._symbol_pos, strict=True):
             # like the points: nothing selected in the view draws every point plainly
             sel = np.flatnonzero(selected_points[pos]).astype(np.uint32) if any_selected else None
-            if not pos.size:
-                sel = None
+            out.append((mark, sel if pos.size else None))
+        return out
+
+    def _apply_symbol_selection(self, selected_points: np.ndarray | None = None) -> None:
+        """The ``selected`` of each symbol mark (``selected_points``: bool per drawn point)."""
+        for mark, sel in self._symbol_selections(selected_points):
             show_selection(mark, sel)
 
     # ---------------------------------------------------------------- colours

@@ -22,7 +22,7 @@ import numpy as np
 
 from ._common import UNSELECTED_OPACITY
 
-__all__ = ["same_array", "show_selection"]
+__all__ = ["same_array", "show_selection", "unselected_style_for"]
 
 
 def same_array(a, b) -> bool:
@@ -30,6 +30,12 @@ def same_array(a, b) -> bool:
     if a is None or b is None:
         return a is None and b is None
     return np.array_equal(np.asarray(a), np.asarray(b))
+
+
+def unselected_style_for(mark, selected) -> dict:
+    """The unselected style ``mark`` shows with ``selected``: plain for None, else faded."""
+    opacity = "1" if selected is None else UNSELECTED_OPACITY
+    return {key: opacity for key in mark.unselected_style}
 
 
 def show_selection(mark, selected, **traits) -> None:
@@ -46,14 +52,12 @@ def show_selection(mark, selected, **traits) -> None:
     **traits
         Other traits of the mark (e.g. new ``x`` and ``y``) sent with ``selected``.
     """
+    style = unselected_style_for(mark, selected)
     if selected is None:
-        plain = {key: "1" for key in mark.unselected_style}
-        if mark.selected is not None and mark.unselected_style != plain:
-            mark.unselected_style = plain  # its own message, before the selection goes
-    else:
-        faded = {key: UNSELECTED_OPACITY for key in mark.unselected_style}
-        if mark.unselected_style != faded:
-            mark.unselected_style = faded
+        if mark.selected is not None and mark.unselected_style != style:
+            mark.unselected_style = style  # its own message, before the selection goes
+    elif mark.unselected_style != style:
+        mark.unselected_style = style
     with mark.hold_sync():
         for name, value in traits.items():
             setattr(mark, name, value)

@@ -18,6 +18,8 @@ view:
 * :mod:`._legend`: point colours, group symbols and the legend;
 * :mod:`._density_layer`: the density picture of density mode;
 * :mod:`._hover`: the hover tooltip;
+* :mod:`._figure_speedups` (one per model, shared by its views): in the page, the
+  selection of every view's marks painted in one go, the brush sent at release;
 * this module: building, coordinates and redrawing, points / density modes,
   the selection highlight, view ranges and closing.
 
@@ -33,7 +35,9 @@ Two modes, chosen by the number of rows shown (``mode="auto"``; threshold
   many are drawn as points.
 
 A change of the model's selection only sends ``selected`` index arrays (the
-points, the replaced-value markers, the symbol marks in use) or a new picture
+points, the replaced-value markers, the symbol marks in use; ahead of them, the
+same arrays of all the model's views in one message of :mod:`._figure_speedups`)
+or a new picture
 (density; in one of two picture widgets made with the view, its selection
 layer counted from the bins of the selected rows); point coordinates are sent
 only when they change. Errors in widget callbacks are shown in the view's
@@ -59,6 +63,7 @@ from ._density_layer import DensityLayer
 from ._drawing import MODE_LABELS, DrawingTools
 from ._errors import shows_errors
 from ._figure_save import BqplotFigureSource, FigureSaveControl
+from ._figure_speedups import figure_speedups
 from ._hover import HoverTips
 from ._legend import ColourKey
 from ._mark_selection import show_selection
@@ -363,6 +368,10 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
             self.polygon_marker,
         ]
         self._build_selectors()
+        # in the page: the marks restyle a selection the fast way, all views of the model
+        # in one go, and the brush is sent when the drag ends (see the module)
+        self._figure_speedups = figure_speedups(self.model)
+        self._figure_speedups.add_view(self)
 
         self.figure = bq.Figure(
             marks=marks, axes=[], scale_x=self.scale_x, scale_y=self.scale_y,
@@ -713,13 +722,23 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         return float(self.height_px - m["top"] - m["bottom"])
 
     # -------------------------------------------------------------- selection
-    def _apply_selection(self) -> None:
-        """Show the model's selection: mark ``selected`` (indices only) and the density image."""
+    def _mark_selections(self) -> list:
+        """[(mark, its ``selected``)] of every mark that shows the model's selection."""
         drawn = self.model.selected_mask()[self._mark_rows]
         pos = np.flatnonzero(drawn).astype(np.uint32)
-        self._set_mark_selected(pos if pos.size else None)
-        show_selection(self.replaced_marker, self._replaced_selected(drawn))
-        self._apply_symbol_selection(drawn)
+        return [
+            (self.scatter, pos if pos.size else None),
+            (self.replaced_marker, self._replaced_selected(drawn)),
+            *self._symbol_selections(drawn),
+        ]
+
+    def _apply_selection(self) -> None:
+        """Show the model's selection: mark ``selected`` (indices only) and the density image."""
+        for mark, selected in self._mark_selections():
+            if mark is self.scatter:
+                self._set_mark_selected(selected)
+            else:
+                show_selection(mark, selected)
         if self.active_mode == "density":
             self._render_density()
 
@@ -786,6 +805,9 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         for obj, handler, names in getattr(self, "_handlers", []):
             obj.unobserve(handler, names=names)
         self._handlers = []
+        speedups = getattr(self, "_figure_speedups", None)
+        if speedups is not None:
+            speedups.remove_view(self)  # shared by the model's views: not closed here
         names = (
             "toolbar", "_tool_buttons", "_mode_dropdown", "_clear_button", "_close_button",
             "_balance_scale_menu", "_balance_scale_box", "_symbols_box", "figure_save",

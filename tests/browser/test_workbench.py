@@ -429,6 +429,23 @@ def test_brush_in_one_ternary_selects_in_every_view(quick_start):
     nb = quick_start
     info = nb.info
     page = nb.page
+    # the page's speed-ups (views/_figure_speedups.py) took over the points of each view
+    # and the brush of each view whose tool is the rectangle
+    taken = nb.js(
+        MARK_JS
+        + """
+        const out = {};
+        for (const [name, info] of Object.entries(arg)) {
+          const brush = document.querySelector(`.cwtest-${name} [data-cw-brush]`);
+          out[name] = [markOf(name, info.mark).getAttribute("data-cw-restyle"),
+                       brush && brush.getAttribute("data-cw-brush")];
+        }
+        return out;
+        """,
+        {name: info[name] for name in VIEW_NAMES},
+    )
+    assert taken["ternary-0"] == ["fast", "at-release"], taken
+    assert all(restyle == "fast" for restyle, _ in taken.values()), taken
     times, check = brush_timings(nb)
     expected = {name: check["views"][name]["mark_selected"] for name in VIEW_NAMES}
     # the page may still be applying the last styles: wait until the counts settle

@@ -1,0 +1,125 @@
+// Speed-ups of a view's bqplot figure in the page: initialize({model}) for anywidget.
+//
+// The widget is never displayed: the hook runs when its model is created in the page. It
+// takes over every view (now and later) of the marks and brushes the kernel names:
+// scatter marks restyle a selection the fast way (scatter_restyle.js), brushes send their
+// rectangle when the drag ends (brush_hold.js). One widget serves every view of a model:
+// on a selection change the kernel sends it the `selected` of all their marks in one
+// message (before the marks' own), painted here in one task, so the browser draws one
+// frame for all the views instead of one between each two.
+//
+// Synced traits read here: marks, brushes (references "IPY_MODEL_<id>" of bqplot models).
+// Message from the kernel: {kind: "selections", marks: [{mark, selected (index of its
+// buffer of uint32 positions, or null), selected_style, unselected_style}]}.
+
+import { holdBrushUntilRelease } from "./brush_hold.js";
+import { showSelection, speedUpScatter } from "./scatter_restyle.js";
+
+/**
+ * Call `onView` for every view of a widget model, those it has and those made later.
+ * @param {any} model a widget model (its `views` maps ids to promises of views)
+ * @param {(view: any) => void} onView
+ */
+export function forEachView(model, onView) {
+  if (!model || typeof model.views !== "object" || model.views === null) return;
+  if (model.__cwFollowed) return;
+  model.__cwFollowed = true;
+  const seen = new WeakSet();
+  const take = (promise) => {
+    Promise.resolve(promise).then(
+      (view) => {
+        if (view && !seen.has(view)) {
+          seen.add(view);
+          onView(view);
+        }
+      },
+      () => {},
+    );
+  };
+  const views = model.views;
+  for (const key of Object.keys(views)) take(views[key]);
+  model.views = new Proxy(views, {
+    set(target, key, value) {
+      target[key] = value;
+      take(value);
+      return true;
+    },
+  });
+}
+
+/**
+ * Little-endian uint32 values of a message buffer (any alignment).
+ * @param {any} buffer a DataView, an ArrayBuffer or a typed array
+ * @returns {Uint32Array}
+ */
+export function uint32Of(buffer) {
+  const view = buffer instanceof DataView
+    ? buffer
+    : buffer instanceof ArrayBuffer
+      ? new DataView(buffer)
+      : new DataView(buffer.buffer, buffer.byteOffset || 0, buffer.byteLength);
+  const out = new Uint32Array(Math.floor(view.byteLength / 4));
+  for (let k = 0; k < out.length; k += 1) out[k] = view.getUint32(4 * k, true);
+  return out;
+}
+
+/**
+ * anywidget hook: take over the views of every mark and brush the kernel names, and
+ * paint the selections the kernel sends for all of them at once.
+ * @param {{model: any}} args
+ * @returns {() => void} cleanup
+ */
+export function initialize({ model }) {
+  const manager = model.widget_manager;
+  const started = new Set();
+  /** @type {Map<string, Set<any>>} scatter views taken over, by mark id */
+  const scatterViews = new Map();
+  const attach = () => {
+    for (const ref of model.get("marks") || []) {
+      const id = String(ref).replace(/^IPY_MODEL_/, "");
+      if (started.has(id) || !manager) continue;
+      started.add(id);
+      Promise.resolve(manager.get_model(id)).then(
+        (widget) => forEachView(widget, (view) => {
+          if (!speedUpScatter(view)) return;
+          if (!scatterViews.has(id)) scatterViews.set(id, new Set());
+          scatterViews.get(id).add(view);
+          view.once?.("remove", () => scatterViews.get(id)?.delete(view));
+        }),
+        () => {},
+      );
+    }
+    for (const ref of model.get("brushes") || []) {
+      const id = String(ref).replace(/^IPY_MODEL_/, "");
+      if (started.has(id) || !manager) continue;
+      started.add(id);
+      Promise.resolve(manager.get_model(id)).then(
+        (widget) => forEachView(widget, holdBrushUntilRelease),
+        () => {},
+      );
+    }
+  };
+  /** @param {any} content @param {any[]} buffers */
+  const onMessage = (content, buffers) => {
+    if (!content || content.kind !== "selections") return;
+    for (const entry of content.marks || []) {
+      const views = scatterViews.get(String(entry.mark).replace(/^IPY_MODEL_/, ""));
+      if (!views || !views.size) continue;
+      const selected = entry.selected === null || entry.selected === undefined
+        ? null
+        : uint32Of(buffers[entry.selected]);
+      for (const view of views) {
+        showSelection(view, selected, entry.selected_style || {}, entry.unselected_style || {});
+      }
+    }
+  };
+  model.on("change:marks", attach);
+  model.on("change:brushes", attach);
+  model.on("msg:custom", onMessage);
+  attach();
+  return () => {
+    model.off("change:marks", attach);
+    model.off("change:brushes", attach);
+    model.off("msg:custom", onMessage);
+  };
+}
