@@ -21,6 +21,7 @@ from compwidgets.views._plot_layout import (
     plane_limits,
     ray_label_positions,
     text_width_px,
+    tick_decimals,
 )
 
 
@@ -258,3 +259,25 @@ def test_text_width_grows_with_the_text_and_the_font():
     assert text_width_px("Fe2O3") > text_width_px("Fe")
     assert text_width_px("MW") > text_width_px("il")  # wide letters against narrow ones
     assert text_width_px("SiO2", 24) == pytest.approx(2 * text_width_px("SiO2", 12))
+
+
+@pytest.mark.parametrize("top", [0.011, 0.05, 0.3, 0.66, 1.1, 4.8, 9.9, 12.0, 55.0, 110.0])
+def test_tick_decimals_tell_every_tick_apart(top):
+    # the ticks of [0, top] as a general plotting library places them (matplotlib's
+    # MaxNLocator, at most ten, steps of 1, 2 or 5 times a power of ten as the browser's
+    # axes use): each keeps its own label with the decimals chosen
+    from matplotlib.ticker import MaxNLocator
+
+    locator = MaxNLocator(nbins=10, steps=[1, 2, 5, 10])
+    ticks = [v for v in locator.tick_values(0.0, top) if 0 <= v <= top * (1 + 1e-9)]
+    decimals = tick_decimals(top)
+    labels = [f"{v:.{decimals}f}" for v in ticks]
+    assert len(set(labels)) == len(ticks), (top, labels)
+    # and no more decimals than needed: one fewer would merge two labels (or none is needed)
+    if decimals:
+        fewer = {f"{v:.{decimals - 1}f}" for v in ticks}
+        assert len(fewer) < len(ticks), (top, ticks)
+
+
+def test_tick_decimals_of_an_empty_axis_are_zero():
+    assert tick_decimals(0.0) == tick_decimals(-1.0) == tick_decimals(float("nan")) == 0

@@ -12,7 +12,7 @@ import numpy as np
 
 from ..core import CompositionError
 
-__all__ = ["plane_limits", "ray_label_positions", "text_width_px"]
+__all__ = ["plane_limits", "ray_label_positions", "text_width_px", "tick_decimals"]
 
 #: Most pushes of a ray label along and across its ray (bounds the positions tried).
 _MAX_PUSH_STEPS = 40
@@ -60,6 +60,23 @@ def text_width_px(text: str, font_px: float = 12.0) -> float:
         else:
             width += _CHAR_PX
     return width * float(font_px) / 12.0
+
+
+def tick_decimals(top: float) -> int:
+    """Decimals that tell apart the ticks of an axis from 0 to ``top`` (up to ten ticks).
+
+    The tick step is the smallest 1, 2 or 5 times a power of ten that gives at most ten
+    steps (the "nice" steps plotting libraries use); its decimals are returned (0 for
+    steps of 1 and more). Fewer ticks have larger steps, which need no more decimals.
+    Non-positive or non-finite ``top``: 0.
+    """
+    top = float(top)
+    if not np.isfinite(top) or top <= 0:
+        return 0
+    least = top / 10.0
+    power = 10.0 ** np.floor(np.log10(least))
+    step = next(m * power for m in (1, 2, 5, 10) if m * power >= least * (1 - 1e-12))
+    return max(0, -int(np.floor(np.log10(step) + 1e-9)))
 
 
 def plane_limits(

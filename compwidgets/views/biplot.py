@@ -597,6 +597,10 @@ class BiplotView(ScatterView):
             top = float(percent.max()) * 1.1 if percent.size else 100.0
             if self._bar_y.max != top:
                 self._bar_y.max = top
+            # at 200 parts no component holds 1 %: whole numbers would label every tick 0 or 1
+            tick_format = f".{plot_layout.tick_decimals(top)}f"
+            if self._bar_axes[1].tick_format != tick_format:
+                self._bar_axes[1].tick_format = tick_format
             note = (
                 f"total variance {cm.format_number(fit.total_variance)} "
                 f"(clr, {fit.n_rows_used} rows)"
