@@ -79,6 +79,10 @@ class Recorder:
         self.messages += 1
         self.json_bytes += len(text.encode())
         self.buffer_bytes += size
+        if msg.get("method") == "custom":  # e.g. the page speed-ups' one message of all marks
+            kind = f"custom:{msg.get('content', {}).get('kind', '?')}"
+            self.by_trait[kind] = self.by_trait.get(kind, 0) + size
+            return
         paths = msg.get("buffer_paths", [])
         for key in {*msg.get("state", {}), *(p[0] for p in paths)}:
             share = sum(

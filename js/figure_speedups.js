@@ -10,7 +10,7 @@
 //
 // Synced traits read here: marks, brushes (references "IPY_MODEL_<id>" of bqplot models).
 // Message from the kernel: {kind: "selections", marks: [{mark, selected (index of its
-// buffer of uint32 positions, or null), selected_style, unselected_style}]}.
+// buffer of uint32 positions, or null), unselected_style}]}.
 
 import { holdBrushUntilRelease } from "./brush_hold.js";
 import { showSelection, speedUpScatter } from "./scatter_restyle.js";
@@ -109,7 +109,7 @@ export function initialize({ model }) {
         ? null
         : uint32Of(buffers[entry.selected]);
       for (const view of views) {
-        showSelection(view, selected, entry.selected_style || {}, entry.unselected_style || {});
+        showSelection(view, selected, entry.unselected_style || {});
       }
     }
   };

@@ -341,8 +341,8 @@ test("initialize takes over the views of the marks and brushes the kernel names"
   custom[0]({
     kind: "selections",
     marks: [
-      { mark: "IPY_MODEL_abc", selected: 0, selected_style: SELECTED, unselected_style: FADED },
-      { mark: "IPY_MODEL_missing", selected: null, selected_style: {}, unselected_style: {} },
+      { mark: "IPY_MODEL_abc", selected: 0, unselected_style: FADED },
+      { mark: "IPY_MODEL_missing", selected: null, unselected_style: {} },
     ],
   }, [positions]);
   assertPicture(points, [1, 3], SELECTED, FADED);
@@ -350,7 +350,7 @@ test("initialize takes over the views of the marks and brushes the kernel names"
   assert.equal(view.fullRestyles, before);
   custom[0]({
     kind: "selections",
-    marks: [{ mark: "IPY_MODEL_abc", selected: null, selected_style: SELECTED, unselected_style: PLAIN }],
+    marks: [{ mark: "IPY_MODEL_abc", selected: null, unselected_style: PLAIN }],
   }, []);
   assertPicture(points, null, SELECTED, PLAIN);
   custom[0]({ kind: "something else" }, []); // other messages are not this hook's

@@ -92,18 +92,16 @@ export function speedUpScatter(view) {
 
 /**
  * Show a selection on a view taken over, ahead of the mark's own messages (which then
- * find nothing left to change).
+ * find nothing left to change). The selected style stays the view's.
  * @param {any} view
  * @param {ArrayLike<number> | null} selected positions, null: no selection shown
- * @param {Record<string, unknown>} selectedStyle
  * @param {Record<string, unknown>} unselectedStyle
  * @returns {boolean} whether the view was one taken over
  */
-export function showSelection(view, selected, selectedStyle, unselectedStyle) {
+export function showSelection(view, selected, unselectedStyle) {
   const own = view && view.__cwRestyle;
   if (!own) return false;
   view.selected_indices = selected;
-  view.selected_style = selectedStyle;
   view.unselected_style = unselectedStyle;
   own.restyle();
   return true;

@@ -411,12 +411,13 @@ def test_one_message_paints_the_selection_of_every_view_of_the_model(model, monk
             model.select(selection)
         assert len(sent) == 1, "one message for all the views"
         content, buffers = sent[0]
-        by_id = {m.model_id: m for m in helper.marks}
+        # every mark with points, in order (empty symbol marks have nothing to paint)
+        by_id = {m.model_id: m for m in helper.marks if len(m.x)}
+        assert len(by_id) >= 3  # both views' points, a replaced-value marker at least
         assert [e["mark"] for e in content["marks"]] == [f"IPY_MODEL_{i}" for i in by_id]
         for entry in content["marks"]:
             mark = by_id[entry["mark"].removeprefix("IPY_MODEL_")]
             # what the page paints ahead is what the marks' own messages then say
-            assert entry["selected_style"] == dict(mark.selected_style)
             if entry["selected"] is None:  # (no unselected point: its style shows nowhere)
                 assert mark.selected is None
             else:
@@ -435,7 +436,8 @@ def test_one_message_paints_the_selection_of_every_view_of_the_model(model, monk
     assert helper.brushes == [views[1].brush]
     sent.clear()
     model.select(views[1].rows[:5])
-    assert len(sent) == 1 and len(sent[0][0]["marks"]) == len(helper.marks)
+    assert len(sent) == 1
+    assert len(sent[0][0]["marks"]) == sum(1 for m in helper.marks if len(m.x))
 
 
 def test_closing_a_view_closes_its_new_widgets(model):

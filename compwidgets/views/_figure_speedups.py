@@ -103,16 +103,18 @@ class FigureSpeedups(anywidget.AnyWidget):
 
         With each, the unselected style the mark will show (plain when nothing is
         selected, faded otherwise; see :func:`._mark_selection.unselected_style_for`).
-        The marks' own ``selected`` must still be set: this only paints ahead of them.
+        Marks without points are left out. The marks' own ``selected`` must still be
+        set: this only paints ahead of them.
         """
         if self.comm is None:
             return
         entries, buffers = [], []
         for mark, selected in selections:
+            if mark.x is None or not len(mark.x):
+                continue
             entry = {
                 "mark": f"IPY_MODEL_{mark.model_id}",
                 "selected": None,
-                "selected_style": dict(mark.selected_style),
                 "unselected_style": unselected_style_for(mark, selected),
             }
             if selected is not None:
