@@ -17,34 +17,34 @@ import { showSelection, speedUpScatter } from "./scatter_restyle.js";
 
 /**
  * Call `onView` for every view of a widget model, those it has and those made later.
+ * Several callers may follow one model (e.g. a helper made again): each gets every view.
  * @param {any} model a widget model (its `views` maps ids to promises of views)
  * @param {(view: any) => void} onView
  */
 export function forEachView(model, onView) {
   if (!model || typeof model.views !== "object" || model.views === null) return;
-  if (model.__cwFollowed) return;
-  model.__cwFollowed = true;
-  const seen = new WeakSet();
-  const take = (promise) => {
+  const take = (promise, callbacks) => {
     Promise.resolve(promise).then(
       (view) => {
-        if (view && !seen.has(view)) {
-          seen.add(view);
-          onView(view);
-        }
+        if (view) for (const fn of callbacks) fn(view);
       },
       () => {},
     );
   };
-  const views = model.views;
-  for (const key of Object.keys(views)) take(views[key]);
-  model.views = new Proxy(views, {
-    set(target, key, value) {
-      target[key] = value;
-      take(value);
-      return true;
-    },
-  });
+  if (!model.__cwOnView) {
+    model.__cwOnView = [];
+    const views = model.views;
+    model.views = new Proxy(views, {
+      set(target, key, value) {
+        target[key] = value;
+        take(value, model.__cwOnView);
+        return true;
+      },
+    });
+  }
+  if (model.__cwOnView.includes(onView)) return;
+  model.__cwOnView.push(onView);
+  for (const key of Object.keys(model.views)) take(model.views[key], [onView]);
 }
 
 /**

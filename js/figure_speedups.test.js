@@ -268,9 +268,14 @@ test("forEachView reaches the views a model has and those made later", async () 
   assert.deepEqual(seen.sort(), ["view a", "view b"]);
   delete model.views.b;
   assert.deepEqual(Object.keys(model.views), ["a"]);
-  forEachView(model, (v) => seen.push(v.name)); // once per model
+  const again = [];
+  const onView = (v) => again.push(v.name);
+  forEachView(model, onView); // a second follower (a helper made again) sees every view too
+  forEachView(model, onView); // the same follower twice: once
+  model.views.c = Promise.resolve({ name: "view c" });
   await new Promise((r) => setTimeout(r, 0));
-  assert.equal(seen.length, 2);
+  assert.deepEqual(again.sort(), ["view a", "view c"]);
+  assert.deepEqual(seen.sort(), ["view a", "view b", "view c"]);
 });
 
 /** A stand-in for a bqplot brush view: the model's `brushing` and the saves of touch(). */
