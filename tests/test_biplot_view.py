@@ -805,3 +805,35 @@ def test_ray_names_do_not_overlap_on_the_demo(composition, scaling):
             assert np.all(centres[:, 1] + half[:, 1] <= y1 * px)
     finally:
         v.close()
+
+
+def test_part_names_with_no_room_inside_the_plot_are_not_drawn_and_counted():
+    # 200 invented parts: some names are pushed beyond the plot, where they would be cut
+    rng = np.random.default_rng(11)
+    parts = [f"P{j:03d}" for j in range(200)]
+    values = np.exp(rng.normal(0.0, 1.5, 200) + rng.normal(0.0, 0.5, (300, 200)))
+    v = BiplotView(CompositionModel(read_composition(pd.DataFrame(values, columns=parts))))
+    try:
+        (x0, x1), (y0, y1) = v.view_ranges
+        _, _, _, tips = v._plane_coords()
+        centres, half = v._label_layout(tips, y1 - y0)
+        assert np.allclose(centres, np.column_stack([v.ray_labels.x, v.ray_labels.y]))
+        lo, hi = centres - half, centres + half
+        inside = (lo[:, 0] >= x0) & (hi[:, 0] <= x1) & (lo[:, 1] >= y0) & (hi[:, 1] <= y1)
+        drawn = np.asarray(v.ray_labels.opacities, float) > 0
+        assert drawn.shape == (200,) and not drawn.all()  # some had no room
+        np.testing.assert_array_equal(drawn, inside)  # hidden exactly where a name is cut
+        assert list(v.ray_labels.text) == parts  # every name stays (a tip click shows it)
+        hidden = int((~drawn).sum())
+        assert f"{hidden} part names not drawn" in v.ray_note.value
+    finally:
+        v.close()
+
+
+def test_every_name_is_drawn_when_all_fit(model):
+    v = BiplotView(model)
+    try:
+        np.testing.assert_array_equal(np.asarray(v.ray_labels.opacities, float), [1.0])
+        assert "not drawn" not in v.ray_note.value
+    finally:
+        v.close()

@@ -20,7 +20,9 @@ would crowd the points) they are drawn multiplied by one readable factor
 (:func:`compwidgets.core.biplot.ray_display_factor`), said in ``ray_note``;
 the numbers in the text (link lengths, log-ratio sds, cosines) always come from
 the unscaled biplot. Part names sit beyond their tips, moved apart where they
-would overlap (:func:`compwidgets.views._plot_layout.ray_label_positions`).
+would overlap (:func:`compwidgets.views._plot_layout.ray_label_positions`); a name
+pushed beyond the plot (a few of 200 parts) is not drawn, rather than cut at the
+edge, and ``ray_note`` counts those (a click on the ray tip still names the part).
 
 Example
 -------
@@ -49,6 +51,7 @@ from . import _common as cm
 from . import _plot_layout as plot_layout
 from ._scatter import ScatterView
 from ._threads import one_blas_thread
+from ._words import counted
 
 __all__ = ["BiplotView"]
 
@@ -541,7 +544,13 @@ class BiplotView(ScatterView):
         (x0, x1), (y0, y1) = self.view_ranges
         # each name's box (centred on its position) clears its tip along the ray, and
         # names that would overlap are moved apart (outward or sideways)
-        labels, _ = self._label_layout(tips, y1 - y0)
+        labels, half = self._label_layout(tips, y1 - y0)
+        # a name pushed beyond the plot (many parts) would be cut at its edge: not drawn
+        lo, hi = labels - half, labels + half
+        inside = (lo[:, 0] >= x0) & (hi[:, 0] <= x1) & (lo[:, 1] >= y0) & (hi[:, 1] <= y1)
+        opacities = np.ones(1) if inside.all() else inside.astype(float)
+        if not np.array_equal(np.asarray(self.ray_labels.opacities, float), opacities):
+            self.ray_labels.opacities = opacities
         legend_x = self._legend_anchor()[0] - 0.02 * (x1 - x0)
         zeros = np.zeros(D)
         cm.assign_arrays(
@@ -558,12 +567,18 @@ class BiplotView(ScatterView):
             x=np.array([[x0, legend_x], [0.0, 0.0]], dtype=np.float32),
             y=np.array([[0.0, 0.0], [y0, y1]], dtype=np.float32),
         )
-        note = ""
+        notes = []
         if self.ray_factor != 1.0 and D:
-            note = (
+            notes.append(
                 f"rays drawn \u00d7 {self.ray_factor:g} "
                 "(lengths compare between rays, not with points)"
             )
+        if not inside.all():
+            notes.append(
+                f"{counted(int((~inside).sum()), 'part name')} not drawn (no room); "
+                "click a ray tip, tool Off, for its name"
+            )
+        note = "; ".join(notes)
         if self.ray_note.value != note:
             self.ray_note.value = note
 
