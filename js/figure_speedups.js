@@ -71,39 +71,43 @@ export function uint32Of(buffer) {
  */
 export function initialize({ model }) {
   const manager = model.widget_manager;
+  /** @param {unknown} ref "IPY_MODEL_<id>" */
+  const idOf = (ref) => String(ref).replace(/^IPY_MODEL_/, "");
   const started = new Set();
   /** @type {Map<string, Set<any>>} scatter views taken over, by mark id */
   const scatterViews = new Map();
+  /**
+   * Follow the views of each widget a trait names, once per widget.
+   * @param {string} trait
+   * @param {(id: string) => (view: any) => void} onView what to do with a view of widget id
+   */
+  const follow = (trait, onView) => {
+    for (const ref of model.get(trait) || []) {
+      const id = idOf(ref);
+      if (started.has(id) || !manager) continue;
+      started.add(id);
+      Promise.resolve(manager.get_model(id)).then(
+        (widget) => forEachView(widget, onView(id)),
+        () => {},
+      );
+    }
+  };
+  /** @param {string} id */
+  const scatterTaken = (id) => (/** @type {any} */ view) => {
+    if (!speedUpScatter(view)) return;
+    if (!scatterViews.has(id)) scatterViews.set(id, new Set());
+    scatterViews.get(id).add(view);
+    view.once?.("remove", () => scatterViews.get(id)?.delete(view));
+  };
   const attach = () => {
-    for (const ref of model.get("marks") || []) {
-      const id = String(ref).replace(/^IPY_MODEL_/, "");
-      if (started.has(id) || !manager) continue;
-      started.add(id);
-      Promise.resolve(manager.get_model(id)).then(
-        (widget) => forEachView(widget, (view) => {
-          if (!speedUpScatter(view)) return;
-          if (!scatterViews.has(id)) scatterViews.set(id, new Set());
-          scatterViews.get(id).add(view);
-          view.once?.("remove", () => scatterViews.get(id)?.delete(view));
-        }),
-        () => {},
-      );
-    }
-    for (const ref of model.get("brushes") || []) {
-      const id = String(ref).replace(/^IPY_MODEL_/, "");
-      if (started.has(id) || !manager) continue;
-      started.add(id);
-      Promise.resolve(manager.get_model(id)).then(
-        (widget) => forEachView(widget, holdBrushUntilRelease),
-        () => {},
-      );
-    }
+    follow("marks", scatterTaken);
+    follow("brushes", () => holdBrushUntilRelease);
   };
   /** @param {any} content @param {any[]} buffers */
   const onMessage = (content, buffers) => {
     if (!content || content.kind !== "selections") return;
     for (const entry of content.marks || []) {
-      const views = scatterViews.get(String(entry.mark).replace(/^IPY_MODEL_/, ""));
+      const views = scatterViews.get(idOf(entry.mark));
       if (!views || !views.size) continue;
       const selected = entry.selected === null || entry.selected === undefined
         ? null

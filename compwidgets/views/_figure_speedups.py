@@ -77,20 +77,21 @@ class FigureSpeedups(anywidget.AnyWidget):
 
     # ------------------------------------------------------------------ views
     def add_view(self, view) -> None:
-        """Serve ``view``: its scatter, replaced-value and symbol marks and its brush.
+        """Serve ``view``: the marks that fade with the selection, and its brush.
 
-        The view provides ``_mark_selections()``: [(mark, its ``selected``)] of the
-        model's selection (see :class:`~compwidgets.views._scatter.ScatterView`).
+        The view provides ``_fading_marks()`` and ``_mark_selections()``: [(mark, its
+        ``selected``)] of the model's selection, for those marks (see
+        :class:`~compwidgets.views._scatter.ScatterView`).
         """
         self._views.append(weakref.ref(view))
         with self.hold_sync():
-            self.marks = [*self.marks, view.scatter, view.replaced_marker, *view._symbol_marks]
+            self.marks = [*self.marks, *view._fading_marks()]
             self.brushes = [*self.brushes, view.brush]
 
     def remove_view(self, view) -> None:
         """Stop serving ``view`` (closed)."""
         self._views = [r for r in self._views if r() is not None and r() is not view]
-        gone = {id(m) for m in (view.scatter, view.replaced_marker, *view._symbol_marks)}
+        gone = {id(m) for m in view._fading_marks()}
         if self.comm is None:
             return
         with self.hold_sync():

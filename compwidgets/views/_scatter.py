@@ -722,8 +722,12 @@ class ScatterView(DrawingTools, PolygonEditing, ColourKey, DensityLayer, HoverTi
         return float(self.height_px - m["top"] - m["bottom"])
 
     # -------------------------------------------------------------- selection
+    def _fading_marks(self) -> list:
+        """The marks that show the model's selection (unselected elements fade)."""
+        return [self.scatter, self.replaced_marker, *self._symbol_marks]
+
     def _mark_selections(self) -> list:
-        """[(mark, its ``selected``)] of every mark that shows the model's selection."""
+        """[(mark, its ``selected``)] of each of :meth:`_fading_marks`, in that order."""
         drawn = self.model.selected_mask()[self._mark_rows]
         pos = np.flatnonzero(drawn).astype(np.uint32)
         return [

@@ -546,8 +546,9 @@ class BiplotView(ScatterView):
         # names that would overlap are moved apart (outward or sideways)
         labels, half = self._label_layout(tips, y1 - y0)
         # a name pushed beyond the plot (many parts) would be cut at its edge: not drawn
-        lo, hi = labels - half, labels + half
-        inside = (lo[:, 0] >= x0) & (hi[:, 0] <= x1) & (lo[:, 1] >= y0) & (hi[:, 1] <= y1)
+        inside = np.ones(D, dtype=bool)
+        for corner in (labels - half, labels + half):
+            inside &= geometry.points_in_rectangle(corner[:, 0], corner[:, 1], (x0, x1), (y0, y1))
         opacities = np.ones(1) if inside.all() else inside.astype(float)
         if not np.array_equal(np.asarray(self.ray_labels.opacities, float), opacities):
             self.ray_labels.opacities = opacities
